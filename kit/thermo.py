@@ -1,0 +1,930 @@
+"""Thermodynamics on pressure levels: theta, theta-e, theta-w, wet-bulb, dew point, 0 C levels.
+
+Every function accepts numpy arrays (or scalars) and xarray objects alike,
+broadcasts its arguments and returns the kind that came in. xarray inputs
+backed by dask stay lazy (the work runs block by block through
+:func:`xarray.apply_ufunc`). Units are fixed and documented: temperatures in
+kelvin, pressure in hectopascals, relative humidity as a fraction 0..1,
+specific humidity in kg kg-1, heights in metres.
+
+Computation only: this module never imports graphics libraries.
+
+References
+----------
+.. [Bolton1980] Bolton, D., 1980: The computation of equivalent potential
+   temperature. Mon. Wea. Rev., 108, 1046-1053.
+.. [DaviesJones2008] Davies-Jones, R., 2008: An efficient and accurate method
+   for computing the wet-bulb temperature along pseudoadiabats. Mon. Wea.
+   Rev., 136, 2764-2785.
+"""
+
+import numpy as np
+import xarray as xr
+
+from kit.errors import InputError
+
+__all__ = [
+    "KAPPA",
+    "EPSILON",
+    "T0C",
+    "potential_temperature",
+    "saturation_vapour_pressure",
+    "vapour_pressure_from_dewpoint",
+    "mixing_ratio_from_dewpoint",
+    "dewpoint_from_vapour_pressure",
+    "dewpoint_from_relative_humidity",
+    "dewpoint_from_specific_humidity",
+    "relative_humidity",
+    "lcl_temperature",
+    "equivalent_potential_temperature",
+    "saturated_equivalent_potential_temperature",
+    "wet_bulb_potential_temperature",
+    "wet_bulb_temperature",
+    "theta_w_of",
+    "level_field",
+    "freezing_level",
+    "wet_bulb_freezing_level",
+    "warm_layer_aloft",
+]
+
+#: Poisson exponent R_d / c_pd of dry air used in theta-e [1] (Bolton 1980, Eq. 39: 0.2854).
+KAPPA = 0.2854
+#: Ratio of the gas constants of dry air and water vapour, R_d / R_v [1].
+EPSILON = 0.622
+#: 0 C in kelvin [K].
+T0C = 273.15
+_P0 = 1000.0  # reference pressure [hPa]
+
+# Bolton (1980) Eq. 10 constants: es = 6.112 exp(17.67 Tc / (Tc + 243.5)) [hPa]
+_ES0 = 6.112
+_EA = 17.67
+_EB = 243.5
+
+
+# ---------------------------------------------------------------------------
+# container handling
+# ---------------------------------------------------------------------------
+def _is_xr(x):
+    return isinstance(x, (xr.DataArray, xr.Dataset))
+
+
+def _float(x):
+    """Numpy float array; keep float32, promote everything else to float64."""
+    a = np.asarray(x)
+    if a.dtype == np.float32:
+        return a
+    return a.astype(np.float64, copy=False)
+
+
+def _apply(func, *args, name=None, attrs=None):
+    """Run an element-wise numpy kernel on numpy or xarray arguments.
+
+    xarray arguments are aligned and broadcast by :func:`xarray.apply_ufunc`
+    (lazily with dask); numpy arguments are broadcast by numpy. Scalars in give
+    a numpy scalar out.
+    """
+    if any(_is_xr(a) for a in args):
+        out = xr.apply_ufunc(
+            lambda *a: func(*[_float(v) for v in a]),
+            *args,
+            dask="parallelized",
+            output_dtypes=[_result_dtype(args)],
+            keep_attrs=False,
+        )
+        if isinstance(out, xr.DataArray):
+            if name is not None:
+                out.name = name
+            if attrs:
+                out.attrs.update(attrs)
+        return out
+    res = func(*[_float(a) for a in args])
+    if np.ndim(res) == 0:
+        return res[()] if isinstance(res, np.ndarray) else res
+    return res
+
+
+def _result_dtype(args):
+    dts = [getattr(a, "dtype", np.dtype(np.float64)) for a in args if hasattr(a, "dtype")]
+    if dts and all(d == np.float32 for d in dts):
+        return np.float32
+    return np.float64
+
+
+# ---------------------------------------------------------------------------
+# numpy kernels
+# ---------------------------------------------------------------------------
+def _es(t):
+    tc = t - T0C
+    return _ES0 * np.exp(_EA * tc / (tc + _EB))
+
+
+def _td_from_e(e):
+    with np.errstate(divide="ignore", invalid="ignore"):
+        v = np.log(e / _ES0)
+        return T0C + _EB * v / (_EA - v)
+
+
+def _theta(t, p):
+    return t * (_P0 / p) ** KAPPA
+
+
+def _tl(t, td):
+    return 56.0 + 1.0 / (1.0 / (td - 56.0) + np.log(t / td) / 800.0)
+
+
+def _theta_e(t, td, p):
+    e = _es(td)
+    r = EPSILON * e / (p - e)
+    tl = _tl(t, td)
+    th_dl = t * (_P0 / (p - e)) ** KAPPA * (t / tl) ** (0.28 * r)
+    return th_dl * np.exp(r * (1.0 + 0.448 * r) * (3036.0 / tl - 1.78))
+
+
+def _log_theta_es_and_slope(t, p):
+    """ln theta-e of saturated air at (t, p) and its derivative in t [K-1].
+
+    Bolton (1980) Eq. 39 with T_L = T (saturated air): the pseudo-adiabat
+    through (t, p) is labelled by this value.
+    """
+    tc = t - T0C
+    den = tc + _EB
+    es = _ES0 * np.exp(_EA * tc / den)
+    des = es * (_EA * _EB) / (den * den)
+    pd = p - es
+    r = EPSILON * es / pd
+    dr = EPSILON * p * des / (pd * pd)
+    g = 3036.0 / t - 1.78
+    f = np.log(t) + KAPPA * np.log(_P0 / pd) + r * (1.0 + 0.448 * r) * g
+    df = 1.0 / t + KAPPA * des / pd + (1.0 + 0.896 * r) * dr * g - r * (1.0 + 0.448 * r) * 3036.0 / (t * t)
+    return f, df
+
+
+def _theta_w_first_guess(theta_e):
+    # Davies-Jones (2008), Eq. 3.8: rational fit of theta_e - theta_w in x = theta_e / 273.15
+    x = theta_e / T0C
+    x2 = x * x
+    x3 = x2 * x
+    x4 = x2 * x2
+    a = 7.101574 - 20.68208 * x + 16.11182 * x2 + 2.574631 * x3 - 5.205688 * x4
+    b = 1.0 - 3.552497 * x + 3.781782 * x2 - 0.6899655 * x3 - 0.5929340 * x4
+    return np.where(theta_e > 173.15, theta_e - np.exp(a / b), theta_e)
+
+
+def _invert_theta_e(log_theta_e, p, t_guess, iterations):
+    """Newton iterations for the temperature at p on the pseudo-adiabat ln theta_e."""
+    t = t_guess
+    for _ in range(iterations):
+        f, df = _log_theta_es_and_slope(t, p)
+        t = t - (f - log_theta_e) / df
+    return t
+
+
+def _theta_w(t, td, p, iterations=2):
+    te = _theta_e(t, td, p)
+    guess = _theta_w_first_guess(te)
+    return _invert_theta_e(np.log(te), np.asarray(_P0, dtype=te.dtype), guess, iterations)
+
+
+def _wet_bulb(t, td, p, iterations=4):
+    te = _theta_e(t, td, p)
+    # The wet-bulb temperature lies between the dew point and the temperature;
+    # start from the temperature (Newton then converges from above).
+    return _invert_theta_e(np.log(te), p, np.broadcast_to(t, te.shape).astype(te.dtype), iterations)
+
+
+# ---------------------------------------------------------------------------
+# public element-wise functions
+# ---------------------------------------------------------------------------
+def potential_temperature(t, p):
+    r"""Potential temperature.
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K].
+    p : array_like or xarray.DataArray
+        Pressure [hPa].
+
+    Returns
+    -------
+    same kind as the input
+        Potential temperature theta [K].
+
+    Notes
+    -----
+    .. math:: \theta = T (1000 / p)^{\kappa}, \quad \kappa = 0.2854
+
+    (Eq. 7, [Bolton1980]).
+
+    Examples
+    --------
+    >>> round(float(potential_temperature(273.15, 850.0)), 2)
+    286.29
+    """
+    return _apply(_theta, t, p, name="theta", attrs={"units": "K", "long_name": "potential temperature"})
+
+
+def saturation_vapour_pressure(t):
+    r"""Saturation vapour pressure over liquid water.
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Temperature [K].
+
+    Returns
+    -------
+    same kind as the input
+        Saturation vapour pressure [hPa].
+
+    Notes
+    -----
+    .. math:: e_s = 6.112 \exp\left(\frac{17.67 T_c}{T_c + 243.5}\right)
+
+    with T_c in degrees Celsius (Eq. 10, [Bolton1980]; within 0.1 % for
+    -35..35 C).
+
+    Examples
+    --------
+    >>> round(float(saturation_vapour_pressure(273.15)), 3)
+    6.112
+    """
+    return _apply(_es, t, attrs={"units": "hPa"})
+
+
+def vapour_pressure_from_dewpoint(td):
+    """Vapour pressure from the dew point [hPa] (Eq. 10, [Bolton1980] at the dew point).
+
+    Parameters
+    ----------
+    td : array_like or xarray.DataArray
+        Dew point [K].
+
+    Returns
+    -------
+    same kind as the input
+        Vapour pressure [hPa].
+    """
+    return _apply(_es, td, attrs={"units": "hPa"})
+
+
+def mixing_ratio_from_dewpoint(td, p):
+    r"""Water-vapour mixing ratio from dew point and pressure.
+
+    Parameters
+    ----------
+    td : array_like or xarray.DataArray
+        Dew point [K].
+    p : array_like or xarray.DataArray
+        Pressure [hPa].
+
+    Returns
+    -------
+    same kind as the input
+        Mixing ratio [kg kg-1].
+
+    Notes
+    -----
+    .. math:: r = \varepsilon e / (p - e), \quad e = e_s(T_d)
+
+    Examples
+    --------
+    >>> round(float(mixing_ratio_from_dewpoint(283.15, 1000.0)), 5)
+    0.00766
+    """
+
+    def k(td, p):
+        e = _es(td)
+        return EPSILON * e / (p - e)
+
+    return _apply(k, td, p, name="mixing_ratio", attrs={"units": "kg kg-1"})
+
+
+def dewpoint_from_vapour_pressure(e):
+    r"""Dew point from vapour pressure, inverting Eq. 10 of [Bolton1980].
+
+    Parameters
+    ----------
+    e : array_like or xarray.DataArray
+        Vapour pressure [hPa]; zero or negative gives NaN.
+
+    Returns
+    -------
+    same kind as the input
+        Dew point [K].
+
+    Notes
+    -----
+    .. math:: T_d = 273.15 + \frac{243.5 \ln(e/6.112)}{17.67 - \ln(e/6.112)}
+    """
+
+    def k(e):
+        return _td_from_e(np.where(e > 0, e, np.nan))
+
+    return _apply(k, e, name="td", attrs={"units": "K"})
+
+
+def dewpoint_from_relative_humidity(t, rh):
+    r"""Dew point from temperature and relative humidity.
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K].
+    rh : array_like or xarray.DataArray
+        Relative humidity with respect to liquid water as a fraction 0..1
+        (not percent). Zero or negative gives NaN.
+
+    Returns
+    -------
+    same kind as the input
+        Dew point [K].
+
+    Notes
+    -----
+    :math:`e = RH\, e_s(T)`, then Eq. 10 of [Bolton1980] inverted.
+
+    Examples
+    --------
+    >>> round(float(dewpoint_from_relative_humidity(293.15, 0.5)), 2)
+    282.47
+    """
+
+    def k(t, rh):
+        return _td_from_e(np.where(rh > 0, rh * _es(t), np.nan))
+
+    return _apply(k, t, rh, name="td", attrs={"units": "K", "long_name": "dew point"})
+
+
+def dewpoint_from_specific_humidity(q, p):
+    r"""Dew point from specific humidity and pressure.
+
+    Parameters
+    ----------
+    q : array_like or xarray.DataArray
+        Specific humidity [kg kg-1]; zero or negative gives NaN.
+    p : array_like or xarray.DataArray
+        Pressure [hPa].
+
+    Returns
+    -------
+    same kind as the input
+        Dew point [K].
+
+    Notes
+    -----
+    .. math:: e = \frac{q p}{\varepsilon + (1 - \varepsilon) q}
+
+    then Eq. 10 of [Bolton1980] inverted.
+
+    Examples
+    --------
+    >>> round(float(dewpoint_from_specific_humidity(0.008, 1000.0)), 2)
+    283.81
+    """
+
+    def k(q, p):
+        e = q * p / (EPSILON + (1.0 - EPSILON) * q)
+        return _td_from_e(np.where(q > 0, e, np.nan))
+
+    return _apply(k, q, p, name="td", attrs={"units": "K", "long_name": "dew point"})
+
+
+def relative_humidity(t, td):
+    r"""Relative humidity with respect to liquid water.
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K].
+    td : array_like or xarray.DataArray
+        Dew point [K].
+
+    Returns
+    -------
+    same kind as the input
+        Relative humidity as a fraction [1], :math:`e_s(T_d) / e_s(T)`.
+
+    Examples
+    --------
+    >>> round(float(relative_humidity(293.15, 293.15)), 6)
+    1.0
+    """
+
+    def k(t, td):
+        return _es(td) / _es(t)
+
+    return _apply(k, t, td, name="rh", attrs={"units": "1"})
+
+
+def lcl_temperature(t, td):
+    r"""Temperature at the lifting condensation level.
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K].
+    td : array_like or xarray.DataArray
+        Dew point [K].
+
+    Returns
+    -------
+    same kind as the input
+        T_L [K].
+
+    Notes
+    -----
+    .. math:: T_L = \frac{1}{1/(T_d - 56) + \ln(T/T_d)/800} + 56
+
+    (Eq. 15, [Bolton1980]; within 0.1 K).
+
+    Examples
+    --------
+    >>> round(float(lcl_temperature(293.15, 283.15)), 2)
+    281.02
+    """
+    return _apply(_tl, t, td, name="t_lcl", attrs={"units": "K"})
+
+
+def equivalent_potential_temperature(t, td, p):
+    r"""Equivalent potential temperature (pseudo-adiabatic), Bolton's formula.
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K].
+    td : array_like or xarray.DataArray
+        Dew point [K].
+    p : array_like or xarray.DataArray
+        Pressure [hPa].
+
+    Returns
+    -------
+    same kind as the input
+        theta-e [K].
+
+    Notes
+    -----
+    .. math::
+
+        \theta_{DL} = T \left(\frac{1000}{p - e}\right)^{0.2854}
+                      \left(\frac{T}{T_L}\right)^{0.28 r}, \quad
+        \theta_E = \theta_{DL} \exp\left[\left(\frac{3036}{T_L} - 1.78\right)
+                      r (1 + 0.448 r)\right]
+
+    with r in kg kg-1 (Eqs. 24 and 39, [Bolton1980]; T_L from Eq. 15, e from
+    Eq. 10).
+
+    Examples
+    --------
+    >>> round(float(equivalent_potential_temperature(293.15, 291.15, 850.0)), 1)
+    353.9
+    """
+    return _apply(_theta_e, t, td, p, name="theta_e",
+                  attrs={"units": "K", "long_name": "equivalent potential temperature"})
+
+
+def saturated_equivalent_potential_temperature(t, p):
+    """Theta-e of saturated air at (t, p): the label of the pseudo-adiabat through it [K].
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K].
+    p : array_like or xarray.DataArray
+        Pressure [hPa].
+
+    Returns
+    -------
+    same kind as the input
+        Saturated theta-e [K] (Eq. 39, [Bolton1980] with T_d = T).
+    """
+
+    def k(t, p):
+        return np.exp(_log_theta_es_and_slope(t, p)[0])
+
+    return _apply(k, t, p, name="theta_es", attrs={"units": "K"})
+
+
+def wet_bulb_potential_temperature(t, td, p):
+    r"""Wet-bulb potential temperature theta-w.
+
+    The temperature air reaches when lifted dry-adiabatically to its lifting
+    condensation level and then brought pseudo-adiabatically to 1000 hPa.
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K].
+    td : array_like or xarray.DataArray
+        Dew point [K].
+    p : array_like or xarray.DataArray
+        Pressure [hPa].
+
+    Returns
+    -------
+    same kind as the input
+        theta-w [K].
+
+    Notes
+    -----
+    theta-e from Eq. 39 of [Bolton1980]; the first guess of theta-w from the
+    rational fit Eq. 3.8 of [DaviesJones2008]; then two Newton steps on
+
+    .. math:: \ln\theta_E^{sat}(\theta_W, 1000\,\mathrm{hPa}) = \ln\theta_E
+
+    with the analytic derivative, so theta-w is the exact inverse of Bolton's
+    theta-e (the fit alone is within about 0.02 K; each step squares the
+    error).
+
+    Examples
+    --------
+    >>> round(float(wet_bulb_potential_temperature(293.15, 291.15, 850.0)), 2)
+    297.41
+    """
+    return _apply(_theta_w, t, td, p, name="theta_w",
+                  attrs={"units": "K", "long_name": "wet-bulb potential temperature"})
+
+
+def wet_bulb_temperature(t, td, p):
+    r"""Pseudo-adiabatic wet-bulb temperature.
+
+    The temperature air reaches when lifted to its lifting condensation level
+    and brought back pseudo-adiabatically to its own pressure.
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K].
+    td : array_like or xarray.DataArray
+        Dew point [K].
+    p : array_like or xarray.DataArray
+        Pressure [hPa].
+
+    Returns
+    -------
+    same kind as the input
+        Wet-bulb temperature [K].
+
+    Notes
+    -----
+    Following [DaviesJones2008]: theta-e of the air (Eq. 39, [Bolton1980])
+    labels its pseudo-adiabat; the wet-bulb temperature T_W solves
+    :math:`\theta_E^{sat}(T_W, p) = \theta_E` and is found by Newton
+    iterations with the analytic derivative, starting from T (the iteration
+    then approaches the root from above).
+
+    Examples
+    --------
+    >>> round(float(wet_bulb_temperature(293.15, 283.15, 1000.0)), 1)
+    287.2
+    """
+    return _apply(_wet_bulb, t, td, p, name="tw",
+                  attrs={"units": "K", "long_name": "wet-bulb temperature"})
+
+
+# ---------------------------------------------------------------------------
+# dataset conveniences
+# ---------------------------------------------------------------------------
+def _pressure_of(ds, da):
+    if "level" not in da.coords:
+        raise InputError("dataset: no 'level' coordinate [hPa]; expected pressure-level fields")
+    return da["level"].astype(da.dtype if da.dtype == np.float32 else np.float64)
+
+
+def _select_level(ds, da, level, what):
+    if level is None:
+        return da
+    if "level" not in da.dims:
+        raise InputError(f"dataset variable '{what}': no 'level' dimension; expected pressure levels")
+    levels = np.asarray(da["level"].values, dtype=float)
+    hit = np.isclose(levels, float(level), rtol=0, atol=1e-6)
+    if not hit.any():
+        avail = ", ".join(f"{v:g}" for v in levels)
+        raise InputError(f"level {float(level):g} hPa not in the dataset; available: {avail} hPa")
+    return da.isel(level=int(np.flatnonzero(hit)[0]))
+
+
+def _need(ds, *names):
+    for n in names:
+        if n not in ds:
+            have = ", ".join(sorted(map(str, ds.data_vars))) or "none"
+            raise InputError(f"dataset: variable '{n}' missing (have: {have}); expected the canonical fields")
+
+
+def theta_w_of(ds, level=None):
+    """Theta-w of a canonical dataset (``t``, ``td`` on pressure ``level``).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical dataset (see DEVELOPERS.md): ``t`` and ``td`` [K] on the
+        ``level`` coordinate [hPa].
+    level : float, optional
+        One pressure level [hPa]; all levels when None.
+
+    Returns
+    -------
+    xarray.DataArray
+        theta-w [K], named ``theta_w``, lazy when the dataset is.
+    """
+    _need(ds, "t", "td")
+    t = _select_level(ds, ds["t"], level, "t")
+    td = _select_level(ds, ds["td"], level, "td")
+    p = _pressure_of(ds, t)
+    out = wet_bulb_potential_temperature(t, td, p)
+    out.name = "theta_w"
+    return out
+
+
+_DERIVED = {
+    "theta": lambda t, td, p: potential_temperature(t, p),
+    "theta_e": equivalent_potential_temperature,
+    "theta_w": wet_bulb_potential_temperature,
+    "tw": wet_bulb_temperature,
+    "rh": lambda t, td, p: relative_humidity(t, td),
+}
+
+
+def level_field(ds, name, level):
+    """One field on one pressure level, stored or derived.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical dataset.
+    name : str
+        A variable of the dataset, or a derived one: ``theta``, ``theta_e``,
+        ``theta_w``, ``tw`` (wet-bulb temperature) [K] or ``rh`` [1].
+    level : float
+        Pressure level [hPa].
+
+    Returns
+    -------
+    xarray.DataArray
+        The field on that level.
+    """
+    if name in ds:
+        return _select_level(ds, ds[name], level, name)
+    if name not in _DERIVED:
+        have = ", ".join(sorted(list(map(str, ds.data_vars)) + list(_DERIVED)))
+        raise InputError(f"field '{name}': not in the dataset nor derivable; expected one of: {have}")
+    _need(ds, "t", "td")
+    t = _select_level(ds, ds["t"], level, "t")
+    td = _select_level(ds, ds["td"], level, "td")
+    out = _DERIVED[name](t, td, _pressure_of(ds, t))
+    out.name = name
+    return out
+
+
+# ---------------------------------------------------------------------------
+# vertical profiles: 0 C levels and warm layers aloft
+# ---------------------------------------------------------------------------
+def _column_args(dim, *arrays):
+    """Resolve the vertical dimension/axis; return (is_xr, core dim or axis)."""
+    if any(_is_xr(a) for a in arrays):
+        if not isinstance(dim, str):
+            raise InputError(f"vertical dimension {dim!r}: expected a dimension name for xarray input")
+        for a in arrays:
+            if _is_xr(a) and dim not in a.dims:
+                raise InputError(f"vertical dimension '{dim}' not in {tuple(a.dims)}; pass dim=<name>")
+        return True, dim
+    nd = max(np.ndim(a) for a in arrays)
+    if isinstance(dim, str):
+        if nd == 1:
+            return False, 0
+        raise InputError(
+            f"vertical dimension '{dim}': numpy input of {nd} dimensions needs dim=<axis number>"
+        )
+    if not -nd <= int(dim) < nd:
+        raise InputError(f"vertical axis {dim}: out of range for {nd}-dimensional input")
+    return False, int(dim)
+
+
+def _sorted_columns(t, z):
+    """Move the vertical axis last and sort each column by height (NaNs last)."""
+    order = np.argsort(np.where(np.isfinite(z), z, np.inf), axis=-1, kind="stable")
+    return np.take_along_axis(t, order, -1), np.take_along_axis(z, order, -1)
+
+
+def _freezing_level_kernel(t, z):
+    """Highest warm-below/cold-above 0 C crossing in each column (vertical axis last)."""
+    t, z = np.broadcast_arrays(_float(t), _float(z))
+    t, z = _sorted_columns(t, z)
+    tc = t - T0C
+    valid = np.isfinite(tc) & np.isfinite(z)
+    warm = valid & (tc >= 0)
+    cold = valid & (tc < 0)
+    lo_warm, hi_cold = warm[..., :-1], cold[..., 1:]
+    cross = lo_warm & hi_cold
+    n = cross.shape[-1]
+    # highest crossing: last True along the axis
+    k_last = n - 1 - np.argmax(cross[..., ::-1], axis=-1)
+    any_cross = cross.any(axis=-1)
+    k = np.where(any_cross, k_last, 0)[..., None]
+    t0 = np.take_along_axis(tc, k, -1)[..., 0]
+    t1 = np.take_along_axis(tc, k + 1, -1)[..., 0]
+    z0 = np.take_along_axis(z, k, -1)[..., 0]
+    z1 = np.take_along_axis(z, k + 1, -1)[..., 0]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        zc = z0 + (z1 - z0) * t0 / (t0 - t1)
+    # columns without a crossing: all sub-zero -> lowest valid height; otherwise NaN
+    has_valid = valid.any(axis=-1)
+    first_valid = np.argmax(valid, axis=-1)[..., None]
+    z_low = np.take_along_axis(z, first_valid, -1)[..., 0]
+    all_cold = has_valid & ~(warm.any(axis=-1))
+    out = np.where(any_cross, zc, np.where(all_cold, z_low, np.nan))
+    return out
+
+
+def _profile_apply(kernel, arrays, dim, n_out, names, attrs):
+    is_xr, d = _column_args(dim, *arrays)
+    if is_xr:
+        core = [[d] if (_is_xr(a) and d in a.dims) else [] for a in arrays]
+        out = xr.apply_ufunc(
+            lambda *a: kernel(*a),
+            *arrays,
+            input_core_dims=core,
+            output_core_dims=[[] for _ in range(n_out)],
+            dask="parallelized",
+            output_dtypes=[np.float64] * n_out,
+            dask_gufunc_kwargs={"allow_rechunk": True},
+        )
+        outs = out if n_out > 1 else (out,)
+        for o, nm in zip(outs, names, strict=True):
+            o.name = nm
+            o.attrs.update(attrs)
+        return out
+    moved = [np.moveaxis(_float(a), d, -1) if np.ndim(a) > 0 else _float(a) for a in arrays]
+    res = kernel(*moved)
+    if n_out == 1:
+        return res[()] if np.ndim(res) == 0 else res
+    return tuple(r[()] if np.ndim(r) == 0 else r for r in res)
+
+
+def freezing_level(t, z, *, dim="level"):
+    """Height of the highest 0 C crossing in each column (the freezing level).
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K] on levels.
+    z : array_like or xarray.DataArray
+        Height of each level [m] (geopotential height), same shape as ``t``
+        or broadcastable to it.
+    dim : str or int
+        Vertical dimension name (xarray) or axis number (numpy; may be
+        omitted for a single 1-D profile). Levels may come in either order.
+
+    Returns
+    -------
+    same kind as the input, without the vertical dimension
+        Height [m] of the highest level where the temperature falls through
+        0 C going upward, interpolated linearly in height between the two
+        levels around it. Where the whole column is below 0 C, the height of
+        the lowest level (the freezing level is at or below it). Where the
+        whole column is at or above 0 C, NaN (above the top level). Missing
+        values (NaN, e.g. levels below ground) are skipped.
+
+    Examples
+    --------
+    >>> float(freezing_level(np.array([283.15, 273.15 - 5.0]), np.array([0.0, 1500.0])))
+    1000.0
+    """
+    return _profile_apply(_freezing_level_kernel, (t, z), dim, 1, ["freezing_level_m"],
+                          {"units": "m", "long_name": "height of the highest 0 C crossing"})
+
+
+def wet_bulb_freezing_level(t, td, z, p, *, dim="level"):
+    """Height of the highest wet-bulb 0 C crossing in each column.
+
+    Parameters
+    ----------
+    t, td : array_like or xarray.DataArray
+        Air temperature and dew point [K] on levels.
+    z : array_like or xarray.DataArray
+        Height of each level [m].
+    p : array_like or xarray.DataArray
+        Pressure [hPa] (the level coordinate, broadcastable).
+    dim : str or int
+        Vertical dimension name (xarray) or axis number (numpy).
+
+    Returns
+    -------
+    same kind as the input, without the vertical dimension
+        Height [m]; rules as in :func:`freezing_level` applied to the
+        wet-bulb temperature (:func:`wet_bulb_temperature`).
+    """
+    if _is_xr(t) or _is_xr(td):
+        tw = wet_bulb_temperature(t, td, p)
+    else:
+        tw = wet_bulb_temperature(t, td, p)
+    out = freezing_level(tw, z, dim=dim)
+    if isinstance(out, xr.DataArray):
+        out.name = "wet_bulb_freezing_level_m"
+        out.attrs["long_name"] = "height of the highest wet-bulb 0 C crossing"
+    return out
+
+
+def _warm_layer_kernel(t, z, t_sfc=None, z_sfc=None):
+    t, z = np.broadcast_arrays(_float(t), _float(z))
+    t, z = _sorted_columns(t, z)
+    if t_sfc is not None:
+        t_sfc = np.broadcast_to(_float(t_sfc), t.shape[:-1])
+        if z_sfc is None:
+            z_sfc = z[..., :1][..., 0]
+        z_sfc = np.broadcast_to(_float(z_sfc), t.shape[:-1])
+        # drop levels below the ground, then put the surface first
+        below = z < z_sfc[..., None]
+        t = np.where(below, np.nan, t)
+        t = np.concatenate([t_sfc[..., None], t], axis=-1)
+        z = np.concatenate([z_sfc[..., None], np.where(below, np.nan, z)], axis=-1)
+        t, z = _sorted_columns(t, z)
+    tc = t - T0C
+    valid = np.isfinite(tc) & np.isfinite(z)
+    shape = tc.shape[:-1]
+    top = np.full(shape, np.nan)
+    base = np.full(shape, np.nan)
+    tmax = np.full(shape, np.nan)
+    # Walk the columns upward: state 0 = before the ground layer, 1 = in sub-zero
+    # air near the ground, 2 = inside the warm layer aloft, 3 = done.
+    state = np.zeros(shape, dtype=np.int8)
+    prev_t = np.full(shape, np.nan)
+    prev_z = np.full(shape, np.nan)
+    for k in range(tc.shape[-1]):
+        ok = valid[..., k]
+        tk, zk = tc[..., k], z[..., k]
+        start = ok & (state == 0)
+        state = np.where(start & (tk < 0), 1, np.where(start, 3, state))  # warm ground: none
+        enter = ok & (state == 1) & (tk >= 0) & np.isfinite(prev_t)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            zc_in = prev_z + (zk - prev_z) * (0 - prev_t) / (tk - prev_t)
+        base = np.where(enter, zc_in, base)
+        tmax = np.where(enter, tk, tmax)
+        inside = ok & (state == 2)
+        leave = inside & (tk < 0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            zc_out = prev_z + (zk - prev_z) * prev_t / (prev_t - tk)
+        top = np.where(leave, zc_out, top)
+        tmax = np.where(inside & ~leave, np.fmax(tmax, tk), tmax)
+        state = np.where(enter, 2, np.where(leave, 3, state))
+        prev_t = np.where(ok, tk, prev_t)
+        prev_z = np.where(ok, zk, prev_z)
+    # a warm layer still open at the top of the data has no known top: no layer
+    unfinished = state == 2
+    base = np.where(unfinished | np.isnan(top), np.nan, base)
+    tmax = np.where(np.isnan(top), np.nan, tmax + T0C)
+    return top, base, tmax
+
+
+def warm_layer_aloft(t, z, *, dim="level", t_surface=None, z_surface=None):
+    """Warm (above 0 C) layer lying over sub-zero air near the ground.
+
+    The classic setting for freezing rain and ice pellets: snow melts in the
+    warm layer and the drops refreeze (pellets) or freeze on contact
+    (freezing rain) in the cold air below.
+
+    Parameters
+    ----------
+    t : array_like or xarray.DataArray
+        Air temperature [K] on levels.
+    z : array_like or xarray.DataArray
+        Height of each level [m].
+    dim : str or int
+        Vertical dimension name (xarray) or axis number (numpy).
+    t_surface : array_like or xarray.DataArray, optional
+        Near-surface (2 m) temperature [K]; when given it is the bottom of
+        each column and levels below ``z_surface`` are ignored.
+    z_surface : array_like or xarray.DataArray, optional
+        Ground height [m]; defaults to the lowest level's height.
+
+    Returns
+    -------
+    top_m, base_m, max_t : same kind as the input, without the vertical dimension
+        Heights [m] of the top and base of the lowest warm layer above the
+        sub-zero ground layer (0 C crossings interpolated linearly in height)
+        and the warmest level temperature inside it [K]. NaN where the air
+        at the ground is not below 0 C, where no warm layer lies above it,
+        or where the warm layer reaches the top of the data.
+    """
+    arrays = [t, z]
+    if t_surface is not None:
+        arrays.append(t_surface)
+        if z_surface is not None:
+            arrays.append(z_surface)
+    is_xr, d = _column_args(dim, t, z)
+    if is_xr:
+        core = [[d] if (_is_xr(a) and d in a.dims) else [] for a in arrays]
+        return xr.apply_ufunc(
+            _warm_layer_kernel,
+            *arrays,
+            input_core_dims=core,
+            output_core_dims=[[], [], []],
+            dask="parallelized",
+            output_dtypes=[np.float64] * 3,
+            dask_gufunc_kwargs={"allow_rechunk": True},
+        )
+    t_m = np.moveaxis(_float(t), d, -1)
+    z_m = np.moveaxis(_float(z), d, -1) if np.ndim(z) > 0 else _float(z)
+    res = _warm_layer_kernel(t_m, z_m, *arrays[2:])
+    return tuple(r[()] if np.ndim(r) == 0 else r for r in res)
