@@ -17,7 +17,9 @@ from kit.errors import FrontshiftError
 __all__ = ["COMMANDS", "main", "build_parser"]
 
 #: sub-command modules, in the order --help lists them
-COMMANDS = []
+COMMANDS = [
+    "rerun",
+]
 
 
 class _Parser(argparse.ArgumentParser):
