@@ -1,0 +1,1050 @@
+"""Vertical cross-sections through a run: between two points or across a front.
+
+A section is a :class:`xarray.Dataset` with dimensions ``level`` [hPa] and
+``distance`` [km along the section from its start]. It holds the fields a
+forecaster reads on a cross-section (theta-w, relative humidity, wind, the
+0 C and wet-bulb 0 C levels, potential vorticity and the dynamic tropopause,
+heights) and the frontal surface located on each level with its fitted slope.
+
+Orientation (our choice): a section cut across a front runs **from the cold
+side to the warm side**, so the cold air is on the left of a figure and the
+frontal surface always leans up toward the left, for warm and cold fronts
+alike. Ahead of a warm front and behind a cold front are then both to the
+left of the surface front.
+
+The points follow the geodesic on the WGS84 ellipsoid (pyproj ``Geod``), as
+MetPy's ``cross_section`` does; values are bilinear in latitude/longitude on
+regular grids and bilinear in ``x``/``y`` on projected grids.
+"""
+
+import math
+
+import numpy as np
+import pandas as pd
+import xarray as xr
+
+from kit import CAUTION
+from kit.errors import InputError
+
+__all__ = [
+    "section_points",
+    "section_between",
+    "section_across_front",
+    "section_for_site",
+    "pick_front",
+    "potential_vorticity",
+    "locate_frontal_surface",
+    "fit_frontal_slope",
+    "compass_point",
+    "select_time",
+    "NM_KM",
+    "JET_MIN_MS",
+    "RULE_ZONES_NM",
+]
+
+#: one nautical mile [km]
+NM_KM = 1.852
+#: standard gravity [m s-2]
+G0 = 9.80665
+#: Earth's angular velocity [rad s-1]
+OMEGA = 7.2921159e-5
+#: mean Earth radius used for the metric term of vorticity [m]
+EARTH_RADIUS_M = 6371008.8
+#: lowest core speed called a jet [m s-1]; WMO definition, 30 m/s (from memory)
+JET_MIN_MS = 30.0
+#: dynamic tropopause [PVU]; Hoskins, McIntyre & Robertson (1985); sign flips in the south
+TROPOPAUSE_PVU = 2.0
+#: rule-of-thumb precipitation zones [nautical miles from the surface front], common
+#: practice, no source: rain begins 200-300 nm ahead of a warm front; the main band
+#: lies within 50-100 nm behind a cold front. Both are on the cold side.
+RULE_ZONES_NM = {"warm": (200.0, 300.0), "cold": (50.0, 100.0)}
+
+_REQUIRED = ("t", "td", "u", "v", "z")
+_COMPASS = ("N", "NE", "E", "SE", "S", "SW", "W", "NW")
+
+
+def _geod():
+    from pyproj import Geod
+
+    return Geod(ellps="WGS84")
+
+
+# ---------------------------------------------------------------------------
+# points and interpolation
+# ---------------------------------------------------------------------------
+def compass_point(bearing):
+    """Eight-point compass name of a bearing.
+
+    Parameters
+    ----------
+    bearing : float
+        Bearing clockwise from true north [degrees].
+
+    Returns
+    -------
+    str
+        One of N, NE, E, SE, S, SW, W, NW.
+
+    Examples
+    --------
+    >>> compass_point(130.0)
+    'SE'
+    """
+    return _COMPASS[int(((bearing % 360.0) + 22.5) // 45.0) % 8]
+
+
+def _check_point(point, what):
+    try:
+        lat, lon = (float(v) for v in point)
+    except (TypeError, ValueError):
+        raise InputError(f"{what} {point!r}: expected a (lat, lon) pair in degrees") from None
+    if not (np.isfinite(lat) and np.isfinite(lon) and -90.0 <= lat <= 90.0):
+        raise InputError(f"{what} ({lat}, {lon}): expected latitude -90..90 and a finite longitude")
+    return lat, ((lon + 180.0) % 360.0) - 180.0
+
+
+def section_points(start, end, *, steps=None, spacing_km=10.0):
+    """Points along the geodesic from ``start`` to ``end``, both included.
+
+    Parameters
+    ----------
+    start, end : (float, float)
+        ``(lat, lon)`` of the ends [degrees].
+    steps : int, optional
+        Number of points (at least 3); overrides ``spacing_km``.
+    spacing_km : float
+        Wanted spacing of the points [km] when ``steps`` is not given.
+
+    Returns
+    -------
+    lat, lon, distance_km, bearing_deg : ndarray
+        Point coordinates [degrees], distance from ``start`` [km] and the
+        local bearing of the section at each point [degrees clockwise from
+        north], all of length ``steps``.
+    """
+    lat0, lon0 = _check_point(start, "section start")
+    lat1, lon1 = _check_point(end, "section end")
+    geod = _geod()
+    _, _, total_m = geod.inv(lon0, lat0, lon1, lat1)
+    if total_m < 1000.0:
+        raise InputError(
+            f"section from ({lat0}, {lon0}) to ({lat1}, {lon1}): ends are {total_m:.0f} m apart;"
+            " expected at least 1 km"
+        )
+    if steps is None:
+        if not spacing_km or spacing_km <= 0:
+            raise InputError(f"spacing_km={spacing_km}: expected a positive spacing in km")
+        steps = int(math.ceil(total_m / 1000.0 / spacing_km)) + 1
+    steps = int(steps)
+    if steps < 3 or steps > 5001:
+        raise InputError(f"steps={steps}: expected 3 to 5001 points along the section")
+    mid = np.array(geod.npts(lon0, lat0, lon1, lat1, steps - 2)).reshape(-1, 2)
+    lon = np.concatenate([[lon0], mid[:, 0], [lon1]])
+    lat = np.concatenate([[lat0], mid[:, 1], [lat1]])
+    az12, az21, seg = geod.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+    dist = np.concatenate([[0.0], np.cumsum(seg)]) / 1000.0
+    bearing = np.concatenate([az12, [az21[-1] + 180.0]]) % 360.0
+    return lat, lon, dist, bearing
+
+
+def _is_projected(ds):
+    return ds.attrs.get("grid") == "projected" or ("x" in ds.dims and "y" in ds.dims)
+
+
+def _horizontal_dims(ds):
+    return ("y", "x") if _is_projected(ds) else ("lat", "lon")
+
+
+def _grid_km(ds):
+    """Typical grid length [km]."""
+    if _is_projected(ds):
+        dx = ds.attrs.get("dx_m") or float(abs(ds["x"].values[1] - ds["x"].values[0]))
+        return float(dx) / 1000.0
+    dlat = float(np.abs(np.diff(ds["lat"].values)).mean())
+    return dlat * 111.195
+
+
+def _latlon_targets(ds, lat, lon):
+    """Interpolation targets on a regular grid; pads a global grid across its seam."""
+    glon = ds["lon"].values.astype(float)
+    if glon.size > 1 and np.any(np.diff(glon) <= 0):
+        raise InputError(f"run {ds.attrs.get('run', '?')}: longitudes not ascending; expected "
+                         "the canonical grid (kit.grids.open_run)")
+    dlon = float(np.median(np.diff(glon))) if glon.size > 1 else 360.0
+    plon = glon[0] + np.mod(lon - glon[0], 360.0)
+    is_global = abs(glon[-1] - glon[0] + dlon - 360.0) < 0.5 * dlon
+    if is_global:
+        ds = xr.concat(
+            [ds.isel(lon=[-1]).assign_coords(lon=[glon[-1] - 360.0]), ds,
+             ds.isel(lon=[0]).assign_coords(lon=[glon[0] + 360.0])],
+            dim="lon",
+        )
+    return ds, {"lat": xr.DataArray(lat, dims="distance"), "lon": xr.DataArray(plon, dims="distance")}
+
+
+def _projected_targets(ds, lat, lon):
+    """Map section points to ``x``/``y`` through the CF grid mapping, or by triangulation."""
+    from pyproj import CRS, Proj, Transformer
+
+    crs = None
+    gm_name = None
+    for name in ("t", "u", "z"):
+        if name in ds and "grid_mapping" in ds[name].attrs:
+            gm_name = ds[name].attrs["grid_mapping"]
+            break
+    for cand in (gm_name, "crs", "grid_mapping", "projection"):
+        if cand and cand in ds.variables and "grid_mapping_name" in ds[cand].attrs:
+            try:
+                crs = CRS.from_cf(dict(ds[cand].attrs))
+            except Exception:  # noqa: BLE001 - fall back to triangulation below
+                crs = None
+            break
+    if crs is not None:
+        tr = Transformer.from_crs("EPSG:4326", crs, always_xy=True)
+        x, y = tr.transform(lon, lat)
+    else:
+        from scipy.interpolate import LinearNDInterpolator
+
+        glat = np.asarray(ds["lat"].values, float)
+        glon = np.asarray(ds["lon"].values, float)
+        proj = Proj(proj="aeqd", lat_0=float(np.mean(lat)), lon_0=float(np.mean(lon)),
+                    ellps="WGS84")
+        gx, gy = proj(glon, glat)
+        px, py = proj(lon, lat)
+        reach = np.hypot(px, py).max() + 5.0 * _grid_km(ds) * 1000.0
+        near = np.hypot(gx, gy) <= reach
+        if near.sum() < 4:
+            x = y = np.full(lat.shape, np.nan)
+        else:
+            xx, yy = np.meshgrid(ds["x"].values, ds["y"].values)
+            f = LinearNDInterpolator(np.column_stack([gx[near], gy[near]]),
+                                     np.column_stack([xx[near], yy[near]]))
+            xy = f(np.column_stack([px, py]))
+            x, y = xy[:, 0], xy[:, 1]
+    return ds, {"x": xr.DataArray(np.asarray(x, float), dims="distance"),
+                "y": xr.DataArray(np.asarray(y, float), dims="distance")}
+
+
+def _interp(grid_ds, targets):
+    """Bilinear values at the targets; NaN outside the grid."""
+    return grid_ds.interp(targets, method="linear")
+
+
+def select_time(ds, time):
+    """The valid time of ``ds`` matching ``time`` (within one minute).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run.
+    time : str, datetime-like or None
+        Wanted valid time (UTC; ISO 8601 such as ``2027-01-14T06:00Z``). None
+        is allowed when the run has a single valid time.
+
+    Returns
+    -------
+    numpy.datetime64
+        The matching valid time as stored in ``ds``.
+    """
+    times = np.atleast_1d(ds["time"].values).astype("datetime64[ns]")
+    run = ds.attrs.get("run", "?")
+    span = f"{_iso(times[0])} to {_iso(times[-1])}"
+    if time is None:
+        if times.size == 1:
+            return times[0]
+        raise InputError(f"run {run}: no valid time given; expected one of {times.size} times "
+                         f"from {span}")
+    try:
+        ts = pd.Timestamp(time)
+    except (TypeError, ValueError):
+        raise InputError(f"time {time!r}: not a date-time; expected ISO 8601 UTC such as "
+                         "2027-01-14T06:00Z") from None
+    if ts.tzinfo is not None:
+        ts = ts.tz_convert("UTC").tz_localize(None)
+    want = np.datetime64(ts.to_datetime64(), "ns")
+    diff = np.abs(times - want)
+    k = int(np.argmin(diff))
+    if diff[k] > np.timedelta64(60, "s"):
+        raise InputError(f"time {_iso(want)}: not a valid time of run {run}; the run covers "
+                         f"{span} ({times.size} times)")
+    return times[k]
+
+
+def _iso(t):
+    return pd.Timestamp(t).strftime("%Y-%m-%dT%H:%MZ")
+
+
+def _select_member(ds, member):
+    if "member" not in ds.dims:
+        return ds
+    members = [int(m) for m in ds["member"].values]
+    if member is None:
+        if len(members) == 1:
+            return ds.isel(member=0)
+        raise InputError(f"run {ds.attrs.get('run', '?')}: has {len(members)} members; choose "
+                         f"one of {members}")
+    if int(member) not in members:
+        raise InputError(f"member {member}: not in run {ds.attrs.get('run', '?')}; expected one "
+                         f"of {members}")
+    return ds.sel(member=int(member))
+
+
+def _at_time(ds, time, member):
+    """The run at one valid time (and member), loaded, with the needed fields checked."""
+    missing = [n for n in _REQUIRED if n not in ds]
+    if missing:
+        raise InputError(f"run {ds.attrs.get('run', '?')}: variable(s) {', '.join(missing)} "
+                         "missing; expected t, td, u, v, z on pressure levels (canonical Dataset)")
+    if "level" not in ds.dims or ds.sizes["level"] < 3:
+        raise InputError(f"run {ds.attrs.get('run', '?')}: needs at least 3 pressure levels for "
+                         "a section; expected a 'level' dimension [hPa]")
+    ds = _select_member(ds, member)
+    t = select_time(ds, time)
+    keep = [n for n in (*_REQUIRED, "precip", "t2m", "td2m", "mslp") if n in ds]
+    one = ds[keep].sel(time=t) if "time" in ds.dims else ds[keep]
+    if "time" in one.coords:
+        one = one.drop_vars("time")
+    return one.load(), t
+
+
+# ---------------------------------------------------------------------------
+# derived fields
+# ---------------------------------------------------------------------------
+def potential_vorticity(theta, u, v, grid):
+    """Baroclinic (Ertel) potential vorticity on pressure levels.
+
+    Parameters
+    ----------
+    theta : xarray.DataArray (level, Y, X)
+        Potential temperature [K] at one time.
+    u, v : xarray.DataArray (level, Y, X)
+        Eastward and northward wind [m s-1].
+    grid : xarray.Dataset
+        The canonical Dataset these fields come from (for the grid geometry).
+
+    Returns
+    -------
+    xarray.DataArray (level, Y, X)
+        Potential vorticity [PVU] (1 PVU = 1e-6 K m2 kg-1 s-1).
+
+    Notes
+    -----
+    .. math::
+
+        PV = -g \\left[(f + \\zeta)\\frac{\\partial\\theta}{\\partial p}
+             - \\frac{\\partial v}{\\partial p}\\frac{\\partial\\theta}{\\partial x}
+             + \\frac{\\partial u}{\\partial p}\\frac{\\partial\\theta}{\\partial y}\\right]
+
+    with relative vorticity :math:`\\zeta = \\partial v/\\partial x - \\partial u/\\partial y
+    + (u/a)\\tan\\varphi` on a latitude/longitude grid (the last term is the metric
+    term of the sphere), Eq. PV-1, [Hoskins1985]. Horizontal derivatives come from
+    :func:`kit.geometry.gradient`; the pressure derivative is second order with
+    one-sided ends, ``p`` in Pa. MetPy's ``potential_vorticity_baroclinic`` is a
+    second implementation (tests/test_sections.py).
+    """
+    from kit.geometry import gradient
+
+    p_pa = theta["level"].astype(float) * 100.0
+
+    def ddp(f):
+        ax = f.get_axis_num("level")
+        return f.copy(data=np.gradient(f.values, p_pa.values, axis=ax, edge_order=2))
+
+    dth_e, dth_n = gradient(theta, grid)
+    du_e, du_n = gradient(u, grid)
+    dv_e, dv_n = gradient(v, grid)
+    lat = grid["lat"]
+    zeta = dv_e - du_n
+    if not _is_projected(grid):
+        zeta = zeta + u * np.tan(np.deg2rad(lat)) / EARTH_RADIUS_M
+    f = 2.0 * OMEGA * np.sin(np.deg2rad(lat))
+    pv = -G0 * ((f + zeta) * ddp(theta) - ddp(v) * dth_e + ddp(u) * dth_n)
+    pv = (pv / 1e-6).transpose(*theta.dims)
+    pv.name = "pv"
+    pv.attrs = {"units": "PVU", "long_name": "potential vorticity (1 PVU = 1e-6 K m2 kg-1 s-1)"}
+    return pv
+
+
+def _highest_crossing(values, target, z, logp):
+    """Height and pressure of the highest crossing of ``target`` in each column.
+
+    ``values``, ``z``, ``logp`` are (level, n) with level 0 the lowest (highest
+    pressure). Returns (z_cross [m], p_cross [hPa]), NaN where the column never
+    crosses. Linear in height for z, linear in log-pressure for p.
+    """
+    d = values - target
+    lo, hi = d[:-1], d[1:]
+    cross = np.isfinite(lo) & np.isfinite(hi) & (lo * hi <= 0) & ~((lo == 0) & (hi == 0))
+    nlay = cross.shape[0]
+    any_cross = cross.any(axis=0)
+    k = nlay - 1 - np.argmax(cross[::-1], axis=0)  # highest layer with a crossing
+    cols = np.arange(values.shape[1])
+    a, b = lo[k, cols], hi[k, cols]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.where(a == b, 0.0, a / (a - b))
+    zc = z[k, cols] + w * (z[k + 1, cols] - z[k, cols])
+    pc = np.exp(logp[k, cols] + w * (logp[k + 1, cols] - logp[k, cols]))
+    zc = np.where(any_cross, zc, np.nan)
+    pc = np.where(any_cross, pc, np.nan)
+    return zc, pc
+
+
+def _nan_gaussian_1d(y, sigma_pts):
+    """NaN-aware Gaussian smoothing of a 1-D profile (normalised convolution)."""
+    from scipy.ndimage import gaussian_filter1d
+
+    if sigma_pts <= 0:
+        return y.copy()
+    ok = np.isfinite(y)
+    num = gaussian_filter1d(np.where(ok, y, 0.0), sigma_pts, mode="nearest")
+    den = gaussian_filter1d(ok.astype(float), sigma_pts, mode="nearest")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out = num / den
+    out[~ok] = np.nan
+    return out
+
+
+def _front_candidates(tau, dist_km, smoothing_km):
+    """Warm edges of the gradient zones along one profile.
+
+    Returns a list of (position_km, peak_gradient [K m-1], warm_sign) where
+    ``warm_sign`` is +1 when warmer air lies toward larger distance.
+
+    The 1-D form of Hewson (1998): with ``g = dtau/ds`` the thermal front
+    parameter along the section is ``TFP = -d|g|/ds * sign(g)`` and the
+    locating function ``dTFP/ds * sign(g)``; the front is the zero of the
+    locating function with TFP > 0, on the warm side of the peak of ``|g|``.
+    """
+    ds_km = float(np.median(np.diff(dist_km)))
+    tau_s = _nan_gaussian_1d(np.asarray(tau, float), smoothing_km / ds_km)
+    s_m = dist_km * 1000.0
+    g = np.gradient(tau_s, s_m)
+    a = np.abs(g)
+    sg = np.sign(g)
+    tfp = -np.gradient(a, s_m) * sg
+    loc = np.gradient(tfp, s_m) * sg
+    if not np.isfinite(a).any() or np.nanmax(a) <= 0:
+        return []
+    amax = np.nanmax(a)
+    n = a.size
+    out = []
+    for m in range(1, n - 1):
+        if not (np.isfinite(a[m - 1:m + 2]).all() and a[m] >= a[m - 1] and a[m] > a[m + 1]):
+            continue
+        if a[m] < 0.25 * amax:
+            continue
+        step = 1 if sg[m] > 0 else -1
+        i = m
+        found = None
+        while 0 <= i + step < n and np.isfinite(a[i + step]) and a[i] >= 0.05 * a[m]:
+            j = i + step
+            if tfp[i] > 0 and tfp[j] > 0 and loc[i] > 0 >= loc[j]:
+                w = loc[i] / (loc[i] - loc[j])
+                found = dist_km[i] + w * (dist_km[j] - dist_km[i])
+                break
+            i = j
+        if found is not None:
+            out.append((float(found), float(a[m]), int(step)))
+    return out
+
+
+def locate_frontal_surface(sec, *, field="theta_w", reference_km=None, reference_hpa=850.0,
+                           smoothing_km=None, top_hpa=500.0):
+    """Position of the frontal surface on each level of a section.
+
+    Parameters
+    ----------
+    sec : xarray.Dataset
+        A section (dims ``level``, ``distance``) holding ``field`` and ``z``.
+    field : str
+        Thermal field the front is drawn on [K] (``theta_w`` or ``theta``).
+    reference_km : float, optional
+        Where the front crosses the section on ``reference_hpa`` [km]; the
+        candidate nearest to it is taken there. Default: the strongest zone.
+    reference_hpa : float
+        Level the reference applies to [hPa].
+    smoothing_km : float, optional
+        Gaussian smoothing scale along the section [km]; default the larger of
+        40 km and the grid length.
+    top_hpa : float
+        Highest level searched [hPa].
+
+    Returns
+    -------
+    position_km : ndarray (level,)
+        Distance of the frontal surface on each level [km]; NaN where not found.
+    cold_sign : int
+        -1 when the cold side is toward smaller distance, +1 otherwise, 0 if
+        no front was found.
+
+    Notes
+    -----
+    On each level the frontal surface is the warm edge of the gradient zone
+    (Hewson 1998) along the section. From the reference level the search
+    walks up and down level by level and keeps the candidate nearest the
+    level before, allowing a shift of at most 500 km per km of height (a
+    shallower surface than 1:500 is not taken for a front) and requiring the
+    surface to lean over the cold air (a small backward step of 30 km is
+    tolerated for noise).
+    """
+    levels = sec["level"].values.astype(float)
+    dist = sec["distance"].values.astype(float)
+    if smoothing_km is None:
+        smoothing_km = max(40.0, float(sec.attrs.get("grid_km", 0.0)))
+    tau = sec[field].transpose("level", "distance").values
+    zmean = np.nanmean(sec["z"].transpose("level", "distance").values, axis=1)
+    cands = [
+        _front_candidates(tau[k], dist, smoothing_km) if levels[k] >= top_hpa else []
+        for k in range(levels.size)
+    ]
+    pos = np.full(levels.size, np.nan)
+    kref = int(np.argmin(np.abs(levels - reference_hpa)))
+    if not cands[kref]:
+        usable = [k for k in range(levels.size) if cands[k]]
+        if not usable:
+            return pos, 0
+        kref = min(usable, key=lambda k: abs(levels[k] - reference_hpa))
+    if reference_km is None:
+        first = max(cands[kref], key=lambda c: c[1])
+    else:
+        first = min(cands[kref], key=lambda c: abs(c[0] - reference_km))
+    pos[kref] = first[0]
+    cold = -first[2]
+
+    def walk(order):
+        prev = kref
+        for k in order:
+            dz_km = abs(zmean[k] - zmean[prev]) / 1000.0
+            if not np.isfinite(dz_km):
+                break
+            best = None
+            for c in cands[k]:
+                if c[2] != first[2]:
+                    continue
+                shift = (c[0] - pos[prev]) * cold  # >0 toward the cold side
+                upward = zmean[k] > zmean[prev]
+                lean = shift if upward else -shift
+                if lean < -30.0 or abs(shift) > 500.0 * dz_km + 50.0:
+                    continue
+                if best is None or abs(c[0] - pos[prev]) < abs(best - pos[prev]):
+                    best = c[0]
+            if best is None:
+                break
+            pos[k] = best
+            prev = k
+
+    walk(range(kref + 1, levels.size))
+    walk(range(kref - 1, -1, -1))
+    return pos, int(cold)
+
+
+def fit_frontal_slope(position_km, height_m):
+    """Least-squares slope of a frontal surface.
+
+    Parameters
+    ----------
+    position_km : array_like
+        Distance of the surface on each level [km] (NaN where not found).
+    height_m : array_like
+        Height of the surface on each level [m].
+
+    Returns
+    -------
+    dict
+        ``slope_1_in`` (N of 1:N, horizontal over vertical) [1],
+        ``shift_km_per_km`` (signed d position / d height) [1],
+        ``scatter_km`` (rms horizontal residual) [km], ``n_levels`` [1].
+        NaN values when fewer than 3 levels were located.
+
+    Notes
+    -----
+    Position is regressed on height (heights are known exactly on pressure
+    levels); N = |d s / d z| with both in the same unit. Own regression:
+    :mod:`kit.structure` fits fronts on the grid, not along a section.
+    """
+    s = np.asarray(position_km, float)
+    z = np.asarray(height_m, float) / 1000.0
+    ok = np.isfinite(s) & np.isfinite(z)
+    if ok.sum() < 3 or np.ptp(z[ok]) < 0.3:
+        return {"slope_1_in": np.nan, "shift_km_per_km": np.nan, "scatter_km": np.nan,
+                "n_levels": int(ok.sum())}
+    b, a = np.polyfit(z[ok], s[ok], 1)
+    resid = s[ok] - (a + b * z[ok])
+    return {"slope_1_in": float(abs(b)), "shift_km_per_km": float(b),
+            "scatter_km": float(np.sqrt(np.mean(resid**2))), "n_levels": int(ok.sum())}
+
+
+# ---------------------------------------------------------------------------
+# sections
+# ---------------------------------------------------------------------------
+def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
+           reference_hpa=850.0, front_kind=None, smoothing_km=None):
+    from kit import thermo
+
+    one, t_valid = _at_time(ds, time, member)
+
+    levels = one["level"].values.astype(float)
+    p = xr.DataArray(levels, dims="level", coords={"level": levels})
+    theta3 = thermo.potential_temperature(one["t"], p)
+    pv3 = potential_vorticity(theta3, one["u"], one["v"], one)
+    one = one.assign(pv=pv3)
+    if _is_projected(one):
+        grid, targets = _projected_targets(one, lat, lon)
+    else:
+        grid, targets = _latlon_targets(one, lat, lon)
+    grid = grid.drop_vars([c for c in grid.coords if c not in grid.dims])
+    flat = _interp(grid, targets)
+    dims2 = ("level", "distance")
+    drop = [c for c in flat.coords if c not in ("level",)]
+    flat = flat.drop_vars(drop).assign_coords(distance=("distance", dist))
+    sec = xr.Dataset(coords={"level": ("level", levels, {"units": "hPa",
+                                                         "long_name": "pressure level"}),
+                             "distance": ("distance", dist, {"units": "km", "long_name":
+                                          "distance along the section from its start"}),
+                             "lat": ("distance", lat, {"units": "degrees_north"}),
+                             "lon": ("distance", lon, {"units": "degrees_east"})})
+    for name, unit, long in (("t", "K", "air temperature"), ("td", "K", "dew point"),
+                             ("u", "m s-1", "eastward wind"), ("v", "m s-1", "northward wind"),
+                             ("z", "m", "geopotential height"), ("pv", "PVU",
+                              "potential vorticity (1 PVU = 1e-6 K m2 kg-1 s-1)")):
+        sec[name] = flat[name].transpose(*dims2).astype(float)
+        sec[name].attrs = {"units": unit, "long_name": long}
+    if not np.isfinite(sec["t"].values).any():
+        raise InputError(f"section ({lat[0]:.2f}, {lon[0]:.2f}) to ({lat[-1]:.2f}, "
+                         f"{lon[-1]:.2f}): lies outside the grid of run "
+                         f"{ds.attrs.get('run', '?')}; expected points inside the model domain")
+
+    pp = sec["level"]
+    sec["theta_w"] = thermo.wet_bulb_potential_temperature(sec["t"], sec["td"], pp)
+    sec["theta_w"].attrs = {"units": "K", "long_name": "wet-bulb potential temperature"}
+    sec["theta"] = thermo.potential_temperature(sec["t"], pp)
+    sec["theta"].attrs = {"units": "K", "long_name": "potential temperature"}
+    sec["rh"] = thermo.relative_humidity(sec["t"], sec["td"])
+    sec["rh"].attrs = {"units": "1", "long_name": "relative humidity (fraction, cloud proxy)"}
+    sec["tw"] = thermo.wet_bulb_temperature(sec["t"], sec["td"], pp)
+    sec["tw"].attrs = {"units": "K", "long_name": "wet-bulb temperature"}
+    for name in ("theta_w", "theta", "rh", "tw"):
+        sec[name] = sec[name].transpose(*dims2)
+
+    b = np.deg2rad(xr.DataArray(bearing, dims="distance"))
+    sec["wind_speed"] = np.hypot(sec["u"], sec["v"]).transpose(*dims2)
+    sec["wind_speed"].attrs = {"units": "m s-1", "long_name": "wind speed"}
+    sec["v_along"] = (sec["u"] * np.sin(b) + sec["v"] * np.cos(b)).transpose(*dims2)
+    sec["v_along"].attrs = {"units": "m s-1", "long_name": "wind component along the section, "
+                            "positive toward its end (front-normal wind on a section cut "
+                            "across a front; positive toward the warm side)"}
+    sec["v_across"] = (sec["u"] * np.cos(b) - sec["v"] * np.sin(b)).transpose(*dims2)
+    sec["v_across"].attrs = {"units": "m s-1", "long_name": "wind component across the section, "
+                             "positive to the right looking toward its end (along-front wind "
+                             "on a section cut across a front)"}
+    sec["bearing"] = ("distance", bearing, {"units": "degrees", "long_name":
+                                           "local bearing of the section, clockwise from north"})
+
+    zz = sec["z"].values
+    logp = np.log(np.broadcast_to(levels[:, None], zz.shape))
+    for name, field, target, long in (
+        ("freezing_level", sec["t"].values, 273.15, "0 C level (highest crossing)"),
+        ("wet_bulb_freezing_level", sec["tw"].values, 273.15,
+         "wet-bulb 0 C level (highest crossing)"),
+        ("dynamic_tropopause", sec["pv"].values * np.where(lat < 0, -1.0, 1.0)[None, :],
+         TROPOPAUSE_PVU, "dynamic tropopause: highest crossing of 2 PVU (-2 PVU south of the "
+         "equator), Hoskins, McIntyre & Robertson (1985)"),
+    ):
+        zc, pc = _highest_crossing(field, target, zz, logp)
+        sec[f"{name}_m"] = ("distance", zc, {"units": "m", "long_name": long})
+        sec[f"{name}_hpa"] = ("distance", pc, {"units": "hPa", "long_name": long})
+    sec["pv_hemispheric"] = (sec["pv"] * xr.DataArray(np.where(lat < 0, -1.0, 1.0),
+                                                      dims="distance")).transpose(*dims2)
+    sec["pv_hemispheric"].attrs = {"units": "PVU", "long_name": "potential vorticity times the "
+                                   "sign of latitude (2 on the dynamic tropopause)"}
+
+    if "precip" in flat:
+        sec["precip"] = ("distance", flat["precip"].values.astype(float),
+                         {"units": "mm h-1", "long_name": "surface precipitation rate"})
+    if "t2m" in flat and "td2m" in flat:
+        psfc = (flat["mslp"].values / 100.0) if "mslp" in flat else np.full(dist.shape, 1013.25)
+        sec["theta_w_surface"] = ("distance", np.asarray(thermo.wet_bulb_potential_temperature(
+            flat["t2m"].values, flat["td2m"].values, psfc), float),
+            {"units": "K", "long_name": "wet-bulb potential temperature at 2 m (mslp as "
+             "surface pressure)"})
+
+    ws = sec["wind_speed"].values
+    attrs = {
+        "title": "frontshift vertical cross-section",
+        "run": str(ds.attrs.get("run", "")),
+        "source": str(ds.attrs.get("source", "")),
+        "valid_time": _iso(t_valid),
+        "caution": CAUTION,
+        "grid_km": _grid_km(one),
+        "start_lat": float(lat[0]), "start_lon": float(lon[0]),
+        "end_lat": float(lat[-1]), "end_lon": float(lon[-1]),
+        "length_km": float(dist[-1]),
+    }
+    mid = len(lat) // 2
+    back, _, _ = _geod().inv(lon[mid], lat[mid], lon[0], lat[0])
+    fwd, _, _ = _geod().inv(lon[mid], lat[mid], lon[-1], lat[-1])
+    attrs["compass_start"] = compass_point(back)
+    attrs["compass_end"] = compass_point(fwd)
+    if "reference_time" in ds.coords:
+        rt = np.datetime64(ds["reference_time"].values, "ns")
+        attrs["reference_time"] = _iso(rt)
+        attrs["lead_h"] = float((t_valid - rt) / np.timedelta64(1, "h"))
+    if np.isfinite(ws).any():
+        k, j = np.unravel_index(np.nanargmax(ws), ws.shape)
+        attrs.update(jet_core_speed_ms=float(ws[k, j]), jet_core_hpa=float(levels[k]),
+                     jet_core_km=float(dist[j]), jet_core_is_jet=int(ws[k, j] >= JET_MIN_MS))
+    if member is not None or "member" in ds.dims:
+        attrs["member"] = int(member) if member is not None else int(
+            np.atleast_1d(ds["member"].values)[0])
+    sec.attrs = attrs
+
+    _add_frontal_surface(sec, reference_km=reference_km, reference_hpa=reference_hpa,
+                         front_kind=front_kind, smoothing_km=smoothing_km)
+    return sec
+
+
+def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smoothing_km):
+    pos, cold = locate_frontal_surface(sec, reference_km=reference_km,
+                                       reference_hpa=reference_hpa, smoothing_km=smoothing_km)
+    dist = sec["distance"].values
+    zpos = np.array([np.interp(pk, dist, sec["z"].values[k]) if np.isfinite(pk) else np.nan
+                     for k, pk in enumerate(pos)])
+    sec["frontal_surface_km"] = ("level", pos, {"units": "km", "long_name":
+                                 "distance of the frontal surface (warm edge of the theta-w "
+                                 "gradient zone) on each level"})
+    sec["frontal_surface_z"] = ("level", zpos, {"units": "m", "long_name":
+                                "height of the frontal surface on each level"})
+    fit = fit_frontal_slope(pos, zpos)
+    sec.attrs["frontal_slope_1_in"] = fit["slope_1_in"]
+    sec.attrs["frontal_slope_scatter_km"] = fit["scatter_km"]
+    sec.attrs["frontal_slope_levels"] = fit["n_levels"]
+    leans = np.isfinite(fit["shift_km_per_km"]) and cold != 0 and \
+        np.sign(fit["shift_km_per_km"]) == cold
+    sec.attrs["frontal_surface_leans_over_cold_air"] = int(bool(leans))
+    sec.attrs["cold_side"] = {-1: "start", 1: "end"}.get(cold, "")
+
+    # surface front: on the 2 m theta-w when the run has it, else the lowest located level
+    surf, how = np.nan, ""
+    if "theta_w_surface" in sec and cold != 0:
+        ref = pos[np.isfinite(pos)][0] if np.isfinite(pos).any() else reference_km
+        c = [c for c in _front_candidates(sec["theta_w_surface"].values, dist,
+                                          smoothing_km or max(40.0, sec.attrs["grid_km"]))
+             if c[2] == -cold]
+        if c and ref is not None:
+            best = min(c, key=lambda q: abs(q[0] - ref))
+            if abs(best[0] - ref) <= 300.0:
+                surf, how = best[0], "2 m theta-w"
+    if not np.isfinite(surf) and np.isfinite(pos).any():
+        k = int(np.flatnonzero(np.isfinite(pos))[0])
+        surf, how = float(pos[k]), f"lowest located level ({sec['level'].values[k]:.0f} hPa)"
+    sec.attrs["surface_front_km"] = float(surf)
+    sec.attrs["surface_front_from"] = how
+
+    zone = np.zeros(dist.size, dtype="int8")
+    if front_kind in RULE_ZONES_NM and np.isfinite(surf) and cold != 0:
+        near, far = (x * NM_KM for x in RULE_ZONES_NM[front_kind])
+        off = (dist - surf) * cold  # >0 on the cold side
+        zone[(off >= 0) & (off <= far)] = 1
+        zone[(off >= 0) & (off <= near)] = 2
+        sec.attrs["rule_zone_kind"] = front_kind
+        sec.attrs["rule_zone_near_km"] = float(surf + cold * near)
+        sec.attrs["rule_zone_far_km"] = float(surf + cold * far)
+    sec["rule_zone"] = ("distance", zone, {"long_name": "rule-of-thumb precipitation zone "
+                        "(common practice, no source): 2 = within the nearer distance, 1 = "
+                        "between the nearer and the farther distance, 0 = outside; warm front "
+                        "200-300 nm ahead, cold front 50-100 nm behind"})
+
+
+def section_between(ds, start, end, *, steps=None, spacing_km=10.0, time=None, member=None,
+                    smoothing_km=None):
+    """Vertical section along the geodesic between two points at one valid time.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run (:func:`kit.grids.open_run`), regular or projected grid.
+    start, end : (float, float)
+        ``(lat, lon)`` of the ends [degrees].
+    steps : int, optional
+        Number of points including both ends; default from ``spacing_km``.
+    spacing_km : float
+        Point spacing when ``steps`` is not given [km].
+    time : str or datetime-like, optional
+        Valid time (UTC); required when the run has several.
+    member : int, optional
+        Ensemble member; required when the run has several.
+    smoothing_km : float, optional
+        Smoothing scale for locating the frontal surface [km].
+
+    Returns
+    -------
+    xarray.Dataset
+        Dims ``level`` [hPa] and ``distance`` [km]; fields ``t``, ``td``,
+        ``tw``, ``theta``, ``theta_w`` [K], ``rh`` [1], ``u``, ``v``,
+        ``wind_speed``, ``v_along``, ``v_across`` [m s-1], ``z`` [m],
+        ``pv``, ``pv_hemispheric`` [PVU]; along distance ``lat``, ``lon``,
+        ``bearing`` [degrees], ``freezing_level_m``/``_hpa``,
+        ``wet_bulb_freezing_level_m``/``_hpa``, ``dynamic_tropopause_m``/``_hpa``,
+        ``precip`` [mm h-1] when the run has it, ``rule_zone``; per level
+        ``frontal_surface_km`` and ``frontal_surface_z``. Attributes: run,
+        source, valid_time, lead_h, caution, compass ends, jet core, fitted
+        frontal slope ``frontal_slope_1_in``, ``surface_front_km``.
+
+    Examples
+    --------
+    >>> sec = section_between(ds, (52.0, -20.0), (48.0, -5.0), time="2027-01-14T06:00Z")
+    ... # doctest: +SKIP
+    """
+    lat, lon, dist, bearing = section_points(start, end, steps=steps, spacing_km=spacing_km)
+    return _build(ds, lat, lon, dist, bearing, time, member, smoothing_km=smoothing_km)
+
+
+def _point_of(site_or_point):
+    """(lat, lon, name) from a (lat, lon) pair, a dict or a pandas row."""
+    if site_or_point is None:
+        return None
+    if isinstance(site_or_point, (dict, pd.Series)):
+        try:
+            lat, lon = float(site_or_point["lat"]), float(site_or_point["lon"])
+        except (KeyError, TypeError, ValueError):
+            raise InputError(f"site {site_or_point!r}: expected 'lat' and 'lon' in degrees") \
+                from None
+        name = str(site_or_point.get("name", "")) or ""
+        lat, lon = _check_point((lat, lon), f"site {name}")
+        return lat, lon, name
+    lat, lon = _check_point(site_or_point, "point")
+    return lat, lon, ""
+
+
+def _local_km(lon, lat, lon0, lat0):
+    """East/north [km] of points in an azimuthal equidistant plane about (lon0, lat0)."""
+    from pyproj import Proj
+
+    proj = Proj(proj="aeqd", lat_0=lat0, lon_0=lon0, ellps="WGS84")
+    x, y = proj(np.asarray(lon, float), np.asarray(lat, float))
+    return np.asarray(x) / 1000.0, np.asarray(y) / 1000.0
+
+
+def _nearest_on_line(x, y):
+    """Nearest point of polyline (x, y) [km] to the origin: (px, py, seg index, t)."""
+    best = (np.inf, 0.0, 0.0, 0, 0.0)
+    for i in range(len(x) - 1):
+        ax, ay, bx, by = x[i], y[i], x[i + 1], y[i + 1]
+        dx, dy = bx - ax, by - ay
+        L2 = dx * dx + dy * dy
+        t = 0.0 if L2 == 0 else min(1.0, max(0.0, -(ax * dx + ay * dy) / L2))
+        px, py = ax + t * dx, ay + t * dy
+        d = math.hypot(px, py)
+        if d < best[0]:
+            best = (d, px, py, i, t)
+    return best
+
+
+def _front_distance_km(front, lat, lon):
+    x, y = _local_km(front.lon, front.lat, lon, lat)
+    if len(x) == 1:
+        return float(math.hypot(x[0], y[0]))
+    return float(_nearest_on_line(x, y)[0])
+
+
+def pick_front(fronts, point, *, kind="nearest", time=None):
+    """The front of ``kind`` nearest to ``point`` at ``time``.
+
+    Parameters
+    ----------
+    fronts : list of kit.fronts.Front
+        Candidate fronts.
+    point : (float, float)
+        ``(lat, lon)`` [degrees].
+    kind : {"nearest", "warm", "cold", "quasi-stationary"}
+        Wanted front type; ``nearest`` takes any.
+    time : datetime-like, optional
+        Valid time the front must have.
+
+    Returns
+    -------
+    kit.fronts.Front
+    """
+    if kind not in ("nearest", "warm", "cold", "quasi-stationary"):
+        raise InputError(f"front kind {kind!r}: expected warm, cold, quasi-stationary or nearest")
+    lat, lon, _ = _point_of(point)
+    pool = list(fronts)
+    if time is not None:
+        want = np.datetime64(pd.Timestamp(time).tz_localize(None) if pd.Timestamp(time).tzinfo
+                             is None else pd.Timestamp(time).tz_convert("UTC").tz_localize(None),
+                             "ns")
+        pool = [f for f in pool if abs(np.datetime64(f.valid_time, "ns") - want)
+                <= np.timedelta64(60, "s")]
+    found = pool
+    if kind != "nearest":
+        found = [f for f in pool if f.kind == kind]
+    found = [f for f in found if len(f.lon) >= 2]
+    if not found:
+        have = ", ".join(f"{sum(f.kind == k for f in pool)} {k}"
+                         for k in ("warm", "cold", "quasi-stationary"))
+        when = f" at {_iso(want)}" if time is not None else ""
+        raise InputError(f"no {'' if kind == 'nearest' else kind + ' '}front{when}; fronts "
+                         f"found there: {have}")
+    return min(found, key=lambda f: _front_distance_km(f, lat, lon))
+
+
+def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spacing_km=10.0,
+                         steps=None, smoothing_km=None):
+    """Section normal to a front through a site, from the cold to the warm side.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run the front was found in.
+    front : kit.fronts.Front
+        The front to cut across; its valid time and member select the fields.
+    site_or_point : (lat, lon), dict or pandas row, optional
+        Site or point the section passes through [degrees]; default the
+        middle vertex of the front.
+    length_km : float
+        Section length [km].
+    spacing_km : float
+        Point spacing [km] (``steps`` overrides).
+    steps : int, optional
+        Number of points.
+    smoothing_km : float, optional
+        Smoothing scale for locating the frontal surface [km].
+
+    Returns
+    -------
+    xarray.Dataset
+        As :func:`section_between`, with attributes ``front_kind``,
+        ``front_level_hpa``, ``front_km`` (where the front line crosses the
+        section), ``site_km``/``site_name`` and ``rule_zone_*``; the wind
+        component ``v_along`` is then the front-normal wind (positive toward
+        the warm side) and ``v_across`` the along-front wind.
+
+    Notes
+    -----
+    The section is normal to the front where the front is nearest to the
+    site, and passes through the site. It is centred on the crossing with the
+    front unless the site is more than 0.4 ``length_km`` away, then on the
+    mid-point between site and front. The start is on the cold side.
+    """
+    if not (np.isfinite(length_km) and 50.0 <= float(length_km) <= 10000.0):
+        raise InputError(f"length_km={length_km}: expected 50 to 10000 km")
+    if len(front.lon) < 2:
+        raise InputError("front: has fewer than 2 vertices; expected a front line")
+    p = _point_of(site_or_point)
+    if p is None:
+        m = len(front.lon) // 2
+        p = (float(front.lat[m]), float(front.lon[m]), "")
+    slat, slon, sname = p
+    x, y = _local_km(front.lon, front.lat, slon, slat)
+    _, px, py, i, t = _nearest_on_line(x, y)
+    tx, ty = x[i + 1] - x[i], y[i + 1] - y[i]
+    tl = math.hypot(tx, ty)
+    if tl == 0:
+        raise InputError("front: repeated vertices; expected a front line")
+    nx, ny = -ty / tl, tx / tl
+    ne = np.asarray(front.normal_east, float)
+    nn = np.asarray(front.normal_north, float)
+    ce = (1 - t) * ne[i] + t * ne[i + 1]
+    cn = (1 - t) * nn[i] + t * nn[i + 1]
+    if nx * ce + ny * cn < 0:
+        nx, ny = -nx, -ny  # (nx, ny) now points to the cold side
+    wx, wy = -nx, -ny  # toward the warm side
+    bearing = math.degrees(math.atan2(wx, wy)) % 360.0
+    s_front = px * wx + py * wy  # front crossing relative to the site along the section [km]
+    L = float(length_km)
+    c = s_front if abs(s_front) <= 0.4 * L else 0.5 * s_front
+    s0, s1 = c - L / 2.0, c + L / 2.0
+    geod = _geod()
+
+    def at(s):
+        az = bearing if s >= 0 else bearing + 180.0
+        lo, la, _ = geod.fwd(slon, slat, az, abs(s) * 1000.0)
+        return la, lo
+
+    lat, lon, dist, brg = section_points(at(s0), at(s1), steps=steps, spacing_km=spacing_km)
+    front_km = s_front - s0
+    sec = _build(ds, lat, lon, dist, brg, front.valid_time, front.member,
+                 reference_km=front_km, reference_hpa=float(front.level_hpa),
+                 front_kind=front.kind, smoothing_km=smoothing_km)
+    sec.attrs.update(front_kind=str(front.kind), front_level_hpa=float(front.level_hpa),
+                     front_km=float(front_km), site_km=float(-s0), site_name=sname,
+                     site_lat=slat, site_lon=slon, section_bearing_deg=float(bearing))
+    if front.track is not None:
+        sec.attrs["front_track"] = int(front.track)
+    speed = front.props.get("speed_tracked_ms", front.speed_ms) if front.props else front.speed_ms
+    if speed is not None and np.isfinite(speed):
+        sec.attrs["front_speed_ms"] = float(speed)
+    return sec
+
+
+def section_for_site(ds, site, time, *, front="nearest", fronts=None, length_km=1200.0,
+                     spacing_km=10.0, level=850.0, member=None):
+    """Section through a site across the chosen front at one valid time.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run.
+    site : dict or pandas row or (lat, lon)
+        The site [degrees]; ``name`` is used in labels when present.
+    time : str or datetime-like
+        Valid time (UTC).
+    front : {"nearest", "warm", "cold", "quasi-stationary"}
+        Which front to cut across.
+    fronts : list of kit.fronts.Front, optional
+        Fronts already found; default :func:`kit.fronts.find_fronts` at
+        ``level`` and ``time``.
+    length_km, spacing_km : float
+        Section length and point spacing [km].
+    level : float
+        Level the fronts are found on [hPa].
+    member : int, optional
+        Ensemble member.
+
+    Returns
+    -------
+    xarray.Dataset
+        As :func:`section_across_front`. When ``front="nearest"`` and the run
+        has no front at that time, the section runs through the site along the
+        ``level`` theta-w gradient (cold to warm) and ``front_kind`` is "".
+    """
+    t = select_time(_select_member(ds, member), time)
+    if member is None and "member" in ds.dims and ds.sizes["member"] == 1:
+        member = int(ds["member"].values[0])
+    if fronts is None:
+        from kit.fronts import find_fronts
+
+        fronts = find_fronts(ds, level=level, times=[t], member=member)
+    pt = _point_of(site)
+    try:
+        f = pick_front(fronts, (pt[0], pt[1]), kind=front, time=t)
+    except InputError:
+        if front != "nearest":
+            raise
+        return _section_along_gradient(ds, site, t, member, length_km, spacing_km, level)
+    return section_across_front(ds, f, site, length_km=length_km, spacing_km=spacing_km)
+
+
+def _section_along_gradient(ds, site, t, member, length_km, spacing_km, level):
+    """Fallback without a front: through the site along the theta-w gradient."""
+    slat, slon, sname = _point_of(site)
+    # probe theta-w 100 km east/west/north/south of the site on `level`
+    geod = _geod()
+    pts = [geod.fwd(slon, slat, az, 100e3)[:2] for az in (90.0, 270.0, 0.0, 180.0)]
+    lat = np.array([p[1] for p in pts])
+    lon = np.array([p[0] for p in pts])
+    probe = _build(ds, lat, lon, np.array([0.0, 200.0, 400.0, 600.0]), np.zeros(4), t, member)
+    tw = probe["theta_w"].sel(level=level, method="nearest").values
+    ge, gn = tw[0] - tw[1], tw[2] - tw[3]
+    bearing = math.degrees(math.atan2(ge, gn)) % 360.0 if np.isfinite([ge, gn]).all() and \
+        (ge or gn) else 90.0
+    half = length_km / 2.0
+    a = geod.fwd(slon, slat, bearing + 180.0, half * 1000.0)
+    b = geod.fwd(slon, slat, bearing, half * 1000.0)
+    sec = section_between(ds, (a[1], a[0]), (b[1], b[0]), spacing_km=spacing_km, time=t,
+                          member=member)
+    sec.attrs.update(front_kind="", site_km=float(half), site_name=sname, site_lat=slat,
+                     site_lon=slon, section_bearing_deg=float(bearing),
+                     note=f"no front at {_iso(t)}; section along the {level:.0f} hPa theta-w "
+                     "gradient, cold to warm")
+    return sec
