@@ -427,9 +427,14 @@ def _front_candidates(tau, dist_km, smoothing_km):
         return []
     amax = np.nanmax(a)
     n = a.size
+    # a zone whose peak lies within two smoothing scales of an end (or of missing
+    # data) is cut by the section's edge: its warm edge cannot be placed
+    edge = max(2, int(math.ceil(2.0 * smoothing_km / ds_km)))
+    bad = ~np.isfinite(tau_s)
+    near_bad = np.convolve(bad.astype(float), np.ones(2 * edge + 1), mode="same") > 0
     out = []
-    for m in range(1, n - 1):
-        if not (np.isfinite(a[m - 1:m + 2]).all() and a[m] >= a[m - 1] and a[m] > a[m + 1]):
+    for m in range(edge, n - edge):
+        if near_bad[m] or not (a[m] >= a[m - 1] and a[m] > a[m + 1]):
             continue
         if a[m] < 0.25 * amax:
             continue
@@ -438,6 +443,8 @@ def _front_candidates(tau, dist_km, smoothing_km):
         found = None
         while 0 <= i + step < n and np.isfinite(a[i + step]) and a[i] >= 0.05 * a[m]:
             j = i + step
+            if j < edge or j >= n - edge or near_bad[j]:
+                break
             if tfp[i] > 0 and tfp[j] > 0 and loc[i] > 0 >= loc[j]:
                 w = loc[i] / (loc[i] - loc[j])
                 found = dist_km[i] + w * (dist_km[j] - dist_km[i])
