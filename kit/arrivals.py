@@ -1,0 +1,1042 @@
+"""Site arrival table: when each front reaches each site, and the weather it brings.
+
+For every site and every tracked front the passage time is the moment the
+front line crosses the site. At each model step the site's signed distance
+``d`` from the line is measured along the front normal (positive on the cold
+side; the nearest point of the polyline, extended straight past its ends).
+The front passes the site where ``d`` changes sign between two steps; the time
+is interpolated linearly in distance between the steps, which is the same as
+moving the line at its tracked speed over the site. After the last step the
+line is carried on at the tracked speed for at most ``horizon_h`` hours and the
+row is flagged ``extrapolated``. When the crossing happens beyond an end of the
+line (farther than ``along_tolerance_km``) the front misses the site: the row
+has an empty ``passage_utc`` and a ``note`` such as "cold front passes 240 km
+N of site (line ends there)". A site with no passage in the window gets one row
+with an empty ``front_kind`` and a note.
+
+Fronts found on a pressure level (850 hPa by default) lie ahead of or behind
+the surface front because frontal surfaces slope: the surface front lies on the
+warm side of the elevated line by ``h * N`` where ``h`` is the level's height
+above the site and ``1:N`` the front's slope (``front.props["slope_1_in"]``,
+else the typical 1:150 warm and 1:50 cold, common practice, no source). With
+``surface=True`` (default) the passage is that of the surface front so
+estimated; ``surface_offset_km`` says how far the line was moved.
+
+The weather sequence comes from the model fields interpolated bilinearly to the
+site (:func:`site_series`): precipitation start and end (rate at or above
+:data:`PRECIP_THRESHOLD_MMH`), 10-m wind before and after (``window_h``
+either side) with the signed turn (positive clockwise, i.e. veering in the
+northern hemisphere: the sense comes from the data), temperature, dew point and
+theta-w change, the 0 C and wet-bulb 0 C levels, a cloud-base proxy (lowest
+level with relative humidity >= 95 %), a freezing-rain / ice-pellet window
+(a layer above 0 C aloft over sub-zero air at the ground) and a snow risk
+(wet-bulb 0 C level below 300 m above the site while precipitating; common
+practice, no source). Beside the model sequence the table gives the rule of
+thumb from the front's speed (common practice, no source): warm-front rain
+starts when the front is 200-300 nautical miles away; a cold front's heaviest
+rain falls 50-100 nautical miles behind it.
+
+Several runs or ensemble members give the earliest, median and latest passage
+of the same front (matched by kind and nearest passage time) and
+``spread_h`` = latest - earliest.
+
+This module never imports graphics; see :mod:`kit.charts.timelines`.
+"""
+
+import math
+
+import numpy as np
+import pandas as pd
+import xarray as xr
+
+from kit import CAUTION
+from kit.errors import InputError
+from kit.sites import _local_en, grid_position, read_sites
+
+__all__ = [
+    "CONTRACT_COLUMNS",
+    "EXTRA_COLUMNS",
+    "PRECIP_THRESHOLD_MMH",
+    "CLOUD_RH",
+    "SNOW_WBFL_M",
+    "site_series",
+    "signed_distance_km",
+    "find_passages",
+    "weather_sequence",
+    "add_spread",
+    "arrival_table",
+    "format_utc",
+]
+
+#: the arrival table columns every product carries (DESIGN.md)
+CONTRACT_COLUMNS = [
+    "site", "front_kind", "passage_utc", "speed_kt", "precip_start_utc", "precip_end_utc",
+    "wind_before_deg", "wind_after_deg", "wind_turn_deg", "temp_change_c",
+    "freezing_level_before_m", "freezing_level_after_m", "spread_h",
+]
+
+#: further columns, after the contract ones
+EXTRA_COLUMNS = [
+    "run", "member", "track", "level_hpa", "extrapolated", "surface_offset_km",
+    "passage_earliest_utc", "passage_median_utc", "passage_latest_utc", "runs_with_passage",
+    "precip_total_mm", "precip_peak_mm_h", "wind_before_kt", "wind_after_kt",
+    "dewpoint_change_c", "thetaw_change_k", "wet_bulb_freezing_level_before_m",
+    "wet_bulb_freezing_level_after_m", "cloud_base_before_ft", "cloud_base_min_ft",
+    "cloud_base_min_utc", "fzra_start_utc", "fzra_end_utc", "fzra_warm_layer_max_c",
+    "snow_risk", "rule_rain_what", "rule_rain_from_utc", "rule_rain_to_utc", "note",
+]
+
+#: precipitation rate that counts as "raining" [mm h-1] (common practice, no source)
+PRECIP_THRESHOLD_MMH = 0.2
+#: relative humidity of the cloud-base proxy [1] (common practice, no source)
+CLOUD_RH = 0.95
+#: wet-bulb 0 C level under which precipitation is likely snow [m above site]
+#: (common practice, no source)
+SNOW_WBFL_M = 300.0
+#: typical slopes 1:N when the front has none (REFERENCES.md, [trade])
+TYPICAL_SLOPE_1_IN = {"warm": 150.0, "cold": 50.0}
+#: rule of thumb distances [nautical miles] (REFERENCES.md, [trade])
+WARM_RAIN_AHEAD_NM = (200.0, 300.0)
+COLD_HEAVY_BEHIND_NM = (50.0, 100.0)
+
+_KT_PER_MS = 3600.0 / 1852.0  # knots per m s-1 (1 nautical mile = 1852 m, exact)
+_FT_PER_M = 1.0 / 0.3048  # feet per metre (international foot, exact)
+_KMH_PER_KT = 1.852
+_T0 = 273.15
+_RD, _G0 = 287.04, 9.80665
+_MAX_FRONT_SPEED_KMH = 60.0 * 3.6  # faster than 60 m/s is a mismatched line, not motion
+
+
+# ----------------------------------------------------------------------------- time
+
+
+def _hours(t):
+    """Hours since 1970-01-01 of datetime64-like values [h] (float)."""
+    return np.asarray(t, dtype="datetime64[ns]").astype("int64") / 3.6e12
+
+
+def _from_hours(h):
+    return np.datetime64(int(round(h * 3600.0)), "s").astype("datetime64[ns]")
+
+
+def format_utc(value):
+    """Format a time as UTC ISO 8601 with ``Z``, to the minute (``2027-01-14T06:30Z``).
+
+    NaN, None or NaT give an empty string (an empty cell in the table).
+
+    Examples
+    --------
+    >>> format_utc(np.datetime64("2027-01-14T06:29:40"))
+    '2027-01-14T06:30Z'
+    """
+    if value is None:
+        return ""
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            return ""
+        value = _from_hours(value)
+    ts = pd.Timestamp(value)
+    if pd.isna(ts):
+        return ""
+    if ts.tzinfo is not None:
+        ts = ts.tz_convert("UTC").tz_localize(None)
+    return ts.round("min").strftime("%Y-%m-%dT%H:%MZ")
+
+
+# ------------------------------------------------------------------------- thermo
+
+
+def _thermo():
+    """Point thermodynamics: kit.thermo when present, else MetPy (reference library).
+
+    Returns a dict of callables on numpy arrays, K and hPa in, K or fraction out.
+    """
+    try:
+        from kit import thermo
+
+        return {
+            "rh": lambda t, td: np.asarray(thermo.relative_humidity(t, td), dtype=float),
+            "tw": lambda t, td, p: np.asarray(thermo.wet_bulb_temperature(t, td, p), dtype=float),
+            "thw": lambda t, td, p: np.asarray(
+                thermo.wet_bulb_potential_temperature(t, td, p), dtype=float
+            ),
+        }
+    except ImportError:
+        import metpy.calc as mpcalc
+        from metpy.units import units
+
+        def _pt(fn, *args):
+            args = [np.asarray(a, dtype=float) for a in args]
+            shape = np.broadcast_shapes(*(a.shape for a in args))
+            args = [np.broadcast_to(a, shape).ravel() for a in args]
+            good = np.all([np.isfinite(a) for a in args], axis=0)
+            out = np.full(good.shape, np.nan)
+            if good.any():
+                out[good] = fn(*[a[good] for a in args])
+            return out.reshape(shape)
+
+        def rh(t, td):
+            return _pt(lambda a, b: mpcalc.relative_humidity_from_dewpoint(
+                a * units.K, b * units.K).m_as(""), t, td)
+
+        def tw(t, td, p):
+            return _pt(lambda a, b, c: mpcalc.wet_bulb_temperature(
+                c * units.hPa, a * units.K, b * units.K).m_as("K"), t, td, p)
+
+        def thw(t, td, p):
+            return _pt(lambda a, b, c: mpcalc.wet_bulb_potential_temperature(
+                c * units.hPa, a * units.K, b * units.K).m_as("K"), t, td, p)
+
+        return {"rh": rh, "tw": tw, "thw": thw}
+
+
+# ------------------------------------------------------------------ column work
+
+
+def _column(z_lev, x_lev, z_sfc, x_sfc):
+    """Profile above the ground, bottom up: the surface point, then levels above it."""
+    keep = np.isfinite(z_lev) & np.isfinite(x_lev) & (z_lev > z_sfc + 1.0)
+    z, x = z_lev[keep], x_lev[keep]
+    order = np.argsort(z)
+    z, x = z[order], x[order]
+    if np.isfinite(x_sfc):
+        z, x = np.concatenate([[z_sfc], z]), np.concatenate([[x_sfc], x])
+    return z, x
+
+
+def _cross(z0, z1, x0, x1, level):
+    if x1 == x0:
+        return 0.5 * (z0 + z1)
+    return z0 + (level - x0) * (z1 - z0) / (x1 - x0)
+
+
+def _highest_zero(z, tc):
+    """Height of the highest 0 C crossing [m]; the ground when all sub-zero; NaN if warm to the top."""
+    if z.size == 0:
+        return np.nan
+    if np.all(tc <= 0.0):
+        return float(z[0])
+    if tc[-1] > 0.0:
+        return np.nan
+    for k in range(z.size - 2, -1, -1):
+        if tc[k] > 0.0 >= tc[k + 1]:
+            return float(_cross(z[k], z[k + 1], tc[k], tc[k + 1], 0.0))
+    return float(z[0])
+
+
+def _lowest_saturated(z, rh, threshold):
+    """Height of the lowest level where RH reaches ``threshold`` [m]; NaN if none."""
+    if z.size == 0:
+        return np.nan
+    if rh[0] >= threshold:
+        return float(z[0])
+    for k in range(z.size - 1):
+        if rh[k] < threshold <= rh[k + 1]:
+            return float(_cross(z[k], z[k + 1], rh[k], rh[k + 1], threshold))
+    return np.nan
+
+
+def _warm_layer(z, tc):
+    """A layer above 0 C aloft over sub-zero air at the ground.
+
+    Returns (base_m, top_m, max_c, cold_min_c), NaN where there is none.
+    """
+    none = (np.nan, np.nan, np.nan, np.nan)
+    if z.size < 2 or not tc[0] < 0.0:
+        return none
+    warm = np.nonzero(tc > 0.0)[0]
+    if warm.size == 0:
+        return none
+    k = warm[0]
+    m = k
+    while m + 1 < z.size and tc[m + 1] > 0.0:
+        m += 1
+    base = _cross(z[k - 1], z[k], tc[k - 1], tc[k], 0.0)
+    top = _cross(z[m], z[m + 1], tc[m], tc[m + 1], 0.0) if m + 1 < z.size else np.nan
+    return float(base), float(top), float(np.max(tc[k : m + 1])), float(np.min(tc[:k]))
+
+
+# ----------------------------------------------------------------- site series
+
+
+def _site_fields(site):
+    try:
+        name = str(site["name"])
+        lat, lon = float(site["lat"]), float(site["lon"])
+    except (KeyError, TypeError, ValueError):
+        raise InputError(
+            f"site {site!r}: expected a mapping with name, lat, lon[, elevation_m] (kit.sites.read_sites row)"
+        ) from None
+    elev = site.get("elevation_m", np.nan) if hasattr(site, "get") else np.nan
+    elev = float(elev) if elev is not None and np.isfinite(float(elev)) else np.nan
+    return name, lat, lon, elev
+
+
+def _dims(ds):
+    if "lat" in ds.dims and "lon" in ds.dims:
+        return "lat", "lon"
+    if "y" in ds.dims and "x" in ds.dims:
+        return "y", "x"
+    raise InputError("dataset: no lat/lon or y/x grid dimensions; expected the canonical dataset of kit.open_run")
+
+
+def _bilinear(ds, row, col):
+    """Bilinear interpolation of every horizontal field to fractional (row, col); NaN-aware."""
+    ydim, xdim = _dims(ds)
+    ny, nx = ds.sizes[ydim], ds.sizes[xdim]
+    j0 = min(int(math.floor(row)), ny - 2) if ny > 1 else 0
+    wy = row - j0 if ny > 1 else 0.0
+    i0 = int(math.floor(col))
+    if i0 >= nx - 1 and col > nx - 1:  # wrapping cell of a global grid
+        i1, wx = 0, col - i0
+        i0 = nx - 1
+    else:
+        i0 = min(i0, nx - 2) if nx > 1 else 0
+        i1, wx = (i0 + 1 if nx > 1 else 0), (col - i0 if nx > 1 else 0.0)
+    j1 = j0 + 1 if ny > 1 else 0
+    corners = [(j0, i0, (1 - wy) * (1 - wx)), (j0, i1, (1 - wy) * wx),
+               (j1, i0, wy * (1 - wx)), (j1, i1, wy * wx)]
+    drop = [c for c in ds.coords if ydim in ds[c].dims or xdim in ds[c].dims]
+    out = {}
+    for name, da in ds.data_vars.items():
+        if ydim not in da.dims or xdim not in da.dims:
+            continue
+        acc = wsum = None
+        for j, i, w in corners:
+            if w <= 0.0:
+                continue
+            v = da.isel({ydim: j, xdim: i}).drop_vars(drop, errors="ignore").astype(float).load()
+            ok = np.isfinite(v)
+            term, wt = v.where(ok, 0.0) * w, ok * w
+            acc = term if acc is None else acc + term
+            wsum = wt if wsum is None else wsum + wt
+        out[name] = (acc / wsum.where(wsum > 0)).assign_attrs(da.attrs)
+    res = xr.Dataset(out)
+    for c in ("time", "level", "member", "reference_time"):
+        if c in ds.coords and c not in res.coords:
+            res = res.assign_coords({c: ds[c]})
+    return res
+
+
+def _wind_dir(u, v):
+    """Meteorological direction the wind blows FROM [degrees, 0..360)."""
+    return np.mod(270.0 - np.degrees(np.arctan2(v, u)), 360.0)
+
+
+def site_series(ds, site):
+    """Time series of the model at a site: bilinear interpolation plus derived fields.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical dataset of one run (kit.open_run), with or without ``member``.
+    site : mapping or pandas.Series
+        ``name``, ``lat``, ``lon`` [degrees] and optionally ``elevation_m`` [m
+        above mean sea level; taken as 0 m when missing, noted in the attrs].
+
+    Returns
+    -------
+    xarray.Dataset
+        Every horizontal field of ``ds`` at the site (``[member,] time[, level]``)
+        plus: ``p_sfc`` [hPa] surface pressure (from ``mslp`` reduced with the
+        hypsometric equation, else from ``z`` on levels); ``rh`` [1],
+        ``tw`` [K] and ``theta_w`` [K] on levels; ``rh2m`` [1], ``tw2m`` [K];
+        ``freezing_level_m`` and ``wet_bulb_freezing_level_m`` [m above mean sea
+        level] (highest 0 C crossing; the site elevation when the whole column is
+        sub-zero; NaN when above 0 C to the top level); ``cloud_base_m`` [m above
+        the site] (lowest height with RH >= :data:`CLOUD_RH`); ``warm_layer_max_c``
+        [C], ``warm_layer_base_m``, ``warm_layer_top_m`` [m above mean sea level]
+        and ``cold_layer_min_c`` [C] (a layer above 0 C aloft over sub-zero air at
+        the ground, NaN where none); ``wind_dir_deg`` [degrees from],
+        ``wind_speed_ms`` [m s-1] at 10 m. ``attrs``: site, lat, lon,
+        elevation_m, elevation_assumed, run, source.
+
+    Raises
+    ------
+    kit.errors.InputError
+        The site is off the grid or the dataset lacks ``t``, ``td`` or ``z``.
+    """
+    name, lat, lon, elev = _site_fields(site)
+    row, col = grid_position(ds, lat, lon)
+    if not (np.isfinite(row) and np.isfinite(col)):
+        glat, glon = np.asarray(ds["lat"].values), np.asarray(ds["lon"].values)
+        raise InputError(
+            f"site '{name}' ({lat:.3f}, {lon:.3f}) lies off the grid of {ds.attrs.get('run', 'the run')} "
+            f"(lat {np.nanmin(glat):.2f}..{np.nanmax(glat):.2f}, lon {np.nanmin(glon):.2f}..{np.nanmax(glon):.2f}); "
+            "expected a site inside the model domain"
+        )
+    for var in ("t", "td", "z"):
+        if var not in ds:
+            raise InputError(
+                f"run {ds.attrs.get('run', '?')}: no variable '{var}'; expected the canonical dataset (DEVELOPERS.md)"
+            )
+    s = _bilinear(ds, row, col)
+    assumed = not np.isfinite(elev)
+    z_sfc = 0.0 if assumed else elev
+    th = _thermo()
+
+    lev = s["level"].values.astype(float)
+    t, td, z = s["t"], s["td"], s["z"]
+    # surface pressure [hPa]
+    if "mslp" in s:
+        tmean = (s["t2m"] if "t2m" in s else t.isel(level=0)) + 0.0065 * z_sfc / 2.0
+        p_sfc = s["mslp"] / 100.0 * np.exp(-_G0 * z_sfc / (_RD * tmean))
+    else:
+        lnp = np.log(lev)
+
+        def _psfc(zc):
+            ok = np.isfinite(zc)
+            if ok.sum() < 2:
+                return np.nan
+            order = np.argsort(zc[ok])
+            zz, pp = zc[ok][order], lnp[ok][order]
+            if z_sfc <= zz[0]:
+                return float(np.exp(pp[0] + (z_sfc - zz[0]) * (pp[1] - pp[0]) / (zz[1] - zz[0])))
+            return float(np.exp(np.interp(z_sfc, zz, pp)))
+
+        p_sfc = xr.apply_ufunc(_psfc, z, input_core_dims=[["level"]], vectorize=True)
+    s["p_sfc"] = p_sfc.assign_attrs(units="hPa", long_name="surface pressure at the site")
+    p3 = s["level"].astype(float).broadcast_like(t).transpose(*t.dims)
+    s["rh"] = xr.DataArray(th["rh"](t.values, td.values), dims=t.dims, coords=t.coords, attrs={"units": "1"})
+    s["tw"] = xr.DataArray(th["tw"](t.values, td.values, p3.values), dims=t.dims, coords=t.coords,
+                           attrs={"units": "K"})
+    s["theta_w"] = xr.DataArray(th["thw"](t.values, td.values, p3.values), dims=t.dims,
+                                coords=t.coords, attrs={"units": "K"})
+    has_sfc = "t2m" in s and "td2m" in s
+    if has_sfc:
+        s["rh2m"] = (s["t2m"].dims, th["rh"](s["t2m"].values, s["td2m"].values))
+        s["tw2m"] = (s["t2m"].dims, th["tw"](s["t2m"].values, s["td2m"].values, s["p_sfc"].values))
+
+    # column products, looped over [member,] time
+    lead = [d for d in t.dims if d != "level"]
+    tt = t.transpose(*lead, "level").values - _T0
+    twv = s["tw"].transpose(*lead, "level").values - _T0
+    rhv = s["rh"].transpose(*lead, "level").values
+    zz = z.transpose(*lead, "level").values
+    shape = tt.shape[:-1]
+    nan = np.full(shape, np.nan)
+    t_s = s["t2m"].transpose(*lead).values - _T0 if has_sfc else nan
+    tw_s = s["tw2m"].transpose(*lead).values - _T0 if has_sfc else nan
+    rh_s = s["rh2m"].transpose(*lead).values if has_sfc else nan
+    names = ["freezing_level_m", "wet_bulb_freezing_level_m", "cloud_base_m",
+             "warm_layer_base_m", "warm_layer_top_m", "warm_layer_max_c", "cold_layer_min_c"]
+    res = {k: np.full(shape, np.nan) for k in names}
+    for idx in np.ndindex(*shape):
+        zc, tc = _column(zz[idx], tt[idx], z_sfc, t_s[idx])
+        res["freezing_level_m"][idx] = _highest_zero(zc, tc)
+        zw, tw_c = _column(zz[idx], twv[idx], z_sfc, tw_s[idx])
+        res["wet_bulb_freezing_level_m"][idx] = _highest_zero(zw, tw_c)
+        zr, rc = _column(zz[idx], rhv[idx], z_sfc, rh_s[idx])
+        res["cloud_base_m"][idx] = _lowest_saturated(zr, rc, CLOUD_RH) - z_sfc
+        b, tp, mx, cm = _warm_layer(zc, tc)
+        res["warm_layer_base_m"][idx], res["warm_layer_top_m"][idx] = b, tp
+        res["warm_layer_max_c"][idx], res["cold_layer_min_c"][idx] = mx, cm
+    units = {"freezing_level_m": "m above mean sea level", "wet_bulb_freezing_level_m":
+             "m above mean sea level", "cloud_base_m": "m above site", "warm_layer_base_m":
+             "m above mean sea level", "warm_layer_top_m": "m above mean sea level",
+             "warm_layer_max_c": "degC", "cold_layer_min_c": "degC"}
+    for k in names:
+        s[k] = (lead, res[k], {"units": units[k]})
+    if "u10" in s and "v10" in s:
+        u, v = s["u10"], s["v10"]
+    else:  # lowest level above the ground stands in for 10 m
+        above = (s["z"] > z_sfc).argmax("level")
+        u, v = s["u"].isel(level=above), s["v"].isel(level=above)
+    s["wind_dir_deg"] = xr.apply_ufunc(_wind_dir, u, v).assign_attrs(units="degrees (from)")
+    s["wind_speed_ms"] = np.hypot(u, v).assign_attrs(units="m s-1")
+    s.attrs.update(site=name, lat=lat, lon=lon, elevation_m=z_sfc, elevation_assumed=int(assumed),
+                   run=str(ds.attrs.get("run", "")), source=str(ds.attrs.get("source", "")),
+                   grid_row=row, grid_col=col)
+    return s
+
+
+# -------------------------------------------------------------------- passages
+
+
+def _nearest_on_line(x, y):
+    """Nearest point to the origin on a polyline, extended straight past its ends.
+
+    Returns (px, py, seg, frac, overshoot_km, tangent) where ``frac`` is the
+    position along segment ``seg`` (may fall outside 0..1 on an end segment).
+    """
+    ax, ay, bx, by = x[:-1], y[:-1], x[1:], y[1:]
+    dx, dy = bx - ax, by - ay
+    l2 = dx * dx + dy * dy
+    l2 = np.where(l2 > 0, l2, np.nan)
+    f = -(ax * dx + ay * dy) / l2
+    fc = np.clip(f, 0.0, 1.0)
+    px, py = ax + fc * dx, ay + fc * dy
+    k = int(np.nanargmin(px * px + py * py))
+    frac = f[k]
+    over = 0.0
+    n = x.size - 1
+    if (k == 0 and frac < 0.0) or (k == n - 1 and frac > 1.0):
+        over = float(abs(frac - fc[k]) * math.sqrt(l2[k]))
+    else:
+        frac = fc[k]
+    seglen = math.sqrt(l2[k])
+    return (ax[k] + frac * dx[k], ay[k] + frac * dy[k], k, frac, over,
+            (dx[k] / seglen, dy[k] / seglen))
+
+
+def signed_distance_km(front, lat, lon):
+    """Signed distance of a point from a front line along its normal [km].
+
+    Parameters
+    ----------
+    front : kit.fronts.Front
+    lat, lon : float
+        Point (the site) [degrees].
+
+    Returns
+    -------
+    dict
+        ``d_km``: distance along the front normal, positive on the cold side;
+        ``overshoot_km``: how far beyond an end of the line the nearest point
+        lies (0 when the site is abreast of the line); ``bearing_deg``: from
+        the site to the nearest point of the line (or its end) [degrees].
+
+    Notes
+    -----
+    Distances are measured in an azimuthal equidistant plane centred on the
+    site (exact for distances from the site). The normal is the segment's
+    perpendicular, turned to agree with ``front.normal_east/north``.
+    """
+    lon_v = np.asarray(front.lon, dtype=float)
+    lat_v = np.asarray(front.lat, dtype=float)
+    ok = np.isfinite(lon_v) & np.isfinite(lat_v)
+    lon_v, lat_v = lon_v[ok], lat_v[ok]
+    ne = np.asarray(front.normal_east, dtype=float)[ok]
+    nn = np.asarray(front.normal_north, dtype=float)[ok]
+    if lon_v.size < 2:
+        raise InputError(f"front at {front.valid_time}: fewer than 2 vertices; expected a line")
+    x, y = _local_en(lon_v, lat_v, float(lon), float(lat))
+    px, py, k, frac, over, (tx, ty) = _nearest_on_line(x, y)
+    nx_, ny_ = ty, -tx  # a perpendicular of the segment
+    w = min(max(frac, 0.0), 1.0)
+    ref_e, ref_n = (1 - w) * ne[k] + w * ne[k + 1], (1 - w) * nn[k] + w * nn[k + 1]
+    if not np.isfinite(ref_e) or (nx_ * ref_e + ny_ * ref_n) < 0:
+        nx_, ny_ = -nx_, -ny_
+    d = -(px * nx_ + py * ny_)
+    if over > 0.0:  # bearing to the end of the line, where it stops
+        ex, ey = (x[0], y[0]) if k == 0 and frac < 0 else (x[-1], y[-1])
+    else:
+        ex, ey = px, py
+    bearing = float(np.mod(np.degrees(np.arctan2(ex, ey)), 360.0))
+    return {"d_km": float(d), "overshoot_km": over, "bearing_deg": bearing,
+            "end_distance_km": float(math.hypot(ex, ey))}
+
+
+_COMPASS = ["N", "NE", "E", "SE", "S", "SW", "W", "NW"]
+
+
+def _compass(bearing):
+    return _COMPASS[int(((bearing % 360.0) + 22.5) // 45.0) % 8]
+
+
+def _slope_1_in(front):
+    n = front.props.get("slope_1_in") if front.props else None
+    try:
+        n = float(n)
+    except (TypeError, ValueError):
+        n = np.nan
+    if np.isfinite(n) and 10.0 <= abs(n) <= 1000.0:
+        return abs(n), "front"
+    typ = TYPICAL_SLOPE_1_IN.get(front.kind)
+    return (typ, "typical") if typ else (np.nan, "none")
+
+
+def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_tolerance_km=100.0):
+    """Passages of tracked fronts over one site.
+
+    Parameters
+    ----------
+    fronts : list of kit.fronts.Front
+        Fronts of ONE run and member, with ``track`` ids (kit.motion).
+    series : xarray.Dataset
+        :func:`site_series` of the same run (member already selected); gives the
+        site position, elevation and the height of the front's level.
+    surface : bool
+        Estimate the surface front's passage from the slope (module notes).
+    horizon_h : float
+        Longest extrapolation past the last step at the tracked speed [h].
+    along_tolerance_km : float
+        How far beyond an end of the line a crossing still counts [km].
+
+    Returns
+    -------
+    list of dict
+        One per passage or miss: ``track``, ``front_kind``, ``passage`` (float
+        hours since 1970, NaN for a miss), ``speed_kt`` (tracked speed of the
+        line over the site [kt]), ``extrapolated`` (bool), ``surface_offset_km``
+        [km], ``level_hpa``, ``note``.
+    """
+    lat, lon = series.attrs["lat"], series.attrs["lon"]
+    elev = float(series.attrs.get("elevation_m", 0.0))
+    tracks = {}
+    for f in fronts:
+        if f.track is None:
+            raise InputError(
+                f"front {f.kind} at {format_utc(f.valid_time)}: no track id; expected fronts "
+                "from kit.motion.analyse_run (tracked over lead time)"
+            )
+        tracks.setdefault(f.track, []).append(f)
+    zlev = series["z"] if "z" in series else None
+    out = []
+    for tid in sorted(tracks):
+        by_time = {}
+        for f in tracks[tid]:
+            h = float(_hours(f.valid_time))
+            g = signed_distance_km(f, lat, lon)
+            shift = 0.0
+            if surface and zlev is not None and f.level_hpa is not None:
+                n, _ = _slope_1_in(f)
+                if np.isfinite(n):
+                    zl = zlev.sel(level=float(f.level_hpa), method="nearest")
+                    zl = float(zl.interp(time=np.datetime64(f.valid_time, "ns")).values) \
+                        if zl.sizes.get("time", 1) > 1 else float(zl.values.ravel()[0])
+                    if np.isfinite(zl):
+                        shift = max(zl - elev, 0.0) * n / 1000.0
+            g["d_km"] += shift
+            g["shift"] = shift
+            # a split track may hold several lines at one time: keep the nearest
+            if h not in by_time or abs(g["d_km"]) + g["overshoot_km"] < abs(by_time[h][1]["d_km"]) + by_time[h][1]["overshoot_km"]:
+                by_time[h] = (f, g)
+        times = sorted(by_time)
+        steps = [(h, *by_time[h]) for h in times]
+        found = False
+        for (h0, f0, g0), (h1, f1, g1) in zip(steps[:-1], steps[1:], strict=True):
+            d0, d1 = g0["d_km"], g1["d_km"]
+            if d0 == d1 or d0 * d1 > 0 or (d0 == 0 and h0 != times[0]):
+                continue
+            rate = abs(d1 - d0) / (h1 - h0)
+            if rate > _MAX_FRONT_SPEED_KMH:
+                continue
+            w = d0 / (d0 - d1)
+            tp = h0 + w * (h1 - h0)
+            kind = f0.kind if w < 0.5 else f1.kind
+            over = (1 - w) * g0["overshoot_km"] + w * g1["overshoot_km"]
+            shift = (1 - w) * g0["shift"] + w * g1["shift"]
+            found = True
+            if over > along_tolerance_km:
+                g = g0 if w < 0.5 else g1
+                out.append(_miss(tid, kind, f0, g, tp, shift))
+                continue
+            note = "quasi-stationary: timing uncertain" if kind == "quasi-stationary" else ""
+            if f0.kind != f1.kind:
+                note = (note + "; " if note else "") + f"type changes {f0.kind} -> {f1.kind}"
+            out.append({"track": tid, "front_kind": kind, "passage": tp,
+                        "speed_kt": rate / _KMH_PER_KT, "extrapolated": False,
+                        "surface_offset_km": shift, "level_hpa": f0.level_hpa, "note": note})
+        if steps and not found:
+            hK, fK, gK = steps[-1]
+            if len(steps) >= 2:
+                hJ, _, gJ = steps[-2]
+                rate = (gK["d_km"] - gJ["d_km"]) / (hK - hJ)  # km h-1
+            else:
+                sp = fK.props.get("speed_tracked_ms", fK.speed_ms) if fK.props else fK.speed_ms
+                rate = -float(sp) * 3.6 if sp is not None and np.isfinite(sp) else 0.0
+            dK = gK["d_km"]
+            if rate != 0 and dK * rate < 0 and abs(rate) <= _MAX_FRONT_SPEED_KMH:
+                dt = -dK / rate
+                if dt <= horizon_h:
+                    tp = hK + dt
+                    if gK["overshoot_km"] > along_tolerance_km:
+                        out.append(_miss(tid, fK.kind, fK, gK, tp, gK["shift"], extrap=True))
+                    else:
+                        out.append({"track": tid, "front_kind": fK.kind, "passage": tp,
+                                    "speed_kt": abs(rate) / _KMH_PER_KT, "extrapolated": True,
+                                    "surface_offset_km": gK["shift"], "level_hpa": fK.level_hpa,
+                                    "note": f"extrapolated {dt:.1f} h past the last step at the tracked speed"})
+    out.sort(key=lambda r: (np.nan_to_num(r["passage"], nan=1e18), r["track"]))
+    return out
+
+
+def _miss(tid, kind, front, g, tp, shift, extrap=False):
+    side = _compass(g["bearing_deg"])
+    note = (f"{kind} front passes {g['end_distance_km']:.0f} km {side} of site "
+            f"(line ends there) near {format_utc(tp)}; no passage")
+    if extrap:
+        note += " (extrapolated)"
+    return {"track": tid, "front_kind": kind, "passage": np.nan, "speed_kt": np.nan,
+            "extrapolated": extrap, "surface_offset_km": shift, "level_hpa": front.level_hpa,
+            "note": note}
+
+
+# ------------------------------------------------------------ weather sequence
+
+
+def _interp(series_h, values, h):
+    """Linear interpolation in time; NaN outside the series or next to a NaN."""
+    if not np.isfinite(h) or h < series_h[0] - 1e-9 or h > series_h[-1] + 1e-9:
+        return np.nan
+    k = int(np.searchsorted(series_h, h))
+    if k < series_h.size and abs(series_h[k] - h) < 1e-9:
+        return float(values[k])
+    k = min(max(k, 1), series_h.size - 1)
+    h0, h1 = series_h[k - 1], series_h[k]
+    w = (h - h0) / (h1 - h0)
+    v0, v1 = values[k - 1], values[k]
+    return float((1 - w) * v0 + w * v1)
+
+
+def _spell(series_h, rate, h, threshold, before_h, after_h):
+    """Contiguous wet spell nearest to time ``h``: (start, end, total_mm, peak, peak_time)."""
+    dt = np.diff(series_h)
+    dt = np.concatenate([[dt[0] if dt.size else 1.0], dt])
+    start_i = series_h - dt  # each rate covers (t - dt, t]
+    wet = np.isfinite(rate) & (rate >= threshold)
+    inwin = (series_h > h - before_h) & (start_i < h + after_h)
+    cand = np.nonzero(wet & inwin)[0]
+    if cand.size == 0:
+        return None
+    # distance of each wet step's interval from h
+    dist = np.where((start_i[cand] <= h) & (series_h[cand] >= h), 0.0,
+                    np.minimum(abs(start_i[cand] - h), abs(series_h[cand] - h)))
+    k = cand[int(np.argmin(dist))]
+    a = b = k
+    while a - 1 >= 0 and wet[a - 1]:
+        a -= 1
+    while b + 1 < rate.size and wet[b + 1]:
+        b += 1
+    seg = slice(a, b + 1)
+    total = float(np.nansum(rate[seg] * dt[seg]))
+    j = a + int(np.nanargmax(rate[seg]))
+    return start_i[a], series_h[b], total, float(rate[j]), series_h[j]
+
+
+def _block(series_h, flag, h, lo_h, hi_h):
+    """Contiguous block of True steps in [h - lo_h, h + hi_h] nearest to h: (first, last) or None."""
+    inwin = (series_h >= h - lo_h) & (series_h <= h + hi_h)
+    cand = np.nonzero(flag & inwin)[0]
+    if cand.size == 0:
+        return None
+    k = cand[int(np.argmin(abs(series_h[cand] - h)))]
+    a = b = k
+    while a - 1 >= 0 and flag[a - 1] and inwin[a - 1]:
+        a -= 1
+    while b + 1 < flag.size and flag[b + 1] and inwin[b + 1]:
+        b += 1
+    return a, b
+
+
+def _round(x, nd=0):
+    return round(float(x), nd) if x is not None and np.isfinite(x) else np.nan
+
+
+def weather_sequence(series, passage_h, front_kind, speed_kt, *, window_h=3.0,
+                     precip_threshold_mmh=PRECIP_THRESHOLD_MMH, level_hpa=850.0):
+    """Weather at a site around one passage, from its model series.
+
+    Parameters
+    ----------
+    series : xarray.Dataset
+        :func:`site_series` (one member).
+    passage_h : float
+        Passage time [hours since 1970-01-01 UTC].
+    front_kind : str
+        ``warm``, ``cold`` or ``quasi-stationary``.
+    speed_kt : float
+        Speed of the front over the site [kt] (for the rule of thumb).
+    window_h : float
+        "Before" and "after" are this long either side of the passage [h].
+    precip_threshold_mmh : float
+        Rate counted as precipitating [mm h-1].
+    level_hpa : float
+        Level of the theta-w change [hPa].
+
+    Returns
+    -------
+    dict
+        Table cells (see :data:`CONTRACT_COLUMNS`, :data:`EXTRA_COLUMNS`);
+        NaN or "" where a value does not apply. Wind turn is signed, positive
+        clockwise (a veer in the northern hemisphere).
+    """
+    th = _hours(series["time"].values)
+    hb, ha = passage_h - window_h, passage_h + window_h
+    row = {}
+
+    def at(var, h):
+        if var not in series:
+            return np.nan
+        return _interp(th, np.asarray(series[var].values, dtype=float), h)
+
+    # wind
+    ub, vb = at("u10", hb), at("v10", hb)
+    ua, va = at("u10", ha), at("v10", ha)
+    if "u10" not in series:
+        db, da_ = at("wind_dir_deg", hb), at("wind_dir_deg", ha)
+        sb, sa = at("wind_speed_ms", hb), at("wind_speed_ms", ha)
+    else:
+        db, da_ = float(_wind_dir(ub, vb)), float(_wind_dir(ua, va))
+        sb, sa = float(np.hypot(ub, vb)), float(np.hypot(ua, va))
+    turn = np.nan
+    if np.isfinite(db) and np.isfinite(da_):
+        turn = (da_ - db + 180.0) % 360.0 - 180.0
+    row["wind_before_deg"] = _round(360.0 if round(db) == 0 else db) if np.isfinite(db) else np.nan
+    row["wind_after_deg"] = _round(360.0 if round(da_) == 0 else da_) if np.isfinite(da_) else np.nan
+    row["wind_turn_deg"] = _round(turn)
+    row["wind_before_kt"] = _round(sb * _KT_PER_MS)
+    row["wind_after_kt"] = _round(sa * _KT_PER_MS)
+    # temperatures
+    row["temp_change_c"] = _round(at("t2m", ha) - at("t2m", hb), 1)
+    row["dewpoint_change_c"] = _round(at("td2m", ha) - at("td2m", hb), 1)
+    thw = series["theta_w"].sel(level=float(level_hpa), method="nearest")
+    row["thetaw_change_k"] = _round(
+        _interp(th, thw.values, ha) - _interp(th, thw.values, hb), 1)
+    for key, var in (("freezing_level", "freezing_level_m"),
+                     ("wet_bulb_freezing_level", "wet_bulb_freezing_level_m")):
+        row[f"{key}_before_m"] = _round(at(var, hb), -1)
+        row[f"{key}_after_m"] = _round(at(var, ha), -1)
+    # precipitation
+    sp = None
+    if "precip" in series:
+        rate = np.asarray(series["precip"].values, dtype=float)
+        sp = _spell(th, rate, passage_h, precip_threshold_mmh, 30.0, 18.0)
+    if sp:
+        row["precip_start_utc"], row["precip_end_utc"] = format_utc(sp[0]), format_utc(sp[1])
+        row["precip_total_mm"], row["precip_peak_mm_h"] = _round(sp[2], 1), _round(sp[3], 1)
+    else:
+        row.update(precip_start_utc="", precip_end_utc="", precip_total_mm=np.nan,
+                   precip_peak_mm_h=np.nan)
+    # cloud base proxy [ft above site]
+    cb = np.asarray(series["cloud_base_m"].values, dtype=float)
+    row["cloud_base_before_ft"] = _round(at("cloud_base_m", hb) * _FT_PER_M, -2)
+    win = (th >= passage_h - 12.0) & (th <= passage_h + window_h) & np.isfinite(cb)
+    if win.any():
+        k = np.nonzero(win)[0][int(np.argmin(cb[win]))]
+        row["cloud_base_min_ft"] = _round(cb[k] * _FT_PER_M, -2)
+        row["cloud_base_min_utc"] = format_utc(series["time"].values[k])
+    else:
+        row["cloud_base_min_ft"], row["cloud_base_min_utc"] = np.nan, ""
+    # freezing rain / ice pellets: warm layer aloft over sub-zero ground air
+    wl = np.asarray(series["warm_layer_max_c"].values, dtype=float)
+    lo, hi = (24.0, window_h) if front_kind in ("warm", "quasi-stationary") else (window_h, 12.0)
+    blk = _block(th, np.isfinite(wl), passage_h, lo, hi)
+    row.update(fzra_start_utc="", fzra_end_utc="", fzra_warm_layer_max_c=np.nan)
+    if blk:
+        a, b = blk
+        row["fzra_start_utc"] = format_utc(series["time"].values[a])
+        row["fzra_end_utc"] = format_utc(series["time"].values[b])
+        row["fzra_warm_layer_max_c"] = _round(np.nanmax(wl[a : b + 1]), 1)
+    # snow risk while precipitating
+    row["snow_risk"] = ""
+    if sp:
+        wet = (th > sp[0]) & (th <= sp[1] + 1e-9)
+        wb = np.asarray(series["wet_bulb_freezing_level_m"].values, dtype=float) - float(
+            series.attrs.get("elevation_m", 0.0))
+        low = wet & np.isfinite(wb) & (wb < SNOW_WBFL_M)
+        row["snow_risk"] = (f"yes from {format_utc(series['time'].values[np.nonzero(low)[0][0]])}"
+                            if low.any() else "no")
+    # rule of thumb (common practice, no source)
+    row.update(rule_rain_what="", rule_rain_from_utc="", rule_rain_to_utc="")
+    if np.isfinite(speed_kt) and speed_kt >= 5.0:
+        if front_kind == "warm":
+            row["rule_rain_what"] = "rain onset, 200-300 nm ahead (rule of thumb)"
+            row["rule_rain_from_utc"] = format_utc(passage_h - WARM_RAIN_AHEAD_NM[1] / speed_kt)
+            row["rule_rain_to_utc"] = format_utc(passage_h - WARM_RAIN_AHEAD_NM[0] / speed_kt)
+        elif front_kind == "cold":
+            row["rule_rain_what"] = "heaviest rain, 50-100 nm behind (rule of thumb)"
+            row["rule_rain_from_utc"] = format_utc(passage_h + COLD_HEAVY_BEHIND_NM[0] / speed_kt)
+            row["rule_rain_to_utc"] = format_utc(passage_h + COLD_HEAVY_BEHIND_NM[1] / speed_kt)
+    return row
+
+
+# ----------------------------------------------------------------------- spread
+
+
+def add_spread(table, *, max_match_h=24.0):
+    """Earliest, median and latest passage over runs/members, and ``spread_h``.
+
+    Rows of the same site are matched across sources (run, member) by front
+    kind and nearest passage time (within ``max_match_h`` [h]); each matched
+    group gets ``passage_earliest_utc``, ``passage_median_utc``,
+    ``passage_latest_utc``, ``runs_with_passage`` ("2/3") and ``spread_h``
+    [h] (latest - earliest; empty with a single source).
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        Rows with ``site``, ``front_kind``, ``run``, ``member`` and a float
+        column ``_passage_h`` [hours since 1970].
+    max_match_h : float
+        Largest time difference of the same front between two sources [h].
+
+    Returns
+    -------
+    pandas.DataFrame
+        The table with the spread columns filled in.
+    """
+    t = table.copy()
+    for c in ("passage_earliest_utc", "passage_median_utc", "passage_latest_utc", "runs_with_passage"):
+        t[c] = ""
+    t["spread_h"] = np.nan
+    src = list(zip(t["run"].astype(str), t["member"].astype(str), strict=True))
+    t["_src"] = [f"{a}|{b}" for a, b in src]
+    n_src = len(dict.fromkeys(t["_src"]))
+    t["_group"] = -1
+    gid = 0
+    for (_site, _kind), sub in t[np.isfinite(t["_passage_h"])].groupby(["site", "front_kind"], sort=False):
+        groups = []  # list of dict(src -> (index, time))
+        for s_, rows in sub.groupby("_src", sort=False):
+            used = set()
+            for idx, h in rows["_passage_h"].sort_values().items():
+                best, bd = None, max_match_h
+                for gi, g in enumerate(groups):
+                    if s_ in g or gi in used:
+                        continue
+                    centre = np.median([v for _, v in g.values()])
+                    if abs(centre - h) <= bd:
+                        best, bd = gi, abs(centre - h)
+                if best is None:
+                    groups.append({s_: (idx, h)})
+                    used.add(len(groups) - 1)
+                else:
+                    groups[best][s_] = (idx, h)
+                    used.add(best)
+        for g in groups:
+            hs = np.array([v for _, v in g.values()])
+            idxs = [i for i, _ in g.values()]
+            t.loc[idxs, "passage_earliest_utc"] = format_utc(hs.min())
+            t.loc[idxs, "passage_median_utc"] = format_utc(float(np.median(hs)))
+            t.loc[idxs, "passage_latest_utc"] = format_utc(hs.max())
+            t.loc[idxs, "runs_with_passage"] = f"{len(hs)}/{n_src}"
+            t.loc[idxs, "_group"] = gid
+            if len(hs) > 1:
+                t.loc[idxs, "spread_h"] = round(float(hs.max() - hs.min()), 1)
+            gid += 1
+    return t.drop(columns=["_src"])
+
+
+# ----------------------------------------------------------------------- table
+
+
+def _members(ds):
+    if "member" in ds.dims:
+        return [int(m) for m in ds["member"].values]
+    return [None]
+
+
+def _fronts_for(fronts_by_run, i, ds, level, settings):
+    if fronts_by_run is None:
+        from kit.motion import analyse_run
+
+        return analyse_run(ds, level=level, settings=settings)
+    if isinstance(fronts_by_run, dict):
+        key = ds.attrs.get("run")
+        if key not in fronts_by_run:
+            raise InputError(f"fronts_by_run: no fronts for run '{key}'; expected a key per run label")
+        return fronts_by_run[key]
+    if i < len(fronts_by_run):
+        return fronts_by_run[i]
+    raise InputError(f"fronts_by_run: {len(fronts_by_run)} lists for more runs; expected one list per run")
+
+
+def arrival_table(runs, sites, fronts_by_run=None, *, level=850.0, surface=True, horizon_h=12.0,
+                  window_h=3.0, along_tolerance_km=100.0,
+                  precip_threshold_mmh=PRECIP_THRESHOLD_MMH, settings=None, max_match_h=24.0,
+                  return_series=False):
+    """Site arrival table: one row per site and front passage (per run and member).
+
+    Parameters
+    ----------
+    runs : xarray.Dataset or list of xarray.Dataset
+        Canonical datasets (kit.open_run), several runs and/or with members.
+    sites : pandas.DataFrame or str or Path
+        Site list (kit.sites.read_sites) or its CSV path.
+    fronts_by_run : list of list of Front, or dict, optional
+        Tracked fronts of each run (same order as ``runs``, or keyed by run
+        label); computed with :func:`kit.motion.analyse_run` when None.
+    level : float
+        Pressure level the fronts are located on [hPa].
+    surface : bool
+        Move the level's line to the surface front by the slope (module notes).
+    horizon_h : float
+        Longest extrapolation past a run's last step [h].
+    window_h : float
+        Before/after offset of wind, temperature and freezing level [h].
+    along_tolerance_km : float
+        A crossing beyond a line's end by more than this is a miss [km].
+    precip_threshold_mmh : float
+        Precipitation rate counted as wet [mm h-1].
+    settings : kit.fronts.FrontSettings, optional
+        Passed to analyse_run.
+    max_match_h : float
+        Largest timing difference when matching a front across runs [h].
+    return_series : bool
+        Also return the site series ``{(run, member, site): Dataset}``.
+
+    Returns
+    -------
+    pandas.DataFrame
+        :data:`CONTRACT_COLUMNS` then :data:`EXTRA_COLUMNS`: times UTC ISO 8601
+        with Z, speeds in knots, heights in m above mean sea level (freezing
+        levels) or ft above the site (cloud base), signed wind turn (positive
+        clockwise), NaN/"" where a value does not apply. ``attrs`` carry
+        ``caution`` (kit.CAUTION), ``runs`` and ``source``.
+    """
+    if isinstance(runs, xr.Dataset):
+        runs = [runs]
+    runs = list(runs)
+    if not runs:
+        raise InputError("arrival_table: no runs given; expected at least one canonical dataset")
+    if not isinstance(sites, pd.DataFrame):
+        sites = read_sites(sites)
+    rows, store = [], {}
+    for i, ds in enumerate(runs):
+        run = str(ds.attrs.get("run", f"run{i + 1}"))
+        fronts = _fronts_for(fronts_by_run, i, ds, level, settings)
+        last_h = float(_hours(ds["time"].values[-1]))
+        first_h = float(_hours(ds["time"].values[0]))
+        for member in _members(ds):
+            mfronts = [f for f in fronts if member is None or f.member is None or int(f.member) == member]
+            dsm = ds.sel(member=member) if member is not None else ds
+            for _, site in sites.iterrows():
+                series = site_series(dsm, site)
+                store[(run, member, site["name"])] = series
+                found = find_passages(mfronts, series, surface=surface, horizon_h=horizon_h,
+                                      along_tolerance_km=along_tolerance_km)
+                base = {"site": site["name"], "run": run, "member": member}
+                if not found:
+                    rows.append({**base, "front_kind": "", "_passage_h": np.nan, "note":
+                                 f"no front passage {format_utc(first_h)} to "
+                                 f"{format_utc(last_h + horizon_h)}"})
+                    continue
+                for p in found:
+                    r = {**base, "front_kind": p["front_kind"], "track": p["track"],
+                         "level_hpa": p["level_hpa"], "extrapolated": bool(p["extrapolated"]),
+                         "surface_offset_km": _round(p["surface_offset_km"]),
+                         "_passage_h": p["passage"], "note": p["note"]}
+                    if np.isfinite(p["passage"]):
+                        r["passage_utc"] = format_utc(p["passage"])
+                        r["speed_kt"] = _round(p["speed_kt"])
+                        r.update(weather_sequence(
+                            series, p["passage"], p["front_kind"], p["speed_kt"],
+                            window_h=window_h, precip_threshold_mmh=precip_threshold_mmh,
+                            level_hpa=p["level_hpa"] or level))
+                        if series.attrs.get("elevation_assumed"):
+                            r["note"] = (r["note"] + "; " if r["note"] else "") + \
+                                "site elevation not given: 0 m assumed"
+                    rows.append(r)
+    table = pd.DataFrame(rows)
+    table = add_spread(table, max_match_h=max_match_h)
+    for c in CONTRACT_COLUMNS + EXTRA_COLUMNS:
+        if c not in table:
+            table[c] = ""
+    order = {n: k for k, n in enumerate(sites["name"])}
+    table["_site_order"] = table["site"].map(order)
+    table["_g"] = np.where(table["_group"] >= 0, table.groupby("_group")["_passage_h"].transform("min"),
+                           table["_passage_h"])
+    table = table.sort_values(["_site_order", "_g", "run", "member"], na_position="last",
+                              kind="stable")
+    table["member"] = table["member"].astype("Int64")
+    table["track"] = pd.to_numeric(table["track"], errors="coerce").astype("Int64")
+    for c in [c for c in CONTRACT_COLUMNS + EXTRA_COLUMNS if c.endswith("_utc") or c in (
+            "site", "front_kind", "note", "snow_risk", "rule_rain_what", "runs_with_passage")]:
+        table[c] = table[c].fillna("").astype(str)
+    table["extrapolated"] = table["extrapolated"].map(
+        lambda v: ("yes" if v else "no") if isinstance(v, (bool, np.bool_)) else "")
+    table = table[CONTRACT_COLUMNS + EXTRA_COLUMNS].reset_index(drop=True)
+    table.attrs.update(caution=CAUTION, runs=[str(ds.attrs.get("run", "")) for ds in runs],
+                       source="; ".join(str(ds.attrs.get("source", "")) for ds in runs))
+    return (table, store) if return_series else table

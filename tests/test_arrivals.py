@@ -1,0 +1,393 @@
+"""Tests of kit.arrivals: passage timing, weather sequence, spread.
+
+Sources of expected values are given beside each check:
+[pub] published, [lib] reference library, [trade] common practice, no source,
+[analytic] exact by construction of the synthetic field (the truth is the
+prescribed motion, not a number taken from invented data), [regression] the
+invented demo scenario (sample_grids/truth.json), labelled as such.
+"""
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+import xarray as xr
+
+from kit.arrivals import (
+    CONTRACT_COLUMNS,
+    _highest_zero,
+    _warm_layer,
+    add_spread,
+    arrival_table,
+    find_passages,
+    format_utc,
+    signed_distance_km,
+    site_series,
+)
+from kit.errors import InputError
+from kit.fronts import Front
+
+R_KM = 6371.0088
+T0 = np.datetime64("2027-01-14T00:00", "ns")
+LEVELS = np.array([1000.0, 925.0, 850.0, 700.0, 500.0])
+
+
+def std_height(p_hpa):
+    """ICAO standard-atmosphere height of a pressure level [m] (troposphere formula) [pub: ICAO 1993]."""
+    return 44330.8 * (1.0 - (p_hpa / 1013.25) ** 0.190263)
+
+
+def front_lon(t_h, *, lon_site, lat_site, speed_ms, passage_h):
+    """Longitude of a meridional front moving east at ``speed_ms`` over the site at ``passage_h``."""
+    km = speed_ms * 3.6 * (t_h - passage_h)
+    return lon_site + math.degrees(km / (R_KM * math.cos(math.radians(lat_site))))
+
+
+def make_run(*, kind="cold", lat_site=50.0, lon_site=0.0, speed_ms=10.0, passage_h=7.6,
+             hours=np.arange(0, 37, 3), run="2027-01-14T00Z", winter=False, members=None,
+             grid_step=0.5):
+    """Synthetic canonical run: a meridional front (straight N-S) moving east.
+
+    Cold front: cold air west (behind); warm front: cold air east (ahead).
+    Southern hemisphere when ``lat_site`` < 0: the v wind is mirrored.
+    ``members``: list of passage-time offsets [h], one member each.
+    Returns (ds, fronts) where fronts is a list of Front with track ids.
+    """
+    sh = lat_site < 0
+    lat = np.arange(lat_site - 10, lat_site + 10 + 1e-9, grid_step)
+    lon = np.arange(lon_site - 15, lon_site + 15 + 1e-9, grid_step)
+    offsets = [0.0] if members is None else list(members)
+    times = T0 + (hours * 3600).astype("timedelta64[s]")
+    nm, nt, nl, ny, nx = len(offsets), len(hours), len(LEVELS), lat.size, lon.size
+    shape4 = (nm, nt, nl, ny, nx)
+    t = np.empty(shape4)
+    td = np.empty(shape4)
+    u = np.empty(shape4)
+    v = np.empty(shape4)
+    z = np.broadcast_to(std_height(LEVELS)[None, None, :, None, None], shape4).copy()
+    t2m, td2m, u10, v10, pr, mslp = (np.empty((nm, nt, ny, nx)) for _ in range(6))
+    fronts = []
+    coslat = np.cos(np.radians(lat))[:, None]
+    for m, off in enumerate(offsets):
+        for k, h in enumerate(hours):
+            lf = front_lon(h, lon_site=lon_site, lat_site=lat_site, speed_ms=speed_ms,
+                           passage_h=passage_h + off)
+            x = np.radians(lon[None, :] - lf) * R_KM * coslat  # km east of the front
+            warm_side = x > 0 if kind == "cold" else x < 0
+            s = np.tanh(x / 60.0) * (1 if kind == "cold" else -1)  # +1 on the warm side
+            tsfc = 278.0 + 3.0 * s  # 6 K contrast
+            if winter:
+                tsfc = tsfc - 9.0
+            for j, p in enumerate(LEVELS):
+                lapse = 0.0065 * std_height(p)
+                t[m, k, j] = tsfc - lapse
+                if winter and p in (925.0, 850.0):  # warm layer aloft over sub-zero ground air
+                    t[m, k, j] = 276.5 - (0 if p == 925.0 else 2.0)
+                rhf = np.where(np.abs(x) < 250, 0.98, 0.6)
+                td[m, k, j] = t[m, k, j] - np.where(rhf > 0.9, 0.3, 7.0)
+            t2m[m, k] = tsfc
+            td2m[m, k] = tsfc - 2.0
+            # ahead (warm side for a cold front): SW 15 m/s; behind: NW 12 m/s (NH)
+            ua = np.where(warm_side, 10.6, 8.5) if kind == "cold" else np.where(warm_side, 10.6, 7.0)
+            va = np.where(warm_side, 10.6, -8.5) if kind == "cold" else np.where(warm_side, 10.6, 7.0)
+            if sh:
+                va = -va
+            u10[m, k], v10[m, k] = ua, va
+            u[m, k] = ua[None] * 1.5
+            v[m, k] = va[None] * 1.5
+            # rain band: cold front 150 km behind to 50 km ahead; warm front 400 km ahead
+            band = (x > -150.0) & (x < 50.0) if kind == "cold" else (x > 0.0) & (x < 400.0)
+            pr[m, k] = np.where(band, 3.0, 0.0)
+            mslp[m, k] = 100500.0
+            flat = np.linspace(lat[0] + 1, lat[-1] - 1, 25)
+            flon = np.array([front_lon(h, lon_site=lon_site, lat_site=lat_site, speed_ms=speed_ms,
+                                       passage_h=passage_h + off)] * flat.size)
+            ncold = -1.0 if kind == "cold" else 1.0
+            sp = speed_ms * (-1 if kind == "cold" else 1)  # positive toward the cold side
+            fronts.append(Front(
+                lon=flon, lat=flat, kind=kind, valid_time=times[k], level_hpa=850.0,
+                tfp=np.full(flat.size, 1e-10), grad=np.full(flat.size, 3e-5),
+                normal_east=np.full(flat.size, ncold), normal_north=np.zeros(flat.size),
+                vn=np.full(flat.size, sp), speed_ms=sp, length_km=2000.0, run=run,
+                member=(m if members is not None else None), track=1,
+                props={"speed_tracked_ms": sp}))
+    coords = {"time": times, "level": LEVELS, "lat": lat, "lon": lon}
+    dims4, dims3 = ("time", "level", "lat", "lon"), ("time", "lat", "lon")
+    sel = (lambda a: a[0]) if members is None else (lambda a: a)
+    if members is not None:
+        coords["member"] = np.arange(nm)
+        dims4, dims3 = ("member",) + dims4, ("member",) + dims3
+    ds = xr.Dataset(
+        {"t": (dims4, sel(t)), "td": (dims4, sel(td)), "u": (dims4, sel(u)),
+         "v": (dims4, sel(v)), "z": (dims4, sel(z)), "t2m": (dims3, sel(t2m)),
+         "td2m": (dims3, sel(td2m)), "u10": (dims3, sel(u10)), "v10": (dims3, sel(v10)),
+         "precip": (dims3, sel(pr)), "mslp": (dims3, sel(mslp))},
+        coords=coords,
+        attrs={"run": run, "source": "synthetic test field", "grid": "latlon"},
+    )
+    ds = ds.assign_coords(reference_time=T0)
+    return ds, fronts
+
+
+def site_frame(lat=50.0, lon=0.0, name="Testsite", elevation_m=0.0):
+    return pd.DataFrame({"name": [name], "lat": [lat], "lon": [lon], "elevation_m": [elevation_m]})
+
+
+def hours_of(text):
+    return (np.datetime64(text.rstrip("Z")) - T0) / np.timedelta64(1, "h")
+
+
+# ------------------------------------------------------------ passage timing
+
+
+@pytest.mark.parametrize("kind", ["cold", "warm"])
+def test_analytic_passage_between_steps(kind):
+    """[analytic] front moving at 10 m/s prescribed to cross the site at 07:36Z.
+
+    07:36Z lies between the 06Z and 09Z steps, so the interpolation is used.
+    Tolerance 10 minutes (the task's requirement).
+    """
+    ds, fronts = make_run(kind=kind, passage_h=7.6)
+    table = arrival_table([ds], site_frame(), [fronts], surface=False)
+    row = table.iloc[0]
+    assert row["front_kind"] == kind
+    assert abs(hours_of(row["passage_utc"]) - 7.6) <= 10 / 60
+    # speed over the site: 10 m/s = 19.4 kt [analytic; 1 kt = 1852 m / 3600 s, exact]
+    assert row["speed_kt"] == pytest.approx(10 * 3600 / 1852, abs=0.6)
+    assert row["extrapolated"] == "no"
+
+
+def test_surface_projection_from_slope():
+    """[trade] surface front lies h*N on the warm side of the 850 hPa line.
+
+    Cold front, slope 1:50 given in props, 850 hPa at its ICAO height (1457 m)
+    over a 0 m site: 72.9 km ahead, at 10 m/s 2.02 h earlier [analytic].
+    """
+    ds, fronts = make_run(kind="cold", passage_h=12.0)
+    for f in fronts:
+        f.props["slope_1_in"] = 50.0
+    row = arrival_table([ds], site_frame(), [fronts], surface=True).iloc[0]
+    shift_km = std_height(850.0) * 50.0 / 1000.0
+    assert row["surface_offset_km"] == pytest.approx(shift_km, abs=1.0)
+    assert hours_of(row["passage_utc"]) == pytest.approx(12.0 - shift_km / 36.0, abs=10 / 60)
+
+
+def test_extrapolation_flagged_and_limited():
+    """[analytic] passage 4 h after the last step is extrapolated; 20 h after is not."""
+    hours = np.arange(0, 25, 3)
+    ds, fronts = make_run(kind="cold", passage_h=28.0, hours=hours)
+    row = arrival_table([ds], site_frame(), [fronts], surface=False, horizon_h=12).iloc[0]
+    assert row["extrapolated"] == "yes"
+    assert abs(hours_of(row["passage_utc"]) - 28.0) <= 10 / 60
+    ds, fronts = make_run(kind="cold", passage_h=44.0, hours=hours)
+    row = arrival_table([ds], site_frame(), [fronts], surface=False, horizon_h=12).iloc[0]
+    assert row["front_kind"] == "" and row["passage_utc"] == ""
+    assert "no front passage" in row["note"]
+
+
+def test_front_misses_site():
+    """A line ending 5 degrees north of the site passes north of it: no passage, a note."""
+    ds, fronts = make_run(kind="cold", passage_h=10.0)
+    for f in fronts:
+        keep = f.lat > 55.0
+        for a in ("lon", "lat", "tfp", "grad", "normal_east", "normal_north", "vn"):
+            setattr(f, a, getattr(f, a)[keep])
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    assert row["passage_utc"] == ""
+    assert "passes" in row["note"] and " N of site" in row["note"]
+
+
+def test_signed_distance_sign_and_size():
+    """[lib] distance from a meridian at 1 degree longitude at 50N: pyproj Geod of the
+    perpendicular foot agrees within 0.5 km; sign positive on the cold side."""
+    pyproj = pytest.importorskip("pyproj")
+    ds, fronts = make_run(kind="cold", passage_h=100.0)  # front far west at t=0
+    f = fronts[0]
+    f.lon = np.full_like(f.lat, -1.0)
+    g = signed_distance_km(f, 50.0, 0.0)
+    # site east of a cold front: warm side -> negative
+    assert g["d_km"] < 0
+    geod = pyproj.Geod(ellps="sphere", a=R_KM * 1000.0, b=R_KM * 1000.0)
+    lats = np.linspace(49.0, 51.0, 20001)
+    _, _, dist = geod.inv(np.zeros_like(lats), np.full_like(lats, 50.0), np.full_like(lats, -1.0), lats)
+    assert -g["d_km"] == pytest.approx(dist.min() / 1000.0, abs=0.5)
+
+
+def test_no_track_ids_is_input_error():
+    ds, fronts = make_run()
+    for f in fronts:
+        f.track = None
+    with pytest.raises(InputError, match="no track id"):
+        arrival_table([ds], site_frame(), [fronts])
+
+
+# ------------------------------------------------------------ weather sequence
+
+
+def test_wind_turn_veers_nh_backs_sh():
+    """[trade] cold front: wind veers at passage in the northern hemisphere and
+    backs in the southern (REFERENCES.md, 'the sense of turning reverses').
+    Prescribed winds: SW (225) ahead, NW (315) behind -> +90 [analytic]."""
+    ds, fronts = make_run(kind="cold", passage_h=12.0)
+    nh = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    ds, fronts = make_run(kind="cold", passage_h=12.0, lat_site=-50.0)
+    sh = arrival_table([ds], site_frame(lat=-50.0), [fronts], surface=False).iloc[0]
+    assert nh["wind_before_deg"] == pytest.approx(225, abs=1)
+    assert nh["wind_after_deg"] == pytest.approx(315, abs=1)
+    assert nh["wind_turn_deg"] == pytest.approx(90, abs=1)
+    assert nh["wind_turn_deg"] > 0 and sh["wind_turn_deg"] < 0
+    assert sh["wind_turn_deg"] == pytest.approx(-nh["wind_turn_deg"], abs=1)
+    # temperature falls by the prescribed 6 K contrast (tanh zone, 3 h = 108 km either side)
+    assert nh["temp_change_c"] == pytest.approx(-6.0 * math.tanh(108 / 60), abs=0.2)
+    # freezing level falls behind the cold front [trade]
+    assert nh["freezing_level_after_m"] < nh["freezing_level_before_m"]
+
+
+def test_precip_start_end_total():
+    """[analytic] cold-front band from 50 km ahead to 150 km behind the line, 3 mm/h,
+    speed 36 km/h: wet from 1.4 h before to 4.2 h after passage; the field is
+    sampled every 3 h, so start and end are right to within one step."""
+    ds, fronts = make_run(kind="cold", passage_h=12.0)
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    start, end = hours_of(row["precip_start_utc"]), hours_of(row["precip_end_utc"])
+    assert abs(start - (12.0 - 1.4)) <= 3.0
+    assert abs(end - (12.0 + 4.2)) <= 3.0
+    assert row["precip_total_mm"] == pytest.approx(3.0 * (end - start), abs=0.01)
+    # rule of thumb for cold fronts: heaviest 50-100 nm behind at 19.4 kt [trade]
+    kt = 10 * 3600 / 1852
+    assert hours_of(row["rule_rain_from_utc"]) == pytest.approx(12.0 + 50 / kt, abs=2 / 60)
+    assert hours_of(row["rule_rain_to_utc"]) == pytest.approx(12.0 + 100 / kt, abs=2 / 60)
+
+
+def test_warm_front_rule_of_thumb_onset():
+    """[trade] warm front rain onset 200-300 nm ahead: onset = passage - distance/speed."""
+    ds, fronts = make_run(kind="warm", passage_h=24.0, speed_ms=8.0)
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    kt = 8 * 3600 / 1852
+    assert hours_of(row["rule_rain_from_utc"]) == pytest.approx(24.0 - 300 / kt, abs=2 / 60)
+    assert hours_of(row["rule_rain_to_utc"]) == pytest.approx(24.0 - 200 / kt, abs=2 / 60)
+    assert row["rule_rain_what"].startswith("rain onset")
+
+
+def test_freezing_rain_window_found_and_absent():
+    """Winter profile: -6 C at 2 m, +3.35 C at 925 hPa -> a warm layer aloft over sub-zero
+    air, the freezing-rain / ice-pellet set-up [trade]; the ordinary profile has none."""
+    ds, fronts = make_run(kind="warm", passage_h=24.0, speed_ms=8.0, winter=True)
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    assert row["fzra_start_utc"] != "" and row["fzra_end_utc"] != ""
+    assert hours_of(row["fzra_start_utc"]) <= hours_of(row["fzra_end_utc"]) <= 24.0 + 3
+    assert row["fzra_warm_layer_max_c"] == pytest.approx(276.5 - 273.15, abs=0.05)
+    ds, fronts = make_run(kind="warm", passage_h=24.0, speed_ms=8.0, winter=False)
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    assert row["fzra_start_utc"] == "" and np.isnan(row["fzra_warm_layer_max_c"])
+
+
+def test_column_helpers_analytic():
+    """[analytic] linear lapse rate 6.5 K/km from +5 C at 0 m: 0 C at 769.2 m;
+    a warm nose between 500 m (+0 C) and 1500 m found; all sub-zero -> the ground."""
+    z = np.array([0.0, 500.0, 1000.0, 1500.0, 3000.0])
+    tc = 5.0 - 0.0065 * z
+    assert _highest_zero(z, tc) == pytest.approx(5.0 / 0.0065, rel=1e-9)
+    nose = np.array([-4.0, 0.0, 2.0, 0.0, -10.0])
+    base, top, tmax, cold = _warm_layer(z, nose)
+    assert (base, top, tmax, cold) == (500.0, 1500.0, 2.0, -4.0)
+    assert _highest_zero(z, -np.abs(tc) - 1) == 0.0
+    assert np.isnan(_highest_zero(z, np.full(5, 3.0)))
+    assert all(np.isnan(_warm_layer(z, tc)))
+
+
+def test_snow_risk_when_wet_bulb_zero_low():
+    """[trade] wet-bulb 0 C level under 300 m above the site while precipitating -> snow risk."""
+    ds, fronts = make_run(kind="cold", passage_h=12.0)
+    for var in ("t", "td", "t2m", "td2m"):
+        ds[var] = ds[var] - 12.0
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    assert row["snow_risk"].startswith("yes")
+    ds, fronts = make_run(kind="cold", passage_h=12.0)
+    for var in ("t", "td", "t2m", "td2m"):  # +6 K: cold air 7.85 C at 2 m, wet-bulb 0 C > 900 m
+        ds[var] = ds[var] + 6.0
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    assert row["snow_risk"] == "no"
+
+
+def test_site_series_bilinear_matches_scipy():
+    """[lib] bilinear interpolation equals scipy RegularGridInterpolator (linear)."""
+    from scipy.interpolate import RegularGridInterpolator
+
+    ds, _ = make_run()
+    site = {"name": "Off-node", "lat": 50.37, "lon": 0.81, "elevation_m": 120.0}
+    s = site_series(ds, site)
+    ref = RegularGridInterpolator((ds["lat"].values, ds["lon"].values), ds["t2m"].values[4])
+    assert s["t2m"].values[4] == pytest.approx(ref([[50.37, 0.81]])[0], abs=1e-9)
+    assert s.attrs["elevation_m"] == 120.0
+    # cloud base above the site: saturated column near the front -> 0 ft at the surface? no:
+    # 2-m RH is below 95 % here, so the base is above the ground
+    assert np.all((s["cloud_base_m"].values >= 0) | np.isnan(s["cloud_base_m"].values))
+
+
+def test_site_series_dateline_grid():
+    """A grid contiguous across the dateline (170E..190E) takes a site at -175."""
+    ds, _ = make_run(lon_site=180.0)
+    s = site_series(ds, {"name": "Across", "lat": 50.0, "lon": -175.0})
+    ref = ds["t2m"].interp(lat=50.0, lon=185.0).values
+    np.testing.assert_allclose(s["t2m"].values, ref, atol=1e-9)
+    assert s.attrs["elevation_assumed"] == 1
+
+
+def test_site_off_grid_is_input_error():
+    ds, fronts = make_run()
+    with pytest.raises(InputError, match=r"site 'Farside' .* off the grid"):
+        arrival_table([ds], site_frame(lat=10.0, name="Farside"), [fronts])
+
+
+# -------------------------------------------------------------------- spread
+
+
+def test_members_spread():
+    """[analytic] three members whose fronts pass 0, +1.5 and -2 h apart: earliest,
+    median, latest and spread 3.5 h."""
+    ds, fronts = make_run(kind="cold", passage_h=12.0, members=[0.0, 1.5, -2.0])
+    table = arrival_table([ds], site_frame(), [fronts], surface=False)
+    assert len(table) == 3
+    assert set(table["member"]) == {0, 1, 2}
+    assert table["spread_h"].tolist() == pytest.approx([3.5] * 3, abs=10 / 60)
+    r = table.iloc[0]
+    assert hours_of(r["passage_earliest_utc"]) == pytest.approx(10.0, abs=10 / 60)
+    assert hours_of(r["passage_median_utc"]) == pytest.approx(12.0, abs=10 / 60)
+    assert hours_of(r["passage_latest_utc"]) == pytest.approx(13.5, abs=10 / 60)
+    assert (table["runs_with_passage"] == "3/3").all()
+
+
+def test_two_runs_spread_and_unmatched():
+    """Two runs: the same cold front 2.5 h apart matches; a front in one run only
+    stays alone with no spread."""
+    a, fa = make_run(kind="cold", passage_h=12.0, run="2027-01-14T00Z")
+    b, fb = make_run(kind="cold", passage_h=14.5, run="2027-01-13T12Z")
+    table = arrival_table([a, b], site_frame(), [fa, fb], surface=False)
+    assert table["spread_h"].tolist() == pytest.approx([2.5, 2.5], abs=10 / 60)
+    t = pd.DataFrame({"site": ["S", "S", "S"], "front_kind": ["cold", "cold", "warm"],
+                      "run": ["a", "b", "a"], "member": [None] * 3,
+                      "_passage_h": [10.0, 11.0, 5.0]})
+    out = add_spread(t)
+    assert out["spread_h"].iloc[:2].tolist() == [1.0, 1.0]
+    assert np.isnan(out["spread_h"].iloc[2]) and out["runs_with_passage"].iloc[2] == "1/2"
+
+
+def test_contract_columns_and_formats():
+    ds, fronts = make_run(kind="cold", passage_h=12.0)
+    table = arrival_table([ds], site_frame(), [fronts], surface=False)
+    assert list(table.columns[: len(CONTRACT_COLUMNS)]) == CONTRACT_COLUMNS
+    for c in [c for c in table.columns if c.endswith("_utc")]:
+        vals = [v for v in table[c] if v]
+        assert all(v.endswith("Z") and len(v) == 17 for v in vals), c
+    assert "Decision support only" in table.attrs["caution"]
+    assert format_utc(np.datetime64("2027-01-14T06:29:40")) == "2027-01-14T06:30Z"
+    assert format_utc(float("nan")) == ""
+
+
+# ---------------------------------------------------- regression: demo scenario
+
+TRUTH = Path(__file__).resolve().parents[1] / "sample_grids" / "truth.json"
