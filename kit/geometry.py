@@ -550,7 +550,8 @@ def great_circle_km(lon1, lat1, lon2, lat2):
     -----
     Central angle from the arctangent form of the great-circle formula
     (the special case of Vincenty 1975 for a sphere, from memory), well
-    conditioned for short, long and near-antipodal distances alike. Against WGS84 geodesics (pyproj ``Geod``) the
+    conditioned for short, long and near-antipodal distances alike. Against
+    WGS84 geodesics (pyproj ``Geod``) the
     difference is below about 0.5 %.
 
     Examples

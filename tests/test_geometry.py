@@ -43,8 +43,13 @@ def lambert_ds(dx=25e3, nx=81, ny=65, lat0=50.0, lon0=10.0):
 # ----------------------------------------------------------------- distances [lib] pyproj
 @pytest.mark.parametrize(
     "p1,p2",
-    [((10.0, 50.0), (-20.0, -30.0)), ((179.5, 10.0), (-179.5, 11.0)), ((0.0, 89.0), (180.0, 89.0)),
-     ((5.0, 45.0), (5.01, 45.0)), ((-70.0, -40.0), (110.0, 40.0))],
+    [
+        ((10.0, 50.0), (-20.0, -30.0)),
+        ((179.5, 10.0), (-179.5, 11.0)),
+        ((0.0, 89.0), (180.0, 89.0)),
+        ((5.0, 45.0), (5.01, 45.0)),
+        ((-70.0, -40.0), (110.0, 40.0)),
+    ],
 )
 def test_great_circle_and_bearing_match_pyproj_sphere(p1, p2):
     az, _, dist = SPHERE.inv(p1[0], p1[1], p2[0], p2[1])
@@ -76,7 +81,9 @@ def test_line_length_matches_pyproj_line_length():
     lon = np.array([170.0, 175.0, 179.9, 184.0, 190.0])  # contiguous across the dateline
     lat = np.array([40.0, 42.0, 45.0, 44.0, 41.0])
     # [lib] pyproj Geod.line_length on the same sphere
-    assert geo.line_length_km(lon, lat) == pytest.approx(SPHERE.line_length(lon, lat) / 1000, rel=1e-9)
+    assert geo.line_length_km(lon, lat) == pytest.approx(
+        SPHERE.line_length(lon, lat) / 1000, rel=1e-9
+    )
     assert geo.line_length_km([1.0], [2.0]) == 0.0
 
 
@@ -162,8 +169,10 @@ def test_gradient_matches_metpy_geospatial_gradient():
     from metpy.units import units
 
     mde, mdn = mpcalc.geospatial_gradient(
-        units.Quantity(f, "K"), longitude=units.Quantity(lon, "degree"),
-        latitude=units.Quantity(lat, "degree"), crs=CRS.from_proj4(f"+proj=longlat +R={R}"),
+        units.Quantity(f, "K"),
+        longitude=units.Quantity(lon, "degree"),
+        latitude=units.Quantity(lat, "degree"),
+        crs=CRS.from_proj4(f"+proj=longlat +R={R}"),
     )
     mde, mdn = mde.m_as("K/m"), mdn.m_as("K/m")
     # [lib] MetPy on the same sphere: interior agrees to the O(h^2) difference of
@@ -277,9 +286,16 @@ def test_smooth_periodic_wraps():
         (xr.Dataset(coords={"lat": [0.0, 1.0]}), "no 'lon' coordinate"),
         (latlon_ds([0.0, 1.0], [0.0, 2.0, 1.0]), "not monotonic"),
         (latlon_ds([0.0, 95.0], [0.0, 1.0]), "out of range"),
-        (xr.Dataset(coords={"lat": (("y", "x"), np.zeros((2, 2))),
-                            "lon": (("y", "x"), np.zeros((2, 2)))},
-                    attrs={"grid": "projected"}), "without grid lengths"),
+        (
+            xr.Dataset(
+                coords={
+                    "lat": (("y", "x"), np.zeros((2, 2))),
+                    "lon": (("y", "x"), np.zeros((2, 2))),
+                },
+                attrs={"grid": "projected"},
+            ),
+            "without grid lengths",
+        ),
     ],
 )
 def test_bad_grids_raise_one_line(ds, match):
