@@ -205,15 +205,14 @@ def geostrophic_wind(
     d_east, d_north = gradient(height_or_pressure, ds)
     lat = _lat_like(height_or_pressure, ds)
     f = coriolis_parameter(lat)
-    if kind == "height":
-        fac = G0 / f
-    else:
-        if isinstance(rho, str):
-            if rho != "from_t":
-                raise InputError(f"geostrophic_wind: rho={rho!r}; expected a number or 'from_t'")
-            rho = _density_from_t(height_or_pressure, ds)
-        fac = 1.0 / (rho * f)
+    if kind == "mslp" and isinstance(rho, str):
+        if rho != "from_t":
+            raise InputError(f"geostrophic_wind: rho={rho!r}; expected a number or 'from_t'")
+        rho = _density_from_t(height_or_pressure, ds)
+    if isinstance(height_or_pressure, xr.DataArray) and isinstance(rho, np.ndarray) and rho.ndim:
+        rho = xr.DataArray(rho, dims=height_or_pressure.dims[-rho.ndim:])
     with np.errstate(divide="ignore", invalid="ignore"):
+        fac = G0 / f if kind == "height" else 1.0 / (rho * f)
         ug = -fac * d_north
         vg = fac * d_east
     if isinstance(ug, xr.DataArray):
