@@ -1,0 +1,234 @@
+"""Tests of kit.structure: slope from the 3-D field and the Margules slope.
+
+Sources beside each expected value: [pub] published formula or worked
+example, [trade] common practice, no source, [derived] follows exactly from
+the analytic set-up of the test, [regression] the invented demo scenario.
+"""
+
+import doctest
+from types import SimpleNamespace
+
+import numpy as np
+import pytest
+import xarray as xr
+
+import kit.structure as structure
+from kit.fronts import Front
+from kit.motion import G0, coriolis_parameter
+from kit.structure import add_slopes, front_margules_slope, front_slope, margules_slope
+
+R_KM = 6371.0088
+T0 = np.datetime64("2030-02-03T00:00", "ns")
+Z_STD = {1000.0: 110.0, 925.0: 760.0, 850.0: 1460.0, 700.0: 3010.0, 600.0: 4200.0, 500.0: 5570.0}
+KAPPA = 0.2854  # Rd/cp of Bolton (1980) Eq. 7, as kit.thermo uses
+
+
+def make_front(lon, lat, ne, nn, *, kind="warm", level=850.0, time=T0):
+    lon = np.asarray(lon, float)
+    n = lon.size
+    return Front(
+        lon=lon, lat=np.broadcast_to(np.asarray(lat, float), (n,)).copy(), kind=kind,
+        valid_time=np.datetime64(time, "ns"), level_hpa=level, tfp=np.ones(n), grad=np.ones(n),
+        normal_east=np.full(n, float(ne)), normal_north=np.full(n, float(nn)), vn=np.zeros(n),
+        speed_ms=0.0, length_km=0.0, run="test",
+    )
+
+
+def sloping_zone(n_slope, *, hemisphere=1, lat0=45.0, dtheta=8.0, l_km=100.0, grid=0.25, lon_span=(-25.0, 5.0)):
+    """Potential-temperature zone, cold side poleward, centre at y = n_slope * z.
+
+    theta = theta_bg(p) - dtheta/2 tanh((y - N z)/L), y poleward distance [km]
+    from lat0, z the (level-constant) height [km]: a frontal surface of slope
+    1 in N rising over the cold air.
+    """
+    lat = np.sort(hemisphere * np.arange(lat0 - 10, lat0 + 12.01, grid))
+    lon = np.arange(lon_span[0], lon_span[1] + 1e-9, grid)
+    levels = np.array(list(Z_STD))
+    y_km = R_KM * np.deg2rad(np.abs(lat) - lat0)
+    t = np.empty((1, levels.size, lat.size, lon.size))
+    for k, lv in enumerate(levels):
+        theta = 285.0 + 4.0 * Z_STD[lv] / 1e3 - dtheta / 2 * np.tanh((y_km - n_slope * Z_STD[lv] / 1e3) / l_km)
+        t[0, k] = (theta * (lv / 1000.0) ** KAPPA)[:, None]
+    ds = xr.Dataset(
+        coords={"time": [T0], "level": levels, "lat": lat, "lon": lon},
+        attrs={"run": "test", "grid": "latlon"},
+    )
+    dims = ("time", "level", "lat", "lon")
+    ds["t"] = (dims, t)
+    ds["td"] = (dims, t - 5.0)
+    ds["z"] = (dims, np.broadcast_to(np.array(list(Z_STD.values()))[None, :, None, None], t.shape).copy())
+    return ds
+
+
+SETTINGS = SimpleNamespace(field="theta", smoothing_km=50.0)
+
+
+# --------------------------------------------------------------------------
+# Margules
+# --------------------------------------------------------------------------
+def test_margules_worked_example():
+    # [pub formula, Margules 1906; example derived, REFERENCES.md Front
+    # structure] 50 N, Tmean 280 K, dv 10 m/s, dT 5 K: tan(alpha) = 0.0064,
+    # about 1 in 157 (the example is given to 2 significant figures)
+    tan = margules_slope(277.5, 282.5, -5.0, 5.0, 50.0)
+    assert tan == pytest.approx(0.0064, abs=0.00005)
+    assert 1.0 / tan == pytest.approx(157.0, abs=1.0)
+    # the approximation (f Tmean / g) dv/dT of the same reference
+    f = coriolis_parameter(50.0)
+    assert tan == pytest.approx(f * 280.0 / G0 * 10.0 / 5.0, rel=1e-9)
+
+
+def test_margules_hemispheres_and_sense():
+    # f < 0 in the south: the mirrored (anticyclonic-looking) shear of the
+    # southern hemisphere gives the same slope; the wrong shear a negative one
+    n = margules_slope(277.5, 282.5, 5.0, -5.0, -50.0)
+    assert n == pytest.approx(margules_slope(277.5, 282.5, -5.0, 5.0, 50.0), rel=1e-12)
+    assert margules_slope(277.5, 282.5, 5.0, -5.0, 50.0) < 0
+
+
+@pytest.mark.parametrize("hemisphere", [1, -1])
+def test_front_margules_slope_samples_both_air_masses(hemisphere):
+    # [pub formula] Margules (1906) with T and geostrophic winds prescribed on
+    # both sides: a front along 50 N/S, cold air poleward, along-front
+    # geostrophic wind from z with dz/dy = -a(y) (gradient changing across a
+    # 60 km zone), T 270 K / 275 K on the two sides.
+    lat0 = 50.0
+    lat = np.sort(hemisphere * np.arange(40.0, 60.01, 0.1))
+    lon = np.arange(-15.0, 5.01, 0.25)
+    y = R_KM * 1e3 * np.deg2rad(np.abs(lat) - lat0)  # poleward [m]
+    w = 60e3
+    f_abs = np.abs(coriolis_parameter(lat))
+    # zonal geostrophic wind wanted: 9 m/s on the warm (equatorward) side,
+    # -1 m/s on the cold side, times the hemisphere so the shear is cyclonic
+    u_w, u_c = 9.0, -1.0
+    u_target = (0.5 * (u_w + u_c) - 0.5 * (u_w - u_c) * np.tanh(y / w))
+    # u = -(g/f) dz/dy_north; y_north = hemisphere * y -> dz/dy = -u f hemisphere / g
+    dzdy = -u_target * f_abs / G0  # per poleward metre, any hemisphere
+    z = 1460.0 + np.concatenate([[0.0], np.cumsum(0.5 * (dzdy[1:] + dzdy[:-1]) * np.diff(y))])
+    if hemisphere < 0:
+        z = z - z[-1]  # any constant
+    tt = 272.5 - 2.5 * np.tanh(y / w)
+    ds = xr.Dataset(coords={"time": [T0], "level": [850.0], "lat": lat, "lon": lon},
+                    attrs={"grid": "latlon"})
+    ds["z"] = (("time", "level", "lat", "lon"), np.broadcast_to(z[:, None], (lat.size, lon.size))[None, None].copy())
+    ds["t"] = (("time", "level", "lat", "lon"), np.broadcast_to(tt[:, None], (lat.size, lon.size))[None, None].copy())
+    fr = make_front(np.arange(-8.0, -2.0, 0.25), hemisphere * lat0, 0.0, hemisphere)
+    n = front_margules_slope(fr, ds, offset_km=250.0)
+    # expected: the formula with the values at +-250 km (tanh saturated)
+    lat_c = lat0 + np.rad2deg(250.0 / R_KM)
+    lat_w = lat0 - np.rad2deg(250.0 / R_KM)
+    tan = margules_slope(270.0 + 2.5 * (1 - np.tanh(250e3 / w)), 275.0 - 2.5 * (1 - np.tanh(250e3 / w)),
+                         u_c, u_w, lat0)
+    assert np.isfinite(n)
+    # 2 %: bilinear sampling and centred differences on a 0.1 deg grid
+    assert n == pytest.approx(1.0 / tan, rel=0.02)
+    del lat_c, lat_w
+
+
+# --------------------------------------------------------------------------
+# slope from the 3-D field
+# --------------------------------------------------------------------------
+@pytest.mark.parametrize("hemisphere", [1, -1])
+@pytest.mark.parametrize("n_slope", [150.0, 50.0, 300.0])
+def test_slope_of_analytic_sloping_zone(n_slope, hemisphere):
+    # [derived] the zone centre is n_slope * z toward the cold side on every
+    # level, so the warm-edge (TFP-maximum) line has the same slope: 1 in
+    # n_slope recovered within 10 %
+    ds = sloping_zone(n_slope, hemisphere=hemisphere)
+    yf = n_slope * Z_STD[850.0] / 1e3
+    lat_f = hemisphere * (45.0 + np.rad2deg(yf / R_KM))
+    kind = "cold" if n_slope < 100 else "warm"
+    fr = make_front(np.arange(-15.0, -5.0, 0.25), lat_f, 0.0, hemisphere, kind=kind)
+    res = front_slope(fr, ds, settings=SETTINGS)
+    assert res["slope_1_in"] == pytest.approx(n_slope, rel=0.10)
+    assert res["n_vertices"] >= 10
+    assert res["scatter"] < 0.05 * n_slope  # a uniform zone: vertices agree
+
+
+def test_slope_of_a_rotated_zone():
+    # [derived] the same sloping zone (1 in 100) lying SW-NE with the cold air
+    # to the north-west, built in a local azimuthal-equidistant plane; the
+    # vertex normals are the plane's normal carried to each vertex
+    from kit.geometry import local_east_north_km, local_to_lonlat
+
+    n_slope, l_km = 100.0, 100.0
+    beta = np.deg2rad(-50.0)
+    n_e, n_n = np.sin(beta), np.cos(beta)
+    lat = np.arange(33.0, 62.01, 0.25)
+    lon = np.arange(-32.0, 12.01, 0.25)
+    lo2, la2 = np.meshgrid(lon, lat)
+    e, n = local_east_north_km(lo2, la2, -10.0, 47.0)
+    xi = e * n_e + n * n_n
+    levels = np.array(list(Z_STD))
+    t = np.empty((1, levels.size) + lo2.shape)
+    for k, lv in enumerate(levels):
+        theta = 285.0 + 4.0 * Z_STD[lv] / 1e3 - 4.0 * np.tanh((xi - n_slope * Z_STD[lv] / 1e3) / l_km)
+        t[0, k] = theta * (lv / 1000.0) ** KAPPA
+    ds = xr.Dataset(coords={"time": [T0], "level": levels, "lat": lat, "lon": lon}, attrs={"grid": "latlon"})
+    dims = ("time", "level", "lat", "lon")
+    ds["t"] = (dims, t)
+    ds["td"] = (dims, t - 5.0)
+    ds["z"] = (dims, np.broadcast_to(np.array(list(Z_STD.values()))[None, :, None, None], t.shape).copy())
+    s_along = np.arange(-400.0, 400.1, 25.0)
+    xi0 = n_slope * Z_STD[850.0] / 1e3
+    pe = xi0 * n_e - s_along * n_n
+    pn = xi0 * n_n + s_along * n_e
+    vlon, vlat = local_to_lonlat(pe, pn, -10.0, 47.0)
+    qlon, qlat = local_to_lonlat(pe + n_e, pn + n_n, -10.0, 47.0)
+    ve, vn = zip(*[local_east_north_km(a, b, c, d) for a, b, c, d in zip(qlon, qlat, vlon, vlat, strict=True)],
+                 strict=True)
+    ve, vn = np.array(ve), np.array(vn)
+    norm = np.hypot(ve, vn)
+    fr = make_front(vlon, vlat, 0.0, 1.0, kind="warm")
+    fr.normal_east, fr.normal_north = ve / norm, vn / norm
+    res = front_slope(fr, ds, settings=SETTINGS)
+    assert res["slope_1_in"] == pytest.approx(n_slope, rel=0.10)
+    assert res["n_vertices"] >= 10
+
+
+def test_slope_of_a_zone_leaning_over_the_warm_side_is_missing():
+    # a surface rising over the warm air is not a front: no slope (NaN)
+    ds = sloping_zone(-100.0)
+    fr = make_front(np.arange(-15.0, -5.0, 0.25), 45.0 - np.rad2deg(146.0 / R_KM), 0.0, 1.0)
+    res = front_slope(fr, ds, settings=SETTINGS)
+    assert np.isnan(res["slope_1_in"])
+
+
+def test_slope_needs_three_levels():
+    ds = sloping_zone(150.0).sel(level=[850.0, 700.0])
+    fr = make_front(np.arange(-15.0, -5.0, 0.25), 47.0, 0.0, 1.0)
+    res = front_slope(fr, ds, settings=SETTINGS)
+    assert np.isnan(res["slope_1_in"]) and res["n_vertices"] == 0
+
+
+def test_add_slopes_props():
+    ds = sloping_zone(150.0)
+    lat_f = 45.0 + np.rad2deg(150.0 * 1.46 / R_KM)
+    warm = make_front(np.arange(-15.0, -5.0, 0.25), lat_f, 0.0, 1.0, kind="warm")
+    qs = make_front(np.arange(-15.0, -5.0, 0.25), lat_f, 0.0, 1.0, kind="quasi-stationary")
+    add_slopes([warm, qs], ds, settings=SETTINGS)
+    for fr in (warm, qs):
+        assert fr.props["slope_1_in"] == pytest.approx(150.0, rel=0.10)
+        assert fr.props["slope_scatter"] is not None
+        # z is level-constant here: no geostrophic shear, so no Margules slope
+        assert fr.props["slope_margules_1_in"] is None
+    # [trade] warm front about 1 in 150, cold front about 1 in 50 (common
+    # practice, no source); none given for a quasi-stationary front
+    assert warm.props["slope_typical_1_in"] == 150.0
+    assert qs.props["slope_typical_1_in"] is None
+    assert structure.TYPICAL_SLOPE_1_IN["cold"] == 50.0
+
+
+def test_slope_with_theta_w_field():
+    # the default field is theta-w (kit.thermo); a zone in theta with moist,
+    # uniform dew-point depression keeps its slope in theta-w (within 10 %)
+    ds = sloping_zone(150.0)
+    lat_f = 45.0 + np.rad2deg(150.0 * 1.46 / R_KM)
+    fr = make_front(np.arange(-15.0, -5.0, 0.25), lat_f, 0.0, 1.0)
+    res = front_slope(fr, ds, settings=SimpleNamespace(field="theta_w", smoothing_km=50.0))
+    assert res["slope_1_in"] == pytest.approx(150.0, rel=0.10)
+
+
+def test_doctests():
+    res = doctest.testmod(structure)
+    assert res.attempted >= 2 and res.failed == 0
