@@ -18,7 +18,9 @@ __all__ = ["COMMANDS", "main", "build_parser"]
 
 #: sub-command modules, in the order --help lists them
 COMMANDS = [
+    "arrivals",
     "rerun",
+    "section",
 ]
 
 
