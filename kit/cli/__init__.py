@@ -20,7 +20,6 @@ __all__ = ["COMMANDS", "main", "build_parser"]
 COMMANDS = [
     "arrivals",
     "rerun",
-    "section",
 ]
 
 
