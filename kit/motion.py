@@ -77,7 +77,7 @@ RULE_FACTOR = {"warm": 2.0 / 3.0, "cold": 1.0}
 # geostrophic wind
 # --------------------------------------------------------------------------
 def coriolis_parameter(lat):
-    """Coriolis parameter.
+    r"""Coriolis parameter.
 
     Parameters
     ----------
@@ -87,7 +87,7 @@ def coriolis_parameter(lat):
     Returns
     -------
     same kind as ``lat``
-        :math:`f = 2 \\Omega \\sin\\varphi` [s-1], negative in the southern
+        :math:`f = 2 \Omega \sin\varphi` [s-1], negative in the southern
         hemisphere.
 
     Examples
@@ -101,7 +101,7 @@ def coriolis_parameter(lat):
 
 
 def geostrophic_speed(dp_pa, dist_km, lat, rho=1.25):
-    """Geostrophic wind speed from a pressure difference over a distance.
+    r"""Geostrophic wind speed from a pressure difference over a distance.
 
     The forecaster's reading of an isobar spacing.
 
@@ -119,7 +119,7 @@ def geostrophic_speed(dp_pa, dist_km, lat, rho=1.25):
     Returns
     -------
     ndarray or float
-        :math:`V_g = |\\Delta p / \\Delta n| / (\\rho |f|)` [m s-1]; NaN
+        :math:`V_g = |\Delta p / \Delta n| / (\rho |f|)` [m s-1]; NaN
         equatorward of :data:`MIN_ABS_LAT_DEG`.
 
     Examples
@@ -156,7 +156,7 @@ def geostrophic_wind(
     rho=1.25,
     min_abs_lat_deg=MIN_ABS_LAT_DEG,
 ):
-    """Geostrophic wind from a geopotential-height or a pressure field.
+    r"""Geostrophic wind from a geopotential-height or a pressure field.
 
     Parameters
     ----------
@@ -171,11 +171,11 @@ def geostrophic_wind(
         What the field is.
     rho : float, array_like, xarray.DataArray or "from_t"
         Air density [kg m-3] for ``kind="mslp"``; ``"from_t"`` takes
-        :math:`\\rho = p / (R_d T)` with ``t2m`` (or ``t`` on the
+        :math:`\rho = p / (R_d T)` with ``t2m`` (or ``t`` on the
         highest-pressure level) of ``ds``, which must then have the same
         dimensions as the field.
     min_abs_lat_deg : float
-        The wind is NaN where :math:`|\\varphi|` is below this [degrees]:
+        The wind is NaN where :math:`|\varphi|` is below this [degrees]:
         :math:`f` vanishes at the equator and geostrophic balance is a poor
         description of tropical flow (10 degrees: common practice, no source).
 
@@ -188,13 +188,13 @@ def geostrophic_wind(
     -----
     .. math::
 
-        u_g = -\\frac{g_0}{f}\\frac{\\partial z}{\\partial y},\\quad
-        v_g = \\frac{g_0}{f}\\frac{\\partial z}{\\partial x}
-        \\qquad\\text{or}\\qquad
-        u_g = -\\frac{1}{\\rho f}\\frac{\\partial p}{\\partial y},\\quad
-        v_g = \\frac{1}{\\rho f}\\frac{\\partial p}{\\partial x}
+        u_g = -\frac{g_0}{f}\frac{\partial z}{\partial y},\quad
+        v_g = \frac{g_0}{f}\frac{\partial z}{\partial x}
+        \qquad\text{or}\qquad
+        u_g = -\frac{1}{\rho f}\frac{\partial p}{\partial y},\quad
+        v_g = \frac{1}{\rho f}\frac{\partial p}{\partial x}
 
-    with :math:`f = 2\\Omega\\sin\\varphi` (any dynamics text; Eq. Vg,
+    with :math:`f = 2\Omega\sin\varphi` (any dynamics text; Eq. Vg,
     [REFERENCES, Front motion]). Gradients come from
     :func:`kit.geometry.gradient` (on the sphere, or on the projection).
     """
@@ -210,7 +210,7 @@ def geostrophic_wind(
             raise InputError(f"geostrophic_wind: rho={rho!r}; expected a number or 'from_t'")
         rho = _density_from_t(height_or_pressure, ds)
     if isinstance(height_or_pressure, xr.DataArray) and isinstance(rho, np.ndarray) and rho.ndim:
-        rho = xr.DataArray(rho, dims=height_or_pressure.dims[-rho.ndim:])
+        rho = xr.DataArray(rho, dims=height_or_pressure.dims[-rho.ndim :])
     with np.errstate(divide="ignore", invalid="ignore"):
         fac = G0 / f if kind == "height" else 1.0 / (rho * f)
         ug = -fac * d_north
@@ -267,7 +267,9 @@ def _aeqd_km(lon, lat, lon0, lat0):
     p0, p1 = np.deg2rad(lat0), np.deg2rad(lat)
     dl = np.deg2rad(np.asarray(lon, float) - np.asarray(lon0, float))
     d = _haversine_km(lon0, lat0, lon, lat)
-    b = np.arctan2(np.sin(dl) * np.cos(p1), np.cos(p0) * np.sin(p1) - np.sin(p0) * np.cos(p1) * np.cos(dl))
+    b = np.arctan2(
+        np.sin(dl) * np.cos(p1), np.cos(p0) * np.sin(p1) - np.sin(p0) * np.cos(p1) * np.cos(dl)
+    )
     return d * np.sin(b), d * np.cos(b)
 
 
@@ -284,7 +286,9 @@ def _destination(lon, lat, east, north, dist_km):
     delta = np.abs(dist) / EARTH_RADIUS_KM
     p1 = np.deg2rad(lat)
     p2 = np.arcsin(np.sin(p1) * np.cos(delta) + np.cos(p1) * np.sin(delta) * np.cos(brg))
-    dl = np.arctan2(np.sin(brg) * np.sin(delta) * np.cos(p1), np.cos(delta) - np.sin(p1) * np.sin(p2))
+    dl = np.arctan2(
+        np.sin(brg) * np.sin(delta) * np.cos(p1), np.cos(delta) - np.sin(p1) * np.sin(p2)
+    )
     return lon + np.rad2deg(dl), np.rad2deg(p2)
 
 
@@ -310,7 +314,7 @@ def _weighted_mean(values, weights):
 
 
 def _json_float(x, ndigits=3):
-    """A float for ``front.props``: rounded, or None where missing (GeoJSON has no NaN)."""
+    """Return a float for ``front.props``: rounded, or None where missing (GeoJSON has no NaN)."""
     if x is None:
         return None
     x = float(x)
@@ -338,9 +342,13 @@ class _PointSampler:
             self.lat = np.asarray(lat.values, float)
             self.lon = np.asarray(lon.values, float)
             if self.lat.size < 2 or self.lon.size < 2:
-                raise InputError("grid: need at least 2 latitudes and 2 longitudes to sample fields")
+                raise InputError(
+                    "grid: need at least 2 latitudes and 2 longitudes to sample fields"
+                )
             if self.lat[0] > self.lat[-1]:
-                raise InputError("grid: latitude must be ascending (canonical dataset, DEVELOPERS.md)")
+                raise InputError(
+                    "grid: latitude must be ascending (canonical dataset, DEVELOPERS.md)"
+                )
             dlon = float(np.median(np.diff(self.lon)))
             span = self.lon[-1] - self.lon[0] + dlon
             self.periodic = abs(span - 360.0) < 0.5 * dlon
@@ -433,8 +441,10 @@ class _PointSampler:
 def _select(ds, name, *, time=None, level=None, member=None):
     """2-D numpy (Y, X) slice of a canonical variable; one-line InputError if missing."""
     if name not in ds:
-        raise InputError(f"dataset {ds.attrs.get('run', '')!r}: variable {name!r} missing; "
-                         "expected the canonical names of DEVELOPERS.md")
+        raise InputError(
+            f"dataset {ds.attrs.get('run', '')!r}: variable {name!r} missing; "
+            "expected the canonical names of DEVELOPERS.md"
+        )
     da = ds[name]
     if "member" in da.dims:
         if member is None:
@@ -458,7 +468,9 @@ def _select(ds, name, *, time=None, level=None, member=None):
             )
         da = da.isel(level=k)
     if da.ndim != 2:
-        raise InputError(f"variable {name!r}: expected a (Y, X) field after selection, got dims {da.dims}")
+        raise InputError(
+            f"variable {name!r}: expected a (Y, X) field after selection, got dims {da.dims}"
+        )
     return np.asarray(da.values, float)
 
 
@@ -501,12 +513,14 @@ def _normal_offsets_km(front_a, front_b, max_gap_km, *, min_normal_dot=0.0):
 
 
 def _bbox_gap_km(a, b):
-    """A cheap lower bound test: minimum vertex-to-vertex distance [km] (subsampled)."""
+    """Return the least vertex-to-vertex distance [km] of two lines (subsampled, cheap)."""
     sa = max(1, len(a.lon) // 40)
     sb = max(1, len(b.lon) // 40)
     d = _haversine_km(
-        np.asarray(a.lon)[::sa, None], np.asarray(a.lat)[::sa, None],
-        np.asarray(b.lon)[None, ::sb], np.asarray(b.lat)[None, ::sb],
+        np.asarray(a.lon)[::sa, None],
+        np.asarray(a.lat)[::sa, None],
+        np.asarray(b.lon)[None, ::sb],
+        np.asarray(b.lat)[None, ::sb],
     )
     return float(d.min())
 
@@ -522,7 +536,7 @@ def track_fronts(
     max_speed_ms=30.0,
     min_overlap_frac=0.25,
 ):
-    """Link fronts over valid times into tracks and measure their displacement speed.
+    r"""Link fronts over valid times into tracks and measure their displacement speed.
 
     Fronts are grouped by run, member and level; within a group the lines of
     consecutive valid times are matched by overlap along the front normal.
@@ -559,7 +573,7 @@ def track_fronts(
     forward offset; the offset back to the line of :math:`t_{i-1}` is
     :math:`s^-`. The vertex speed is the centred difference
 
-    .. math:: c = \\frac{s^+ - s^-}{t_{i+1} - t_{i-1}}
+    .. math:: c = \frac{s^+ - s^-}{t_{i+1} - t_{i-1}}
 
     where both exist, else the one-sided difference. The length covered by the
     crossings is the overlap of two lines. A line that overlaps several later
@@ -617,7 +631,9 @@ def track_fronts(
                     best = max(parents, key=lambda a_i: over[a_i, b_i])
                     bwd[id(b)] = (olds[best], offs[(best, b_i)][1])
                 if heirs:
-                    heir = min(heirs, key=lambda a_i: (track_start[olds[a_i].track], -over[a_i, b_i]))
+                    heir = min(
+                        heirs, key=lambda a_i: (track_start[olds[a_i].track], -over[a_i, b_i])
+                    )
                     b.track = olds[heir].track
                     b.props["track_parent"] = olds[heir].track
                     b.props["track_event"] = "merge" if len(heirs) > 1 else "continues"
@@ -627,7 +643,9 @@ def track_fronts(
                     next_id += 1
                     if parents:
                         b.props["track_event"] = "split"
-                        b.props["track_parent"] = olds[max(parents, key=lambda a_i: over[a_i, b_i])].track
+                        b.props["track_parent"] = olds[
+                            max(parents, key=lambda a_i: over[a_i, b_i])
+                        ].track
                     else:
                         b.props["track_event"] = "new"
                         b.props["track_parent"] = None
@@ -668,7 +686,7 @@ def _vertex_speeds(front, fwd, bwd):
 # speeds three ways
 # --------------------------------------------------------------------------
 def _tangent(front):
-    """Unit along-front direction k x n (east, north) at each vertex."""
+    """Return the unit along-front direction k x n (east, north) at each vertex."""
     return -np.asarray(front.normal_north, float), np.asarray(front.normal_east, float)
 
 
@@ -684,24 +702,34 @@ def _speed_flag(tracked, wind, rule, frac, qs):
     """Plain-words hint where the three speeds disagree [m s-1]; '' where they agree."""
     hints = []
     floor = 2.5  # m/s (about 5 kt): differences below it are not worth a flag
+
     def differ(a, b):
-        return np.isfinite(a) and np.isfinite(b) and abs(a - b) > max(frac * max(abs(a), abs(b)), floor)
+        return (
+            np.isfinite(a)
+            and np.isfinite(b)
+            and abs(a - b) > max(frac * max(abs(a), abs(b)), floor)
+        )
 
     if np.isfinite(wind) and abs(wind) < qs and (not np.isfinite(tracked) or abs(tracked) < 2 * qs):
         hints.append("front-normal wind weak: quasi-stationary, timing uncertain")
     elif differ(tracked, wind):
         if tracked * wind < 0 and min(abs(tracked), abs(wind)) > qs:
-            hints.append("tracked motion opposite to the steering wind: check the track and the front type")
+            hints.append(
+                "tracked motion opposite to the steering wind: check the track and the front type"
+            )
         elif abs(tracked) < abs(wind):
-            hints.append("tracked speed well below the steering wind: front slowing or a wave developing")
+            hints.append(
+                "tracked speed well below the steering wind: front slowing or a wave developing"
+            )
         else:
             hints.append(
-                "tracked speed well above the steering wind: front redeveloping ahead or the line jumped; "
-                "check the track"
+                "tracked speed well above the steering wind: front redeveloping ahead "
+                "or the line jumped; check the track"
             )
     if differ(rule, tracked if np.isfinite(tracked) else wind):
         hints.append(
-            "isobar rule disagrees with the model motion: curved isobars or ageostrophic flow near the front"
+            "isobar rule disagrees with the model motion: curved isobars "
+            "or ageostrophic flow near the front"
         )
     return "; ".join(hints)
 
@@ -717,7 +745,7 @@ def speeds_three_ways(
     qs_speed_ms=1.5,
     min_abs_lat_deg=MIN_ABS_LAT_DEG,
 ):
-    """Front-normal speed from the track, the steering wind and the isobar rule.
+    r"""Front-normal speed from the track, the steering wind and the isobar rule.
 
     Parameters
     ----------
@@ -756,14 +784,14 @@ def speeds_three_ways(
 
     Notes
     -----
-    The geostrophic wind component along the normal :math:`\\hat n` depends
-    only on the pressure gradient along the front, :math:`\\hat t = \\hat k
-    \\times \\hat n`:
+    The geostrophic wind component along the normal :math:`\hat n` depends
+    only on the pressure gradient along the front, :math:`\hat t = \hat k
+    \times \hat n`:
 
-    .. math:: V_{g,n} = -\\frac{1}{\\rho f}\\frac{\\partial p}{\\partial t}
+    .. math:: V_{g,n} = -\frac{1}{\rho f}\frac{\partial p}{\partial t}
 
     read as :math:`(p(+d/2) - p(-d/2))/d` at each vertex. The rule speed is
-    :math:`\\tfrac23 V_{g,n}` for a warm front and :math:`V_{g,n}` for a cold
+    :math:`\tfrac23 V_{g,n}` for a warm front and :math:`V_{g,n}` for a cold
     front (common practice, no source; a quasi-stationary front takes the warm
     factor where :math:`V_{g,n} > 0`, the cold one otherwise).
     """

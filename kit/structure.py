@@ -57,7 +57,7 @@ _FIRST_GUESS_1_IN = {"warm": 150.0, "cold": 50.0, "quasi-stationary": 100.0}
 
 
 def margules_slope(t_cold, t_warm, v_cold, v_warm, lat):
-    """Slope of a sharp front in geostrophic balance (Margules 1906).
+    r"""Slope of a sharp front in geostrophic balance (Margules 1906).
 
     Parameters
     ----------
@@ -72,15 +72,15 @@ def margules_slope(t_cold, t_warm, v_cold, v_warm, lat):
     Returns
     -------
     ndarray or float
-        :math:`\\tan\\alpha` [1]; positive where the surface rises over the
+        :math:`\tan\alpha` [1]; positive where the surface rises over the
         cold air (cyclonic shear), ``1 / tan(alpha)`` is ``N`` of 1 in N.
 
     Notes
     -----
     .. math::
 
-        \\tan\\alpha = \\frac{f\\,(T_1 v_2 - T_2 v_1)}{g\\,(T_2 - T_1)}
-        \\approx \\frac{f \\bar T}{g}\\frac{\\Delta v}{\\Delta T}
+        \tan\alpha = \frac{f\,(T_1 v_2 - T_2 v_1)}{g\,(T_2 - T_1)}
+        \approx \frac{f \bar T}{g}\frac{\Delta v}{\Delta T}
 
     Eq. Margules, [Margules1906]; index 1 the colder, 2 the warmer side. The
     horizontal axis runs from the cold to the warm air and ``v`` is the wind
@@ -154,7 +154,9 @@ class _Fields:
         self.field = field
         self.name = getattr(settings, "field", "theta_w") or "theta_w"
         if self.name not in ("theta_w", "theta"):
-            raise InputError(f"front settings: field {self.name!r} unknown; expected 'theta_w' or 'theta'")
+            raise InputError(
+                f"front settings: field {self.name!r} unknown; expected 'theta_w' or 'theta'"
+            )
         self.scale_km = _smoothing_km(ds, settings)
         self.sampler = _PointSampler(ds)
         self._cache = {}
@@ -166,9 +168,13 @@ class _Fields:
             from kit.thermo import level_field
 
             if self.field is not None:
-                tau = _select(xr.Dataset({"tau": self.field}), "tau", time=time, level=level, member=member)
+                tau = _select(
+                    xr.Dataset({"tau": self.field}), "tau", time=time, level=level, member=member
+                )
             else:
-                tau = np.asarray(level_field(_sub(self.ds, time, member), self.name, level).values, float)
+                tau = np.asarray(
+                    level_field(_sub(self.ds, time, member), self.name, level).values, float
+                )
             tau = np.asarray(smooth(tau, self.ds, self.scale_km), float)
             tfp, ge, gn = _tfp_2d(tau, self.ds)
             z = _select(self.ds, "z", time=time, level=level, member=member)
@@ -207,7 +213,7 @@ def _profile_peaks(s, tfp, along, rel=0.25):
 
 
 def _vertex_choice(n, max_vertices, trim=0.1):
-    """Indices of up to ``max_vertices`` vertices spread along a line, ends trimmed."""
+    """Return indices of up to ``max_vertices`` vertices spread along a line, ends trimmed."""
     if n <= 2:
         return np.arange(n)
     lo = int(np.floor(trim * (n - 1)))
@@ -276,7 +282,12 @@ def front_slope(
     """
     fields = _fields if _fields is not None else _Fields(ds, settings, field)
     levels = sorted(_levels_present(ds, levels), reverse=True)  # 1000 first
-    nan = {"slope_1_in": float("nan"), "scatter": float("nan"), "n_vertices": 0, "vertex_slopes_1_in": []}
+    nan = {
+        "slope_1_in": float("nan"),
+        "scatter": float("nan"),
+        "n_vertices": 0,
+        "vertex_slopes_1_in": [],
+    }
     if len(levels) < 3 or len(front.lon) < 2:
         return nan
     guess = _FIRST_GUESS_1_IN.get(front.kind, 100.0)
@@ -356,7 +367,7 @@ def front_slope(
 
 
 def front_margules_slope(front, ds, *, level=None, offset_km=250.0, max_vertices=15, _sampler=None):
-    """Margules slope of a front from the model's temperature and heights.
+    r"""Margules slope of a front from the model's temperature and heights.
 
     Parameters
     ----------
@@ -382,7 +393,7 @@ def front_margules_slope(front, ds, *, level=None, offset_km=250.0, max_vertices
     -----
     :func:`margules_slope` with ``T`` from ``t`` and ``v`` the geostrophic wind
     from ``z`` (:func:`kit.motion.geostrophic_wind`) at the two points. The
-    Margules axis runs from cold to warm, i.e. along :math:`-\\hat n`, so the
+    Margules axis runs from cold to warm, i.e. along :math:`-\hat n`, so the
     Margules along-front wind is :math:`v = u_g n_n - v_g n_e`.
     """
     level = float(front.level_hpa if level is None else level)
@@ -404,7 +415,11 @@ def front_margules_slope(front, ds, *, level=None, offset_km=250.0, max_vertices
         return sampler.sample(ug, lo, la) * nn - sampler.sample(vg, lo, la) * ne
 
     tan = margules_slope(
-        sampler.sample(t, lo_c, la_c), sampler.sample(t, lo_w, la_w), along(lo_c, la_c), along(lo_w, la_w), lat
+        sampler.sample(t, lo_c, la_c),
+        sampler.sample(t, lo_w, la_w),
+        along(lo_c, la_c),
+        along(lo_w, la_w),
+        lat,
     )
     tan = np.where(np.asarray(tan) > 0, tan, np.nan)
     good = tan[np.isfinite(tan)]

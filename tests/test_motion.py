@@ -105,8 +105,11 @@ def test_geostrophic_wind_mslp_grid_worked_example(lat, expected):
     ds = grid_dataset(la, lo, [T0])
     y_km = R_KM * np.deg2rad(la - lat)
     p = 101000.0 - 400.0 * (y_km / 200.0)
-    mslp = xr.DataArray(np.broadcast_to(p[:, None], (la.size, lo.size)).copy(), dims=("lat", "lon"),
-                        coords={"lat": la, "lon": lo})
+    mslp = xr.DataArray(
+        np.broadcast_to(p[:, None], (la.size, lo.size)).copy(),
+        dims=("lat", "lon"),
+        coords={"lat": la, "lon": lo},
+    )
     ug, vg = geostrophic_wind(mslp, ds, kind="mslp", rho=1.25)
     j = int(np.argmin(np.abs(la - lat)))
     assert isinstance(ug, xr.DataArray)
@@ -116,7 +119,11 @@ def test_geostrophic_wind_mslp_grid_worked_example(lat, expected):
 
 def _height_field(lat, lon):
     lo, la = np.meshgrid(lon, lat)
-    return 1500.0 - 180.0 * np.exp(-((lo + 10) ** 2 / 150 + (np.abs(la) - 52) ** 2 / 60)) - 4.0 * (np.abs(la) - 50)
+    return (
+        1500.0
+        - 180.0 * np.exp(-((lo + 10) ** 2 / 150 + (np.abs(la) - 52) ** 2 / 60))
+        - 4.0 * (np.abs(la) - 50)
+    )
 
 
 @pytest.mark.parametrize("hemisphere", [1, -1])
@@ -129,8 +136,12 @@ def test_geostrophic_wind_height_against_metpy(hemisphere):
     lon = np.arange(-40.0, 20.01, 0.5)
     z = _height_field(lat, lon)
     da = xr.DataArray(
-        z, dims=("lat", "lon"),
-        coords={"lat": ("lat", lat, {"units": "degrees_north"}), "lon": ("lon", lon, {"units": "degrees_east"})},
+        z,
+        dims=("lat", "lon"),
+        coords={
+            "lat": ("lat", lat, {"units": "degrees_north"}),
+            "lon": ("lon", lon, {"units": "degrees_east"}),
+        },
         attrs={"units": "m"},
     )
     ref_u, ref_v = metpy_calc.geostrophic_wind(da)
@@ -158,12 +169,17 @@ def test_geostrophic_rho_from_temperature():
     lat = np.arange(40.0, 60.01, 0.5)
     lon = np.arange(-10.0, 10.01, 0.5)
     ds = grid_dataset(lat, lon, [T0])
-    p = xr.DataArray(np.broadcast_to(101325.0 - 50.0 * lat[:, None], (lat.size, lon.size)).copy(),
-                     dims=("lat", "lon"), coords={"lat": lat, "lon": lon})
+    p = xr.DataArray(
+        np.broadcast_to(101325.0 - 50.0 * lat[:, None], (lat.size, lon.size)).copy(),
+        dims=("lat", "lon"),
+        coords={"lat": lat, "lon": lon},
+    )
     ds["t2m"] = xr.full_like(p, 283.15)
     u_t, _ = geostrophic_wind(p, ds, kind="mslp", rho="from_t")
     u_c, _ = geostrophic_wind(p, ds, kind="mslp", rho=p.values / (motion.RD * 283.15))
-    assert float(p[0, 0]) / (motion.RD * 283.15) == pytest.approx(1.2221, abs=1e-4)  # 99325 Pa, 283.15 K
+    assert float(p[0, 0]) / (motion.RD * 283.15) == pytest.approx(
+        1.2221, abs=1e-4
+    )  # 99325 Pa, 283.15 K
     np.testing.assert_allclose(u_t[5:-5], u_c[5:-5], rtol=1e-3)
     with pytest.raises(motion.InputError):
         geostrophic_wind(p, ds, kind="pressure")
@@ -296,7 +312,9 @@ def test_runs_members_and_levels_tracked_apart():
     for run in ("r1", "r2"):
         for member in (None, 3):
             for i in range(2):
-                fronts.append(parallel_front(lat_after(45.0, 36.0 * i), 3 * i, run=run, member=member))
+                fronts.append(
+                    parallel_front(lat_after(45.0, 36.0 * i), 3 * i, run=run, member=member)
+                )
     track_fronts(fronts)
     ids = {(f.run, f.member): set() for f in fronts}
     for f in fronts:
@@ -326,10 +344,16 @@ def speed_dataset(lat0, *, hemisphere=1, u=3.0, v=15.0, dpdx_pa_per_km=400.0 / 2
     dims4 = ("time", "level", "lat", "lon")
     ds["u"] = (dims4, np.full(shape4, u))
     ds["v"] = (dims4, np.full(shape4, hemisphere * v))
-    ds["z"] = (dims4, np.zeros(shape4) + np.array([110, 760, 1460, 3010, 4200, 5570.0])[None, :, None, None])
+    ds["z"] = (
+        dims4,
+        np.zeros(shape4) + np.array([110, 760, 1460, 3010, 4200, 5570.0])[None, :, None, None],
+    )
     x_km = R_KM * np.cos(np.deg2rad(lat))[:, None] * np.deg2rad(lon - lon.mean())[None, :]
     p = 101000.0 + dpdx_pa_per_km * x_km
-    ds["mslp"] = (("time", "lat", "lon"), np.broadcast_to(p, (len(times), lat.size, lon.size)).copy())
+    ds["mslp"] = (
+        ("time", "lat", "lon"),
+        np.broadcast_to(p, (len(times), lat.size, lon.size)).copy(),
+    )
     return ds
 
 
@@ -385,8 +409,14 @@ def test_speeds_on_a_projected_grid_match_latlon():
     xx, yy = np.meshgrid(x, y)
     lon2, lat2 = tr.transform(xx, yy)
     ds = xr.Dataset(
-        coords={"time": [T0], "level": [850.0], "y": y, "x": x,
-                "lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)},
+        coords={
+            "time": [T0],
+            "level": [850.0],
+            "y": y,
+            "x": x,
+            "lat": (("y", "x"), lat2),
+            "lon": (("y", "x"), lon2),
+        },
         attrs={"grid": "projected", "dx_m": 25e3, "dy_m": 25e3, "run": "lcc"},
     )
     xk = R_KM * np.cos(np.deg2rad(lat2)) * np.deg2rad(lon2 + 10.0)
@@ -409,8 +439,10 @@ def test_point_sampler_projected_grid_inverts_coordinates():
     y = np.arange(-4000e3, -1000e3 + 1, 50e3)
     xx, yy = np.meshgrid(x, y)
     lon2, lat2 = tr.transform(xx, yy)
-    ds = xr.Dataset(coords={"y": y, "x": x, "lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)},
-                    attrs={"grid": "projected"})
+    ds = xr.Dataset(
+        coords={"y": y, "x": x, "lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)},
+        attrs={"grid": "projected"},
+    )
     smp = motion._PointSampler(ds)
     plon = np.array([-10.0, 5.0, 12.5])
     plat = np.array([55.0, 60.3, 66.0])
@@ -449,8 +481,19 @@ def saturated_t_for_theta_w(theta_w, p_hpa):
     return np.interp(theta_w, tw_tab, t_tab)
 
 
-def zone_dataset(*, c_ms, n_slope, v_wind, hemisphere=1, lat0=45.0, n_times=5, dt_h=3.0,
-                 dtheta=8.0, l_km=100.0, grid=0.25):
+def zone_dataset(
+    *,
+    c_ms,
+    n_slope,
+    v_wind,
+    hemisphere=1,
+    lat0=45.0,
+    n_times=5,
+    dt_h=3.0,
+    dtheta=8.0,
+    l_km=100.0,
+    grid=0.25,
+):
     """Frontal zone tanh in theta-w, cold side poleward, moving poleward at c_ms.
 
     Zone centre on a level at height z: y = c t + n_slope * z (poleward km).
@@ -472,15 +515,23 @@ def zone_dataset(*, c_ms, n_slope, v_wind, hemisphere=1, lat0=45.0, n_times=5, d
     ds["td"] = (dims4, t.copy())
     ds["u"] = (dims4, np.full(t.shape, 2.0))
     ds["v"] = (dims4, np.full(t.shape, hemisphere * v_wind))
-    ds["z"] = (dims4, np.broadcast_to(np.array(list(Z_STD.values()))[None, :, None, None], t.shape).copy())
+    ds["z"] = (
+        dims4,
+        np.broadcast_to(np.array(list(Z_STD.values()))[None, :, None, None], t.shape).copy(),
+    )
     x_km = R_KM * np.cos(np.deg2rad(lat))[:, None] * np.deg2rad(lon + 10.0)[None, :]
-    ds["mslp"] = (("time", "lat", "lon"), np.broadcast_to(101000.0 + 1.5 * x_km, (n_times,) + x_km.shape).copy())
+    ds["mslp"] = (
+        ("time", "lat", "lon"),
+        np.broadcast_to(101000.0 + 1.5 * x_km, (n_times,) + x_km.shape).copy(),
+    )
     ds = ds.assign_coords(reference_time=np.datetime64(T0, "ns"))
     return ds
 
 
 @pytest.mark.parametrize("hemisphere", [1, -1])
-@pytest.mark.parametrize("kind, c_ms, v_wind, n_slope", [("warm", 9.0, 13.5, 150.0), ("cold", -13.0, -13.0, 50.0)])
+@pytest.mark.parametrize(
+    "kind, c_ms, v_wind, n_slope", [("warm", 9.0, 13.5, 150.0), ("cold", -13.0, -13.0, 50.0)]
+)
 def test_analyse_run_translating_zone(kind, c_ms, v_wind, n_slope, hemisphere):
     from kit.motion import analyse_run
 

@@ -27,14 +27,25 @@ def make_front(lon, lat, ne, nn, *, kind="warm", level=850.0, time=T0):
     lon = np.asarray(lon, float)
     n = lon.size
     return Front(
-        lon=lon, lat=np.broadcast_to(np.asarray(lat, float), (n,)).copy(), kind=kind,
-        valid_time=np.datetime64(time, "ns"), level_hpa=level, tfp=np.ones(n), grad=np.ones(n),
-        normal_east=np.full(n, float(ne)), normal_north=np.full(n, float(nn)), vn=np.zeros(n),
-        speed_ms=0.0, length_km=0.0, run="test",
+        lon=lon,
+        lat=np.broadcast_to(np.asarray(lat, float), (n,)).copy(),
+        kind=kind,
+        valid_time=np.datetime64(time, "ns"),
+        level_hpa=level,
+        tfp=np.ones(n),
+        grad=np.ones(n),
+        normal_east=np.full(n, float(ne)),
+        normal_north=np.full(n, float(nn)),
+        vn=np.zeros(n),
+        speed_ms=0.0,
+        length_km=0.0,
+        run="test",
     )
 
 
-def sloping_zone(n_slope, *, hemisphere=1, lat0=45.0, dtheta=8.0, l_km=100.0, grid=0.25, lon_span=(-25.0, 5.0)):
+def sloping_zone(
+    n_slope, *, hemisphere=1, lat0=45.0, dtheta=8.0, l_km=100.0, grid=0.25, lon_span=(-25.0, 5.0)
+):
     """Potential-temperature zone, cold side poleward, centre at y = n_slope * z.
 
     theta = theta_bg(p) - dtheta/2 tanh((y - N z)/L), y poleward distance [km]
@@ -47,7 +58,11 @@ def sloping_zone(n_slope, *, hemisphere=1, lat0=45.0, dtheta=8.0, l_km=100.0, gr
     y_km = R_KM * np.deg2rad(np.abs(lat) - lat0)
     t = np.empty((1, levels.size, lat.size, lon.size))
     for k, lv in enumerate(levels):
-        theta = 285.0 + 4.0 * Z_STD[lv] / 1e3 - dtheta / 2 * np.tanh((y_km - n_slope * Z_STD[lv] / 1e3) / l_km)
+        theta = (
+            285.0
+            + 4.0 * Z_STD[lv] / 1e3
+            - dtheta / 2 * np.tanh((y_km - n_slope * Z_STD[lv] / 1e3) / l_km)
+        )
         t[0, k] = (theta * (lv / 1000.0) ** KAPPA)[:, None]
     ds = xr.Dataset(
         coords={"time": [T0], "level": levels, "lat": lat, "lon": lon},
@@ -56,7 +71,10 @@ def sloping_zone(n_slope, *, hemisphere=1, lat0=45.0, dtheta=8.0, l_km=100.0, gr
     dims = ("time", "level", "lat", "lon")
     ds["t"] = (dims, t)
     ds["td"] = (dims, t - 5.0)
-    ds["z"] = (dims, np.broadcast_to(np.array(list(Z_STD.values()))[None, :, None, None], t.shape).copy())
+    ds["z"] = (
+        dims,
+        np.broadcast_to(np.array(list(Z_STD.values()))[None, :, None, None], t.shape).copy(),
+    )
     return ds
 
 
@@ -101,24 +119,36 @@ def test_front_margules_slope_samples_both_air_masses(hemisphere):
     # zonal geostrophic wind wanted: 9 m/s on the warm (equatorward) side,
     # -1 m/s on the cold side, times the hemisphere so the shear is cyclonic
     u_w, u_c = 9.0, -1.0
-    u_target = (0.5 * (u_w + u_c) - 0.5 * (u_w - u_c) * np.tanh(y / w))
+    u_target = 0.5 * (u_w + u_c) - 0.5 * (u_w - u_c) * np.tanh(y / w)
     # u = -(g/f) dz/dy_north; y_north = hemisphere * y -> dz/dy = -u f hemisphere / g
     dzdy = -u_target * f_abs / G0  # per poleward metre, any hemisphere
     z = 1460.0 + np.concatenate([[0.0], np.cumsum(0.5 * (dzdy[1:] + dzdy[:-1]) * np.diff(y))])
     if hemisphere < 0:
         z = z - z[-1]  # any constant
     tt = 272.5 - 2.5 * np.tanh(y / w)
-    ds = xr.Dataset(coords={"time": [T0], "level": [850.0], "lat": lat, "lon": lon},
-                    attrs={"grid": "latlon"})
-    ds["z"] = (("time", "level", "lat", "lon"), np.broadcast_to(z[:, None], (lat.size, lon.size))[None, None].copy())
-    ds["t"] = (("time", "level", "lat", "lon"), np.broadcast_to(tt[:, None], (lat.size, lon.size))[None, None].copy())
+    ds = xr.Dataset(
+        coords={"time": [T0], "level": [850.0], "lat": lat, "lon": lon}, attrs={"grid": "latlon"}
+    )
+    ds["z"] = (
+        ("time", "level", "lat", "lon"),
+        np.broadcast_to(z[:, None], (lat.size, lon.size))[None, None].copy(),
+    )
+    ds["t"] = (
+        ("time", "level", "lat", "lon"),
+        np.broadcast_to(tt[:, None], (lat.size, lon.size))[None, None].copy(),
+    )
     fr = make_front(np.arange(-8.0, -2.0, 0.25), hemisphere * lat0, 0.0, hemisphere)
     n = front_margules_slope(fr, ds, offset_km=250.0)
     # expected: the formula with the values at +-250 km (tanh saturated)
     lat_c = lat0 + np.rad2deg(250.0 / R_KM)
     lat_w = lat0 - np.rad2deg(250.0 / R_KM)
-    tan = margules_slope(270.0 + 2.5 * (1 - np.tanh(250e3 / w)), 275.0 - 2.5 * (1 - np.tanh(250e3 / w)),
-                         u_c, u_w, lat0)
+    tan = margules_slope(
+        270.0 + 2.5 * (1 - np.tanh(250e3 / w)),
+        275.0 - 2.5 * (1 - np.tanh(250e3 / w)),
+        u_c,
+        u_w,
+        lat0,
+    )
     assert np.isfinite(n)
     # 2 %: bilinear sampling and centred differences on a 0.1 deg grid
     assert n == pytest.approx(1.0 / tan, rel=0.02)
@@ -162,21 +192,33 @@ def test_slope_of_a_rotated_zone():
     levels = np.array(list(Z_STD))
     t = np.empty((1, levels.size) + lo2.shape)
     for k, lv in enumerate(levels):
-        theta = 285.0 + 4.0 * Z_STD[lv] / 1e3 - 4.0 * np.tanh((xi - n_slope * Z_STD[lv] / 1e3) / l_km)
+        theta = (
+            285.0 + 4.0 * Z_STD[lv] / 1e3 - 4.0 * np.tanh((xi - n_slope * Z_STD[lv] / 1e3) / l_km)
+        )
         t[0, k] = theta * (lv / 1000.0) ** KAPPA
-    ds = xr.Dataset(coords={"time": [T0], "level": levels, "lat": lat, "lon": lon}, attrs={"grid": "latlon"})
+    ds = xr.Dataset(
+        coords={"time": [T0], "level": levels, "lat": lat, "lon": lon}, attrs={"grid": "latlon"}
+    )
     dims = ("time", "level", "lat", "lon")
     ds["t"] = (dims, t)
     ds["td"] = (dims, t - 5.0)
-    ds["z"] = (dims, np.broadcast_to(np.array(list(Z_STD.values()))[None, :, None, None], t.shape).copy())
+    ds["z"] = (
+        dims,
+        np.broadcast_to(np.array(list(Z_STD.values()))[None, :, None, None], t.shape).copy(),
+    )
     s_along = np.arange(-400.0, 400.1, 25.0)
     xi0 = n_slope * Z_STD[850.0] / 1e3
     pe = xi0 * n_e - s_along * n_n
     pn = xi0 * n_n + s_along * n_e
     vlon, vlat = local_to_lonlat(pe, pn, -10.0, 47.0)
     qlon, qlat = local_to_lonlat(pe + n_e, pn + n_n, -10.0, 47.0)
-    ve, vn = zip(*[local_east_north_km(a, b, c, d) for a, b, c, d in zip(qlon, qlat, vlon, vlat, strict=True)],
-                 strict=True)
+    ve, vn = zip(
+        *[
+            local_east_north_km(a, b, c, d)
+            for a, b, c, d in zip(qlon, qlat, vlon, vlat, strict=True)
+        ],
+        strict=True,
+    )
     ve, vn = np.array(ve), np.array(vn)
     norm = np.hypot(ve, vn)
     fr = make_front(vlon, vlat, 0.0, 1.0, kind="warm")
