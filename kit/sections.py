@@ -301,6 +301,9 @@ def _at_time(ds, time, member):
     ds = _select_member(ds, member)
     t = select_time(ds, time)
     keep = [n for n in (*_REQUIRED, "precip", "t2m", "td2m", "mslp") if n in ds]
+    # the CF grid-mapping variable of a projected grid, for exact point placement
+    keep += sorted({ds[n].attrs["grid_mapping"] for n in _REQUIRED
+                    if ds[n].attrs.get("grid_mapping") in ds.variables})
     one = ds[keep].sel(time=t) if "time" in ds.dims else ds[keep]
     if "time" in one.coords:
         one = one.drop_vars("time")
@@ -361,7 +364,7 @@ def potential_vorticity(theta, u, v, grid):
     pv = -G0 * ((f + zeta) * ddp(theta) - ddp(v) * dth_e + ddp(u) * dth_n)
     pv = (pv / 1e-6).transpose(*theta.dims)
     pv.name = "pv"
-    pv.attrs = {"units": "PVU", "long_name": "potential vorticity (1 PVU = 1e-6 K m2 kg-1 s-1)"}
+    pv.attrs = {"units": "1e-6 K m2 kg-1 s-1", "long_name": "potential vorticity (1 PVU = 1e-6 K m2 kg-1 s-1)"}
     return pv
 
 
@@ -612,7 +615,7 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
                              "lon": ("distance", lon, {"units": "degrees_east"})})
     for name, unit, long in (("t", "K", "air temperature"), ("td", "K", "dew point"),
                              ("u", "m s-1", "eastward wind"), ("v", "m s-1", "northward wind"),
-                             ("z", "m", "geopotential height"), ("pv", "PVU",
+                             ("z", "m", "geopotential height"), ("pv", "1e-6 K m2 kg-1 s-1",
                               "potential vorticity (1 PVU = 1e-6 K m2 kg-1 s-1)")):
         sec[name] = flat[name].transpose(*dims2).astype(float)
         sec[name].attrs = {"units": unit, "long_name": long}
@@ -662,7 +665,7 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
         sec[f"{name}_hpa"] = ("distance", pc, {"units": "hPa", "long_name": long})
     sec["pv_hemispheric"] = (sec["pv"] * xr.DataArray(np.where(lat < 0, -1.0, 1.0),
                                                       dims="distance")).transpose(*dims2)
-    sec["pv_hemispheric"].attrs = {"units": "PVU", "long_name": "potential vorticity times the "
+    sec["pv_hemispheric"].attrs = {"units": "1e-6 K m2 kg-1 s-1", "long_name": "potential vorticity times the "
                                    "sign of latitude (2 on the dynamic tropopause)"}
 
     if "precip" in flat:

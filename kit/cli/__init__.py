@@ -20,6 +20,7 @@ __all__ = ["COMMANDS", "main", "build_parser"]
 COMMANDS = [
     "arrivals",
     "rerun",
+    "section",
 ]
 
 
