@@ -122,8 +122,16 @@ def _levels_present(ds, levels):
 
 
 def _smoothing_km(ds, settings):
+    """Smoothing scale [km]: the fronts' own (kit.fronts.effective_smoothing_km) where known."""
     from kit.geometry import grid_length_km
 
+    if settings is None or hasattr(settings, "smoothing_grid_lengths"):
+        try:
+            from kit.fronts import effective_smoothing_km
+        except ImportError:  # older kit.fronts
+            effective_smoothing_km = None
+        if effective_smoothing_km is not None:
+            return float(effective_smoothing_km(ds, settings))
     scale = getattr(settings, "smoothing_km", None)
     if scale is None or not np.isfinite(scale):
         scale = max(75.0, 2.0 * float(np.nanmedian(grid_length_km(ds))))
