@@ -586,3 +586,22 @@ TRUTH = ROOT / "sample_grids" / "truth.json"
 def test_doctests():
     res = doctest.testmod(motion)
     assert res.attempted >= 2 and res.failed == 0
+
+
+def test_analyse_run_members_tracked_apart():
+    # two members of one run moving at different speeds: one track each, each
+    # with its own speed [derived]
+    from kit.motion import analyse_run
+
+    a = zone_dataset(c_ms=8.0, n_slope=150.0, v_wind=12.0, n_times=3)
+    b = zone_dataset(c_ms=11.0, n_slope=150.0, v_wind=16.0, n_times=3)
+    ds = xr.concat([a, b], dim=xr.DataArray([0, 1], dims="member", name="member"))
+    ds = ds.transpose("member", "time", "level", "lat", "lon")
+    fronts = [f for f in analyse_run(ds) if f.length_km > 1500]
+    assert sorted({f.member for f in fronts}) == [0, 1]
+    for m, c in ((0, 8.0), (1, 11.0)):
+        mine = [f for f in fronts if f.member == m]
+        assert len(mine) == 3 and len({f.track for f in mine}) == 1
+        for f in mine:
+            assert f.props["speed_tracked_ms"] == pytest.approx(c, rel=0.05)
+    assert len({f.track for f in fronts}) == 2

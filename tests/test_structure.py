@@ -274,3 +274,42 @@ def test_slope_with_theta_w_field():
 def test_doctests():
     res = doctest.testmod(structure)
     assert res.attempted >= 2 and res.failed == 0
+
+
+def test_slope_on_a_projected_grid():
+    # [derived] the 1 in 150 zone on a Lambert conformal grid (2-D lat/lon,
+    # 25 km spacing): same slope as on the latitude/longitude grid, within 10 %
+    pyproj = pytest.importorskip("pyproj")
+    crs = pyproj.CRS.from_proj4("+proj=lcc +lat_1=40 +lat_2=55 +lat_0=48 +lon_0=-10 +R=6371008.8")
+    tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
+    x = np.arange(-1200e3, 1200.1e3, 25e3)
+    y = np.arange(-1200e3, 1400.1e3, 25e3)
+    xx, yy = np.meshgrid(x, y)
+    lon2, lat2 = tr.transform(xx, yy)
+    levels = np.array(list(Z_STD))
+    y_km = R_KM * np.deg2rad(lat2 - 45.0)
+    t = np.empty((1, levels.size) + xx.shape)
+    for k, lv in enumerate(levels):
+        theta = 285.0 - 4.0 * np.tanh((y_km - 150.0 * Z_STD[lv] / 1e3) / 100.0)
+        t[0, k] = theta * (lv / 1000.0) ** KAPPA
+    ds = xr.Dataset(
+        coords={
+            "time": [T0],
+            "level": levels,
+            "y": y,
+            "x": x,
+            "lat": (("y", "x"), lat2),
+            "lon": (("y", "x"), lon2),
+        },
+        attrs={"grid": "projected", "dx_m": 25e3, "dy_m": 25e3},
+    )
+    dims = ("time", "level", "y", "x")
+    ds["t"] = (dims, t)
+    ds["td"] = (dims, t - 5.0)
+    zs = np.array(list(Z_STD.values()))[None, :, None, None]
+    ds["z"] = (dims, np.broadcast_to(zs, t.shape).copy())
+    lat_f = 45.0 + np.rad2deg(150.0 * 1.46 / R_KM)
+    fr = make_front(np.arange(-16.0, -4.0, 0.25), lat_f, 0.0, 1.0)
+    res = front_slope(fr, ds, settings=SETTINGS)
+    assert res["slope_1_in"] == pytest.approx(150.0, rel=0.10)
+    assert res["n_vertices"] >= 10
