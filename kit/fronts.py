@@ -1,14 +1,73 @@
 """Objective fronts: thermal front parameter, locating line, masks, front type.
 
 The method is Hewson (1998) on the thermal front parameter of Renard & Clarke
-(1965); see docs in DEVELOPERS.md and the references page.
+(1965), as used for front climatologies by Berry, Reeder & Jakob (2011):
+
+1. take a thermal field tau on one pressure level (wet-bulb potential
+   temperature by default; potential temperature as the alternative that
+   marks moisture boundaries less, Thomas & Schultz 2019);
+2. smooth it with a Gaussian whose width is set in kilometres
+   (:attr:`FrontSettings.smoothing_km`, never less than a number of grid
+   lengths), so grids of different resolution give comparable fronts;
+3. thermal front parameter ``TFP = -grad|grad tau| . grad tau / |grad tau|``
+   [K m-2], largest on the warm edge of a frontal zone;
+4. locating function ``LF = grad TFP . grad tau / |grad tau|`` [K m-3]; the
+   front is its zero line where the two masks of Hewson (1998) hold:
+   ``TFP > K1`` and ``|grad tau| + X / sqrt(2) |grad |grad tau|| > K2``
+   (X the grid length);
+5. the zero line is traced with contourpy on the masked locating function, so
+   it stops at mask edges and at missing data; lines shorter than
+   :attr:`FrontSettings.min_length_km` are dropped;
+6. each vertex gets TFP, |grad tau|, the unit normal toward the cold side and
+   the wind component along it at the steering level (850 hPa); a vertex is
+   warm where the wind blows toward the cold side faster than
+   :attr:`FrontSettings.qs_speed_ms`, cold where it blows toward the warm side
+   faster than that, and quasi-stationary in between; a line is split where
+   its type changes over at least :attr:`FrontSettings.min_piece_km`.
+
+References (full entries in the references page): [RenardClarke1965],
+[Hewson1998], [Berry2011], [SansomCatto2024], [ThomasSchultz2019].
 """
 
-from dataclasses import dataclass, field
+import math
+from dataclasses import dataclass, field, fields
 
 import numpy as np
+import pandas as pd
+import xarray as xr
+from scipy import ndimage
 
-__all__ = ["Front"]
+from kit import CAUTION
+from kit import geometry as geo
+from kit.errors import InputError
+
+__all__ = [
+    "Front",
+    "FrontSettings",
+    "KINDS",
+    "effective_smoothing_km",
+    "default_thresholds",
+    "thermal_front_parameter",
+    "locating_function",
+    "front_masks",
+    "front_fields",
+    "find_fronts",
+    "fronts_to_geojson",
+    "fronts_table",
+]
+
+#: front kinds, as in the public contract
+KINDS = ("warm", "cold", "quasi-stationary")
+
+MS_TO_KT = 3600.0 / 1852.0
+
+# Hewson (1998) thresholds for 850 hPa theta-w, recalled from memory (not
+# checked against the paper): K1 ~ 0.33 K (100 km)-2, K2 ~ 1.49 K (100 km)-1.
+_K1_REF = 0.33 / (1e5) ** 2  # [K m-2]
+_K2_REF = 1.49 / 1e5  # [K m-1]
+# Smoothing length at which the recalled values are taken to apply [m]: an
+# assumption of this kit (the paper's own smoothing is not recalled).
+_REF_SMOOTHING_M = 100e3
 
 
 @dataclass
@@ -16,7 +75,9 @@ class Front:
     """One front line at one valid time on one level.
 
     Vertex arrays all have the same length ``n``; east/north components are in
-    the local tangent plane.
+    the local tangent plane. Lines from :func:`find_fronts` run with the cold
+    side on their left (the normal is the left-hand normal of the direction of
+    travel), so symbols can be drawn on a known side.
 
     Attributes
     ----------
@@ -69,3 +130,929 @@ class Front:
     member: int | None = None
     track: int | None = None
     props: dict = field(default_factory=dict)
+
+
+@dataclass
+class FrontSettings:
+    """Choices of the objective front analysis.
+
+    Attributes
+    ----------
+    field : {"theta_w", "theta"}
+        Thermal field tau: wet-bulb potential temperature (default, as
+        [Berry2011]) or potential temperature (marks moisture boundaries less
+        in the subtropics, [ThomasSchultz2019]).
+    smoothing_km : float
+        Gaussian smoothing scale (standard deviation) [km], default 100 km.
+        The scale used is ``max(smoothing_km, smoothing_grid_lengths * X)``
+        with X the grid length (:func:`effective_smoothing_km`).
+    smoothing_grid_lengths : float
+        Lower bound of the smoothing scale in grid lengths [1], default 1.
+    k1 : float or None
+        TFP mask threshold [K m-2]; None: :func:`default_thresholds`.
+    k2 : float or None
+        Gradient mask threshold [K m-1]; None: :func:`default_thresholds`.
+    k1_quantile, k2_quantile : float or None
+        Give the thresholds instead as quantiles (0..1) of the TFP and of the
+        gradient-mask quantity over the analysed fields (all times and points,
+        area-weighted), as [SansomCatto2024] propose so that grids of
+        different resolution compare. Overrides ``k1``/``k2``.
+    min_length_km : float
+        Lines shorter than this are dropped [km], default 300 km (short lines
+        are dropped in [Berry2011]; the number is this kit's choice).
+    min_piece_km : float
+        A line is split where its type changes only if each piece is at least
+        this long [km], default 250 km, so noise does not shred lines.
+    qs_speed_ms : float
+        Quasi-stationary below this front-normal wind speed [m s-1], default
+        1.5 ([Berry2011], the number from memory).
+    steering_level_hpa : float
+        Level of the wind that moves the front [hPa], default 850.
+    """
+
+    field: str = "theta_w"
+    smoothing_km: float = 100.0
+    smoothing_grid_lengths: float = 1.0
+    k1: float | None = None
+    k2: float | None = None
+    k1_quantile: float | None = None
+    k2_quantile: float | None = None
+    min_length_km: float = 300.0
+    min_piece_km: float = 250.0
+    qs_speed_ms: float = 1.5
+    steering_level_hpa: float = 850.0
+
+    def __post_init__(self):
+        if self.field not in ("theta_w", "theta"):
+            raise InputError(f"FrontSettings.field={self.field!r}; expected 'theta_w' or 'theta'")
+        for name in (
+            "smoothing_km",
+            "smoothing_grid_lengths",
+            "min_length_km",
+            "min_piece_km",
+            "qs_speed_ms",
+            "steering_level_hpa",
+        ):
+            value = getattr(self, name)
+            try:
+                value = float(value)
+            except (TypeError, ValueError):
+                raise InputError(f"FrontSettings.{name}={value!r}; expected a number") from None
+            if not math.isfinite(value) or value < 0:
+                raise InputError(f"FrontSettings.{name}={value}; expected a finite number >= 0")
+            setattr(self, name, value)
+        for name in ("k1", "k2"):
+            value = getattr(self, name)
+            if value is not None and (not np.isfinite(value) or value < 0):
+                raise InputError(f"FrontSettings.{name}={value}; expected a threshold >= 0 or None")
+        for name in ("k1_quantile", "k2_quantile"):
+            value = getattr(self, name)
+            if value is not None and not 0.0 <= float(value) < 1.0:
+                raise InputError(f"FrontSettings.{name}={value}; expected a quantile in [0, 1)")
+
+
+# --------------------------------------------------------------------------- thresholds
+def effective_smoothing_km(ds, settings=None):
+    """Smoothing scale used on a grid [km]: max(smoothing_km, smoothing_grid_lengths * X).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical Dataset (its grid length X, :func:`kit.geometry.grid_length_km`).
+    settings : FrontSettings, optional
+
+    Returns
+    -------
+    float
+        Gaussian standard deviation [km].
+    """
+    s = settings or FrontSettings()
+    return max(s.smoothing_km, s.smoothing_grid_lengths * geo.grid_length_km(ds))
+
+
+def default_thresholds(smoothing_km):
+    r"""Mask thresholds K1, K2 adapted to the smoothing scale.
+
+    Parameters
+    ----------
+    smoothing_km : float
+        Gaussian smoothing scale in use [km].
+
+    Returns
+    -------
+    k1 : float
+        [K m-2]
+    k2 : float
+        [K m-1]
+
+    Notes
+    -----
+    Start from the 850 hPa theta-w values recalled (from memory) from
+    [Hewson1998]: K1 = 0.33 K (100 km)-2, K2 = 1.49 K (100 km)-1, taken to hold
+    at a smoothing scale of 100 km (an assumption). A frontal zone narrower
+    than the smoothing is widened to about the smoothing scale s, so its
+    gradient falls as 1/s and its TFP (a second derivative) as 1/s^2; the
+    thresholds are scaled the same way for s above 100 km. Below 100 km they
+    are kept, so fine grids do not pick up small-scale noise.
+
+    .. math:: K_1(s) = K_1 (s_0 / s)^2, \quad K_2(s) = K_2\, s_0 / s,
+              \quad s \ge s_0 = 100\ \mathrm{km}
+    """
+    ratio = min(1.0, _REF_SMOOTHING_M / max(float(smoothing_km) * 1e3, 1.0))
+    return _K1_REF * ratio**2, _K2_REF * ratio
+
+
+# --------------------------------------------------------------------------- fields
+def _tau_fields(tau, grid):
+    """Gradient, TFP, locating function and the K2 quantity of a (smoothed) field."""
+    gx, gy = geo.gradient(tau, grid)
+    mag = np.hypot(gx, gy)
+    mx, my = geo.gradient(mag, grid)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        inv = 1.0 / mag
+        ux = gx * inv
+        uy = gy * inv
+    tfp = -(mx * ux + my * uy)
+    tx, ty = geo.gradient(tfp, grid)
+    loc = tx * ux + ty * uy
+    k2q = mag + (grid.length_m / math.sqrt(2.0)) * np.hypot(mx, my)
+    return {"gx": gx, "gy": gy, "grad": mag, "tfp": tfp, "loc": loc, "k2q": k2q}
+
+
+def _as_numpy_with_grid(tau, ds, what):
+    grid = geo._grid(ds)
+    if isinstance(tau, xr.DataArray):
+        arr = np.asarray(tau.values, dtype=np.float64)
+    else:
+        arr = np.asarray(tau, dtype=np.float64)
+    if arr.ndim < 2 or arr.shape[-2:] != tuple(grid.shape):
+        raise InputError(
+            f"{what}: field of shape {arr.shape} does not end in the grid shape "
+            f"{tuple(grid.shape)}; expected (..., Y, X)"
+        )
+    return arr, grid
+
+
+def _rewrap(template, arr, name, units):
+    if isinstance(template, xr.DataArray):
+        out = template.copy(data=arr)
+        out.name = name
+        out.attrs = {"units": units}
+        return out
+    return arr
+
+
+def front_fields(tau, ds):
+    """Every field of the method for a (smoothed) thermal field.
+
+    Parameters
+    ----------
+    tau : ndarray or xarray.DataArray (..., Y, X)
+        Smoothed thermal field [K].
+    ds : xarray.Dataset
+        Canonical Dataset carrying the grid.
+
+    Returns
+    -------
+    dict of ndarray
+        ``gx``, ``gy`` (east/north gradient [K m-1]), ``grad`` (|grad tau|
+        [K m-1]), ``tfp`` [K m-2], ``loc`` (locating function [K m-3]) and
+        ``k2q`` (the quantity compared with K2 [K m-1]).
+    """
+    arr, grid = _as_numpy_with_grid(tau, ds, "front_fields")
+    return _tau_fields(arr, grid)
+
+
+def thermal_front_parameter(tau, ds):
+    r"""Thermal front parameter of a (smoothed) thermal field.
+
+    Parameters
+    ----------
+    tau : ndarray or xarray.DataArray (..., Y, X)
+        Thermal field [K], usually smoothed theta-w on one level.
+    ds : xarray.Dataset
+        Canonical Dataset carrying the grid.
+
+    Returns
+    -------
+    same kind as ``tau``
+        TFP [K m-2]; positive on the warm edge of a frontal zone.
+
+    Notes
+    -----
+    Eq. 1, [RenardClarke1965]:
+
+    .. math:: \mathrm{TFP} = -\nabla|\nabla\tau| \cdot \frac{\nabla\tau}{|\nabla\tau|}
+
+    For tau = (dT/2) tanh(x/L) it peaks at 0.385 dT/L^2 at x = 0.658 L.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> ds = xr.Dataset(coords={"lat": np.linspace(-5, 5, 201), "lon": np.linspace(-5, 5, 201)})
+    >>> x_km = ds.lon.values * 111.195
+    >>> tau = np.broadcast_to(5.0 * np.tanh(x_km / 100.0), (201, 201))
+    >>> tfp = thermal_front_parameter(tau, ds)
+    >>> round(float(tfp[100].max()) / 1e-10, 1)  # 0.385 * 10 K / (100 km)^2
+    3.8
+    """
+    arr, grid = _as_numpy_with_grid(tau, ds, "thermal_front_parameter")
+    return _rewrap(tau, _tau_fields(arr, grid)["tfp"], "tfp", "K m-2")
+
+
+def locating_function(tau, ds):
+    r"""Hewson's locating function: derivative of TFP along the thermal gradient.
+
+    Parameters
+    ----------
+    tau : ndarray or xarray.DataArray (..., Y, X)
+        Thermal field [K], usually smoothed.
+    ds : xarray.Dataset
+        Canonical Dataset carrying the grid.
+
+    Returns
+    -------
+    same kind as ``tau``
+        [K m-3]; its zero line inside the masks is the front, [Hewson1998].
+
+    Notes
+    -----
+    .. math:: \mathrm{LF} = \nabla\mathrm{TFP} \cdot \frac{\nabla\tau}{|\nabla\tau|}
+    """
+    arr, grid = _as_numpy_with_grid(tau, ds, "locating_function")
+    return _rewrap(tau, _tau_fields(arr, grid)["loc"], "locating_function", "K m-3")
+
+
+def front_masks(tau, ds, k1, k2):
+    r"""Compute the two masks of [Hewson1998].
+
+    Parameters
+    ----------
+    tau : ndarray or xarray.DataArray (..., Y, X)
+        Thermal field [K], usually smoothed.
+    ds : xarray.Dataset
+        Canonical Dataset carrying the grid.
+    k1 : float
+        TFP threshold [K m-2].
+    k2 : float
+        Gradient threshold [K m-1].
+
+    Returns
+    -------
+    mask1, mask2 : same kind as ``tau`` (bool)
+        ``TFP > K1`` and :math:`|\nabla\tau| + X/\sqrt{2}\,|\nabla|\nabla\tau|| > K_2`,
+        X the grid length [m]; False where the field is missing.
+    """
+    arr, grid = _as_numpy_with_grid(tau, ds, "front_masks")
+    f = _tau_fields(arr, grid)
+    with np.errstate(invalid="ignore"):
+        m1 = f["tfp"] > float(k1)
+        m2 = f["k2q"] > float(k2)
+    if isinstance(tau, xr.DataArray):
+        return tau.copy(data=m1).rename("mask_tfp"), tau.copy(data=m2).rename("mask_gradient")
+    return m1, m2
+
+
+# --------------------------------------------------------------------------- line extraction
+def _seam_shift(z_valid):
+    """Column to start a periodic grid at so that no contour crosses the seam."""
+    counts = z_valid.sum(axis=0)
+    return int(np.argmin(counts)), int(counts.min())
+
+
+def _trace_zero_lines(loc_masked, periodic):
+    """Zero lines of a masked locating field in (fractional) index space.
+
+    Returns a list of (x_index, y_index) arrays; x may exceed nx - 1 on a
+    periodic grid (take it modulo nx).
+    """
+    import contourpy
+
+    valid = np.isfinite(loc_masked)
+    if valid.sum() < 4:
+        return []
+    shift = 0
+    z = loc_masked
+    if periodic:
+        shift, n_left = _seam_shift(valid)
+        z = np.roll(loc_masked, -shift, axis=1)
+        if n_left:
+            z = z.copy()
+            z[:, 0] = np.nan  # break the few lines that cross the chosen seam
+    gen = contourpy.contour_generator(
+        z=np.ma.masked_invalid(z), line_type="Separate", corner_mask=False, name="serial"
+    )
+    out = []
+    for xy in gen.lines(0.0):
+        if len(xy) < 2:
+            continue
+        out.append((xy[:, 0] + shift, xy[:, 1]))
+    return out
+
+
+def _masked_zero_lines(f, grid, k1, k2):
+    """Zero lines of the locating function where both masks hold, in index space.
+
+    The zero line is traced where the masks hold loosely (half the thresholds),
+    then the masks are applied exactly at its vertices and the line is cut
+    where they fail, at the interpolated crossing. Tracing only inside the
+    strict masks would shred a line that runs along a mask edge.
+    """
+    with np.errstate(invalid="ignore"):
+        loose = (f["tfp"] > 0.5 * k1) & (f["k2q"] > 0.5 * k2)
+    loc = np.where(loose, f["loc"], np.nan)
+    for xi, yi in _trace_zero_lines(loc, grid.periodic):
+        tfp, k2q = _sample([f["tfp"], f["k2q"]], xi, yi, grid.periodic)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            margin = np.minimum(tfp / max(k1, 1e-300) - 1.0, k2q / max(k2, 1e-300) - 1.0)
+        margin = np.where(np.isfinite(margin), margin, -1.0)
+        keep = margin > 0
+        if not keep.any():
+            continue
+        edges = np.flatnonzero(np.diff(keep.astype(np.int8)))
+        starts = [0] if keep[0] else []
+        ends = []
+        for e in edges:
+            if keep[e + 1]:
+                starts.append(e + 1)
+            else:
+                ends.append(e)
+        if keep[-1]:
+            ends.append(keep.size - 1)
+        for a, b in zip(starts, ends, strict=True):
+            px, py = list(xi[a : b + 1]), list(yi[a : b + 1])
+            if a > 0:  # cut at the mask edge between vertices a-1 and a
+                t = margin[a - 1] / (margin[a - 1] - margin[a])
+                px.insert(0, xi[a - 1] + t * (xi[a] - xi[a - 1]))
+                py.insert(0, yi[a - 1] + t * (yi[a] - yi[a - 1]))
+            if b < keep.size - 1:
+                t = margin[b] / (margin[b] - margin[b + 1])
+                px.append(xi[b] + t * (xi[b + 1] - xi[b]))
+                py.append(yi[b] + t * (yi[b + 1] - yi[b]))
+            if len(px) >= 2:
+                yield np.asarray(px), np.asarray(py)
+
+
+def _sample(arrays, xi, yi, periodic):
+    """Bilinear values of 2-D arrays at fractional indices."""
+    coords = np.vstack([yi, xi])
+    mode = "grid-wrap" if periodic else "nearest"
+    return [ndimage.map_coordinates(a, coords, order=1, mode=mode, prefilter=False) for a in arrays]
+
+
+def _line_lonlat(grid, xi, yi):
+    if grid.kind == "latlon":
+        n = grid.shape[1]
+        if grid.periodic:
+            step = grid.lon[1] - grid.lon[0]
+            lon = grid.lon[0] + step * xi
+        else:
+            lon = np.interp(xi, np.arange(n), grid.lon)
+        lat = np.interp(yi, np.arange(grid.shape[0]), grid.lat)
+    else:
+        lon2 = np.rad2deg(np.unwrap(grid.lon_rad, axis=1))
+        lon2 = np.rad2deg(np.unwrap(np.deg2rad(lon2), axis=0))
+        lon, lat = _sample([lon2, grid.lat], xi, yi, False)
+    # keep the line contiguous, with its middle in -180..180
+    lon = np.rad2deg(np.unwrap(np.deg2rad(lon)))
+    mid = lon[len(lon) // 2]
+    lon = lon - 360.0 * np.round(mid / 360.0)
+    return lon, lat
+
+
+def _segments_km(lon, lat):
+    return geo.great_circle_km(lon[:-1], lat[:-1], lon[1:], lat[1:])
+
+
+def _vertex_weights(seg):
+    w = np.zeros(seg.size + 1)
+    w[:-1] += 0.5 * seg
+    w[1:] += 0.5 * seg
+    return w
+
+
+def _tangents(lon, lat, window_km):
+    """Return the unit tangent (east, north) at each vertex, over about +-window_km."""
+    seg = _segments_km(lon, lat)
+    s = np.concatenate([[0.0], np.cumsum(seg)])
+    lo = np.searchsorted(s, s - window_km, side="left")
+    hi = np.searchsorted(s, s + window_km, side="right") - 1
+    lo = np.minimum(lo, np.arange(s.size))
+    hi = np.maximum(hi, np.arange(s.size))
+    same = lo == hi
+    lo[same] = np.maximum(lo[same] - 1, 0)
+    hi[same] = np.minimum(hi[same] + 1, s.size - 1)
+    latm = np.deg2rad(0.5 * (lat[lo] + lat[hi]))
+    de = np.deg2rad(lon[hi] - lon[lo]) * np.cos(latm)
+    dn = np.deg2rad(lat[hi] - lat[lo])
+    norm = np.hypot(de, dn)
+    norm[norm == 0] = 1.0
+    return de / norm, dn / norm
+
+
+def _classify(vn, qs):
+    c = np.zeros(vn.shape, dtype=int)
+    c[vn > qs] = 1  # warm
+    c[vn < -qs] = -1  # cold
+    return c
+
+
+_KIND_OF = {1: "warm", -1: "cold", 0: "quasi-stationary"}
+
+
+def _kind_of_speed(speed, qs):
+    if not np.isfinite(speed):
+        return "quasi-stationary"
+    return _KIND_OF[int(_classify(np.array([speed]), qs)[0])]
+
+
+def _split_by_type(vn, w, seg, qs, min_piece_km):
+    """Split vertex indices into pieces of one type; returns [(i0, i1)] inclusive."""
+    n = vn.size
+    vnf = np.where(np.isfinite(vn), vn, 0.0)
+    cls = _classify(vnf, qs)
+    # runs of equal class as vertex ranges; pieces share their end vertices
+    bounds = np.flatnonzero(np.diff(cls)) + 1
+    starts = np.concatenate([[0], bounds])
+    ends = np.concatenate([bounds, [n]])
+    pieces = [[int(a), int(b)] for a, b in zip(starts, ends, strict=True)]  # [a, b) vertices
+    cum = np.concatenate([[0.0], np.cumsum(seg)])
+
+    def length(p):
+        a, b = p
+        return cum[min(b, n - 1)] - cum[a]
+
+    def mean_class(p):
+        a, b = p
+        ww = w[a:b]
+        sp = float(np.sum(ww * vnf[a:b]) / np.sum(ww)) if np.sum(ww) > 0 else 0.0
+        return int(_classify(np.array([sp]), qs)[0])
+
+    while len(pieces) > 1:
+        lens = [length(p) for p in pieces]
+        i = int(np.argmin(lens))
+        if lens[i] >= min_piece_km:
+            break
+        # merge the shortest piece into its longer neighbour
+        if i == 0:
+            j = 1
+        elif i == len(pieces) - 1:
+            j = i - 1
+        else:
+            j = i - 1 if lens[i - 1] >= lens[i + 1] else i + 1
+        a, b = min(i, j), max(i, j)
+        pieces[a : b + 1] = [[pieces[a][0], pieces[b][1]]]
+        # merge neighbours that now share a type
+        merged = [pieces[0]]
+        for p in pieces[1:]:
+            if mean_class(merged[-1]) == mean_class(p):
+                merged[-1] = [merged[-1][0], p[1]]
+            else:
+                merged.append(p)
+        pieces = merged
+    # inclusive vertex ranges that share the boundary vertex
+    return [(a, min(b, n - 1)) for a, b in pieces]
+
+
+def _iso_z(t):
+    ts = pd.Timestamp(t)
+    if ts.tzinfo is not None:
+        ts = ts.tz_convert("UTC").tz_localize(None)
+    return ts.strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+# --------------------------------------------------------------------------- dataset handling
+def _check_dataset(ds, what="find_fronts"):
+    if not isinstance(ds, xr.Dataset):
+        raise InputError(
+            f"{what}: got {type(ds).__name__}; expected the canonical xarray Dataset "
+            "(kit.grids.open_run)"
+        )
+    for name in ("t", "u", "v"):
+        if name not in ds:
+            have = ", ".join(sorted(map(str, ds.data_vars))) or "none"
+            raise InputError(
+                f"{what}: variable '{name}' missing (have: {have}); expected the canonical "
+                "fields t, td, u, v on pressure levels"
+            )
+    if "level" not in ds.coords:
+        raise InputError(f"{what}: no 'level' coordinate; expected pressure levels [hPa]")
+    if "time" not in ds.dims:
+        raise InputError(f"{what}: no 'time' dimension; expected (time, level, Y, X) fields")
+
+
+def _level_index(ds, level, what):
+    levels = np.asarray(ds["level"].values, dtype=float)
+    hit = np.flatnonzero(np.isclose(levels, float(level), rtol=0, atol=0.01))
+    if not hit.size:
+        avail = ", ".join(f"{v:g}" for v in levels)
+        raise InputError(f"{what} {float(level):g} hPa not in the dataset; available: {avail} hPa")
+    return int(hit[0])
+
+
+def _select_times(ds, times):
+    if times is None:
+        return ds
+    wanted = np.atleast_1d(np.asarray(times, dtype="datetime64[ns]"))
+    have = ds["time"].values.astype("datetime64[ns]")
+    idx = []
+    for t in wanted:
+        hit = np.flatnonzero(have == t)
+        if not hit.size:
+            raise InputError(
+                f"find_fronts: valid time {_iso_z(t)} not in the run; expected one of "
+                f"{_iso_z(have[0])} .. {_iso_z(have[-1])}"
+            )
+        idx.append(int(hit[0]))
+    return ds.isel(time=idx)
+
+
+def _tau_of(ds, level, settings):
+    from kit import thermo
+
+    if settings.field == "theta_w":
+        if "td" not in ds:
+            raise InputError(
+                "find_fronts: variable 'td' missing; theta-w needs dew point "
+                "(or use FrontSettings(field='theta'))"
+            )
+        return thermo.theta_w_of(ds, level)
+    return thermo.level_field(ds, "theta", level)
+
+
+def _weighted_quantile(values, weights, q):
+    order = np.argsort(values)
+    v, w = values[order], weights[order]
+    cw = np.cumsum(w)
+    return float(np.interp(q * cw[-1], cw, v))
+
+
+def _area_weights(grid):
+    dx, dy = np.abs(grid.dx), np.abs(grid.dy)
+    return dx * dy
+
+
+def _lines_at_time(f, grid, u, v, k1, k2, s, smoothing_km, valid_time, level, run, member):
+    fronts = []
+    window_km = max(grid.length_m / 1000.0, 0.5 * smoothing_km)
+    for xi, yi in _masked_zero_lines(f, grid, k1, k2):
+        lon, lat = _line_lonlat(grid, xi, yi)
+        seg = _segments_km(lon, lat)
+        length = float(np.sum(seg))
+        if length < s.min_length_km or lon.size < 2:
+            continue
+        tfp, mag, gx, gy, uu, vv = _sample(
+            [f["tfp"], f["grad"], f["gx"], f["gy"], u, v], xi, yi, grid.periodic
+        )
+        te, tn = _tangents(lon, lat, window_km)
+        ne, nn = -tn, te  # left-hand normal
+        with np.errstate(invalid="ignore"):
+            cold_dot = -(ne * gx + nn * gy)
+        w = _vertex_weights(seg)
+        if np.nansum(w * np.sign(cold_dot)) < 0:  # make the cold side the left side
+            lon, lat, tfp, mag, gx, gy, uu, vv, xi, yi = (
+                a[::-1] for a in (lon, lat, tfp, mag, gx, gy, uu, vv, xi, yi)
+            )
+            seg = seg[::-1]
+            w = w[::-1]
+            te, tn = _tangents(lon, lat, window_km)
+            ne, nn = -tn, te
+        vn = uu * ne + vv * nn
+        for a, b in _split_by_type(vn, w, seg, s.qs_speed_ms, s.min_piece_km):
+            sl = slice(a, b + 1)
+            plon, plat = lon[sl], lat[sl]
+            if plon.size < 2:
+                continue
+            pseg = seg[a:b]
+            pw = _vertex_weights(pseg)
+            pvn = vn[sl]
+            ok = np.isfinite(pvn)
+            speed = float(np.sum(pw[ok] * pvn[ok]) / np.sum(pw[ok])) if pw[ok].sum() > 0 else np.nan
+            plen = float(np.sum(pseg))
+            ptfp, pmag = tfp[sl], mag[sl]
+            props = {
+                "field": s.field,
+                "smoothing_km": round(float(smoothing_km), 1),
+                "tfp_mean_K_100km2": float(np.nansum(pw * ptfp) / pw.sum() * 1e10),
+                "grad_mean_K_100km": float(np.nansum(pw * pmag) / pw.sum() * 1e5),
+                "steering_level_hpa": float(s.steering_level_hpa),
+            }
+            fronts.append(
+                Front(
+                    lon=plon.copy(),
+                    lat=plat.copy(),
+                    kind=_kind_of_speed(speed, s.qs_speed_ms),
+                    valid_time=np.datetime64(valid_time, "ns"),
+                    level_hpa=float(level),
+                    tfp=ptfp.copy(),
+                    grad=pmag.copy(),
+                    normal_east=ne[sl].copy(),
+                    normal_north=nn[sl].copy(),
+                    vn=pvn.copy(),
+                    speed_ms=speed,
+                    length_km=plen,
+                    run=run,
+                    member=member,
+                    props=props,
+                )
+            )
+    return fronts
+
+
+def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
+    """Objective fronts of a model run on one pressure level.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical Dataset (DEVELOPERS.md) with ``t``, ``td`` (for theta-w),
+        ``u``, ``v`` on pressure levels; regular latitude/longitude (either
+        hemisphere, contiguous across the dateline or global) or projected.
+    level : float
+        Pressure level of the analysis [hPa], default 850.
+    times : datetime-like or sequence, optional
+        Valid times to analyse; all when None.
+    member : int, optional
+        Ensemble member to analyse; all members (each front carrying its
+        ``member``) when None and the run has a ``member`` dimension.
+    settings : FrontSettings, optional
+        Method choices; defaults documented in :class:`FrontSettings`.
+
+    Returns
+    -------
+    list of Front
+        In order of member, valid time, then length (longest first).
+        ``run`` is ``ds.attrs["run"]``; ``track`` is left None (set by
+        :mod:`kit.motion`).
+
+    Notes
+    -----
+    See the module docstring for the steps, [Hewson1998] for the masks and
+    [Berry2011] for the typing by the 850 hPa front-normal wind.
+    """
+    s = settings or FrontSettings()
+    if not isinstance(s, FrontSettings):
+        raise InputError(
+            f"find_fronts: settings of type {type(s).__name__}; expected FrontSettings"
+        )
+    _check_dataset(ds)
+    try:
+        level = float(level)
+    except (TypeError, ValueError):
+        raise InputError(f"find_fronts: level={level!r}; expected a pressure in hPa") from None
+    _level_index(ds, level, "level")
+    _level_index(ds, s.steering_level_hpa, "steering level")
+    ds = _select_times(ds, times)
+    grid = geo._grid(ds)
+    smoothing_km = effective_smoothing_km(ds, s)
+    k1_def, k2_def = default_thresholds(smoothing_km)
+    k1 = k1_def if s.k1 is None else float(s.k1)
+    k2 = k2_def if s.k2 is None else float(s.k2)
+
+    if "member" in ds.dims:
+        members = list(np.asarray(ds["member"].values))
+        if member is not None:
+            if member not in members:
+                raise InputError(
+                    f"find_fronts: member {member} not in the run; available: "
+                    + ", ".join(str(m) for m in members)
+                )
+            members = [member]
+    else:
+        if member is not None and "member" in ds.coords and ds["member"].size == 1:
+            if int(ds["member"].values) != int(member):
+                raise InputError(
+                    f"find_fronts: member {member} not in the run; it holds member "
+                    f"{int(ds['member'].values)}"
+                )
+        members = [None]
+
+    run = ds.attrs.get("run")
+    if run is not None:
+        run = str(run)
+    all_fields = []  # (member, time, fields, u, v)
+    for m in members:
+        dm = ds.sel(member=m) if m is not None else ds
+        tau_all = _tau_of(dm, level, s)
+        tau_all = tau_all.transpose("time", ...)
+        u_all = dm["u"].isel(level=_level_index(dm, s.steering_level_hpa, "steering level"))
+        v_all = dm["v"].isel(level=_level_index(dm, s.steering_level_hpa, "steering level"))
+        u_all = u_all.transpose("time", ...)
+        v_all = v_all.transpose("time", ...)
+        for it in range(dm.sizes["time"]):
+            tau = np.asarray(tau_all.isel(time=it).values, dtype=np.float64)
+            if tau.shape != tuple(grid.shape):
+                raise InputError(
+                    f"find_fronts: field of shape {tau.shape} per time; expected the grid shape "
+                    f"{tuple(grid.shape)} (dimensions time, level, Y, X)"
+                )
+            tau_s = geo.smooth(tau, grid, smoothing_km)
+            f = _tau_fields(tau_s, grid)
+            u = np.asarray(u_all.isel(time=it).values, dtype=np.float64)
+            v = np.asarray(v_all.isel(time=it).values, dtype=np.float64)
+            member_id = None if m is None else int(m)
+            if member_id is None and "member" in ds.coords and ds["member"].size == 1:
+                member_id = int(ds["member"].values)
+            all_fields.append((member_id, dm["time"].values[it], f, u, v))
+
+    if s.k1_quantile is not None or s.k2_quantile is not None:
+        w_area = _area_weights(grid)[::2, ::2].ravel()
+        tf, kq, ww = [], [], []
+        for _, _, f, _, _ in all_fields:
+            a, b = f["tfp"][::2, ::2].ravel(), f["k2q"][::2, ::2].ravel()
+            ok = np.isfinite(a) & np.isfinite(b)
+            tf.append(a[ok])
+            kq.append(b[ok])
+            ww.append(w_area[ok])
+        tf, kq, ww = np.concatenate(tf), np.concatenate(kq), np.concatenate(ww)
+        if tf.size == 0:
+            raise InputError("find_fronts: no valid points to take threshold quantiles from")
+        if s.k1_quantile is not None:
+            k1 = _weighted_quantile(tf, ww, float(s.k1_quantile))
+        if s.k2_quantile is not None:
+            k2 = _weighted_quantile(kq, ww, float(s.k2_quantile))
+
+    fronts = []
+    for member_id, t, f, u, v in all_fields:
+        found = _lines_at_time(f, grid, u, v, k1, k2, s, smoothing_km, t, level, run, member_id)
+        found.sort(key=lambda fr: -fr.length_km)
+        for fr in found:
+            fr.props["k1_K_100km2"] = float(k1 * 1e10)
+            fr.props["k2_K_100km"] = float(k2 * 1e5)
+        fronts.extend(found)
+    return fronts
+
+
+# --------------------------------------------------------------------------- export
+def _clean(value, digits=4):
+    """JSON-safe value: NaN/inf -> None, numpy -> Python, floats to significant digits."""
+    if value is None:
+        return None
+    if isinstance(value, (np.datetime64, pd.Timestamp)):
+        return _iso_z(value)
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    if isinstance(value, (int, np.integer)):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        v = float(value)
+        if not math.isfinite(v):
+            return None
+        return float(f"{v:.{digits}g}") if v != 0 else 0.0
+    if isinstance(value, np.ndarray):
+        return [_clean(x, digits) for x in value.tolist()]
+    if isinstance(value, (list, tuple)):
+        return [_clean(x, digits) for x in value]
+    if isinstance(value, dict):
+        return {str(k): _clean(v, digits) for k, v in value.items()}
+    return value if isinstance(value, str) else str(value)
+
+
+def _front_properties(fr):
+    props = {
+        "kind": fr.kind,
+        "valid_time": _iso_z(fr.valid_time),
+        "level_hpa": _clean(fr.level_hpa),
+        "length_km": None if not math.isfinite(fr.length_km) else round(float(fr.length_km), 1),
+        "speed_ms": None if not math.isfinite(fr.speed_ms) else round(float(fr.speed_ms), 2),
+        "speed_kt": None
+        if not math.isfinite(fr.speed_ms)
+        else round(float(fr.speed_ms) * MS_TO_KT, 1),
+        "track": None if fr.track is None else int(fr.track),
+        "run": fr.run,
+        "member": None if fr.member is None else int(fr.member),
+    }
+    for k, v in fr.props.items():
+        if k not in props:
+            props[k] = _clean(v)
+    return props
+
+
+def _split_antimeridian(lon, lat):
+    """Wrap longitudes to -180..180 and cut the line where it crosses 180."""
+    lon = np.rad2deg(np.unwrap(np.deg2rad(np.asarray(lon, dtype=float))))
+    lat = np.asarray(lat, dtype=float)
+    parts = []
+    cur_lon, cur_lat = [lon[0]], [lat[0]]
+    k = np.floor((lon[0] + 180.0) / 360.0)
+    for i in range(1, lon.size):
+        k_i = np.floor((lon[i] + 180.0) / 360.0)
+        if k_i != k:
+            # crossing at the boundary between the two 360-degree sheets
+            edge = 360.0 * max(k, k_i) - 180.0
+            frac = (edge - lon[i - 1]) / (lon[i] - lon[i - 1])
+            lat_x = lat[i - 1] + frac * (lat[i] - lat[i - 1])
+            cur_lon.append(edge)
+            cur_lat.append(lat_x)
+            parts.append((np.array(cur_lon) - 360.0 * k, np.array(cur_lat)))
+            cur_lon, cur_lat = [edge], [lat_x]
+            k = k_i
+        cur_lon.append(lon[i])
+        cur_lat.append(lat[i])
+    parts.append((np.array(cur_lon) - 360.0 * k, np.array(cur_lat)))
+    out = []
+    for plon, plat in parts:
+        plon = np.clip(plon, -180.0, 180.0)
+        if plon.size >= 2:
+            out.append((plon, plat))
+    return out
+
+
+def fronts_to_geojson(fronts):
+    """Fronts as an RFC 7946 GeoJSON FeatureCollection of LineStrings.
+
+    Parameters
+    ----------
+    fronts : list of Front
+
+    Returns
+    -------
+    dict
+        ``{"type": "FeatureCollection", "features": [...], "caution": CAUTION}``.
+        Coordinates [lon, lat] in degrees, longitude -180..180, rounded to
+        1e-4 degree (about 10 m); a line crossing the antimeridian becomes two
+        LineString features with the same properties (``part`` 0 and 1).
+        Properties: ``kind``, ``valid_time`` (``YYYY-MM-DDTHH:MM:SSZ``),
+        ``level_hpa``, ``length_km``, ``speed_ms`` (positive toward the cold
+        side), ``speed_kt``, ``track``, ``run``, ``member`` and every key of
+        ``front.props``; no NaN (null instead).
+    """
+    features = []
+    for fr in fronts:
+        if not isinstance(fr, Front):
+            raise InputError(f"fronts_to_geojson: got {type(fr).__name__}; expected Front objects")
+        props = _front_properties(fr)
+        ok = np.isfinite(fr.lon) & np.isfinite(fr.lat)
+        if ok.sum() < 2:
+            continue
+        parts = _split_antimeridian(np.asarray(fr.lon)[ok], np.asarray(fr.lat)[ok])
+        for i, (plon, plat) in enumerate(parts):
+            p = dict(props)
+            if len(parts) > 1:
+                p["part"] = i
+            coords = [
+                [round(float(a), 4), round(float(b), 4)] for a, b in zip(plon, plat, strict=True)
+            ]
+            features.append(
+                {
+                    "type": "Feature",
+                    "geometry": {"type": "LineString", "coordinates": coords},
+                    "properties": p,
+                }
+            )
+    return {"type": "FeatureCollection", "caution": CAUTION, "features": features}
+
+
+def fronts_table(fronts):
+    """One row per front.
+
+    Parameters
+    ----------
+    fronts : list of Front
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``kind, valid_time, level_hpa, length_km, speed_ms, speed_kt,
+        track, run, member`` then every key of ``props``; ``attrs["caution"]``
+        holds :data:`kit.CAUTION`.
+    """
+    base = [
+        "kind",
+        "valid_time",
+        "level_hpa",
+        "length_km",
+        "speed_ms",
+        "speed_kt",
+        "track",
+        "run",
+        "member",
+    ]
+    rows = []
+    for fr in fronts:
+        if not isinstance(fr, Front):
+            raise InputError(f"fronts_table: got {type(fr).__name__}; expected Front objects")
+        row = {
+            "kind": fr.kind,
+            "valid_time": pd.Timestamp(fr.valid_time),
+            "level_hpa": float(fr.level_hpa),
+            "length_km": float(fr.length_km),
+            "speed_ms": float(fr.speed_ms),
+            "speed_kt": float(fr.speed_ms) * MS_TO_KT,
+            "track": pd.NA if fr.track is None else int(fr.track),
+            "run": fr.run,
+            "member": pd.NA if fr.member is None else int(fr.member),
+        }
+        for k, v in fr.props.items():
+            if k not in row:
+                row[k] = v
+        rows.append(row)
+    df = pd.DataFrame(rows)
+    if df.empty:
+        df = pd.DataFrame(columns=base)
+    df.attrs["caution"] = CAUTION
+    return df
+
+
+# keep the dataclass field list handy for modules that copy fronts
+_FRONT_FIELDS = tuple(f.name for f in fields(Front))
