@@ -913,13 +913,17 @@ def motion_table(fronts):
     Returns
     -------
     pandas.DataFrame
-        :func:`kit.fronts.fronts_table` plus ``speed_tracked_kt``,
+        :func:`kit.fronts.fronts_table` (without the per-vertex
+        ``vn_tracked``) plus ``speed_tracked_kt``,
         ``speed_wind_kt``, ``speed_geostrophic_rule_kt`` [kt] (positive toward
         the cold side); ``attrs["caution"]`` holds :data:`kit.CAUTION`.
     """
     from kit.fronts import fronts_table
 
     df = fronts_table(fronts)
+    df = df.drop(
+        columns=[c for c in ("vn_tracked",) if c in df]
+    )  # per-vertex lists: not a table column
     for name in ("speed_tracked", "speed_wind", "speed_geostrophic_rule"):
         col = f"{name}_ms"
         if col in df:

@@ -568,13 +568,16 @@ def test_analyse_run_translating_zone(kind, c_ms, v_wind, n_slope, hemisphere):
 
 def test_motion_table_knots():
     fr = parallel_front(45.0, 0.0)
-    fr.props.update(speed_tracked_ms=10.0, speed_wind_ms=15.0, speed_geostrophic_rule_ms=None)
+    fr.props.update(
+        speed_tracked_ms=10.0, speed_wind_ms=15.0, speed_geostrophic_rule_ms=None, vn_tracked=[10.0]
+    )
     df = motion.motion_table([fr])
     # 1 kt = 1852 m / 3600 s (definition of the nautical mile)
     assert df["speed_tracked_kt"].iloc[0] == pytest.approx(19.4, abs=0.05)
     assert df["speed_wind_kt"].iloc[0] == pytest.approx(15.0 * KT_PER_MS, abs=0.05)
     assert np.isnan(df["speed_geostrophic_rule_kt"].iloc[0])
     assert "Decision support only" in df.attrs["caution"]
+    assert "vn_tracked" not in df.columns
 
 
 # --------------------------------------------------------------------------
