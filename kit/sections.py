@@ -179,7 +179,8 @@ def _latlon_targets(ds, lat, lon):
              ds.isel(lon=[0]).assign_coords(lon=[glon[0] + 360.0])],
             dim="lon",
         )
-    return ds, {"lat": xr.DataArray(lat, dims="distance"), "lon": xr.DataArray(plon, dims="distance")}
+    return ds, {"lat": xr.DataArray(lat, dims="distance"),
+                "lon": xr.DataArray(plon, dims="distance")}
 
 
 def _projected_targets(ds, lat, lon):
@@ -231,7 +232,7 @@ def _interp(grid_ds, targets):
 
 
 def select_time(ds, time):
-    """The valid time of ``ds`` matching ``time`` (within one minute).
+    """Return the valid time of ``ds`` matching ``time`` (within one minute).
 
     Parameters
     ----------
@@ -290,7 +291,7 @@ def _select_member(ds, member):
 
 
 def _at_time(ds, time, member):
-    """The run at one valid time (and member), loaded, with the needed fields checked."""
+    """Load the run at one valid time (and member), with the needed fields checked."""
     missing = [n for n in _REQUIRED if n not in ds]
     if missing:
         raise InputError(f"run {ds.attrs.get('run', '?')}: variable(s) {', '.join(missing)} "
@@ -314,7 +315,7 @@ def _at_time(ds, time, member):
 # derived fields
 # ---------------------------------------------------------------------------
 def potential_vorticity(theta, u, v, grid):
-    """Baroclinic (Ertel) potential vorticity on pressure levels.
+    r"""Baroclinic (Ertel) potential vorticity on pressure levels.
 
     Parameters
     ----------
@@ -334,13 +335,14 @@ def potential_vorticity(theta, u, v, grid):
     -----
     .. math::
 
-        PV = -g \\left[(f + \\zeta)\\frac{\\partial\\theta}{\\partial p}
-             - \\frac{\\partial v}{\\partial p}\\frac{\\partial\\theta}{\\partial x}
-             + \\frac{\\partial u}{\\partial p}\\frac{\\partial\\theta}{\\partial y}\\right]
+        PV = -g \left[(f + \zeta)\frac{\partial\theta}{\partial p}
+             - \frac{\partial v}{\partial p}\frac{\partial\theta}{\partial x}
+             + \frac{\partial u}{\partial p}\frac{\partial\theta}{\partial y}\right]
 
-    with relative vorticity :math:`\\zeta = \\partial v/\\partial x - \\partial u/\\partial y
-    + (u/a)\\tan\\varphi` on a latitude/longitude grid (the last term is the metric
-    term of the sphere), Eq. PV-1, [Hoskins1985]. Horizontal derivatives come from
+    with relative vorticity :math:`\zeta = \partial v/\partial x - \partial u/\partial y
+    + (u/a)\tan\varphi` on a latitude/longitude grid (the last term is the metric
+    term of the sphere): Ertel's potential vorticity in the hydrostatic form on
+    pressure levels, as used by [Hoskins1985]. Horizontal derivatives come from
     :func:`kit.geometry.gradient`; the pressure derivative is second order with
     one-sided ends, ``p`` in Pa. MetPy's ``potential_vorticity_baroclinic`` is a
     second implementation (tests/test_sections.py).
@@ -364,7 +366,8 @@ def potential_vorticity(theta, u, v, grid):
     pv = -G0 * ((f + zeta) * ddp(theta) - ddp(v) * dth_e + ddp(u) * dth_n)
     pv = (pv / 1e-6).transpose(*theta.dims)
     pv.name = "pv"
-    pv.attrs = {"units": "1e-6 K m2 kg-1 s-1", "long_name": "potential vorticity (1 PVU = 1e-6 K m2 kg-1 s-1)"}
+    pv.attrs = {"units": "1e-6 K m2 kg-1 s-1",
+                "long_name": "potential vorticity (1 PVU = 1e-6 K m2 kg-1 s-1)"}
     return pv
 
 
@@ -665,7 +668,8 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
         sec[f"{name}_hpa"] = ("distance", pc, {"units": "hPa", "long_name": long})
     sec["pv_hemispheric"] = (sec["pv"] * xr.DataArray(np.where(lat < 0, -1.0, 1.0),
                                                       dims="distance")).transpose(*dims2)
-    sec["pv_hemispheric"].attrs = {"units": "1e-6 K m2 kg-1 s-1", "long_name": "potential vorticity times the "
+    sec["pv_hemispheric"].attrs = {"units": "1e-6 K m2 kg-1 s-1",
+                                   "long_name": "potential vorticity times the "
                                    "sign of latitude (2 on the dynamic tropopause)"}
 
     if "precip" in flat:
@@ -710,6 +714,8 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
 
     _add_frontal_surface(sec, reference_km=reference_km, reference_hpa=reference_hpa,
                          front_kind=front_kind, smoothing_km=smoothing_km)
+    sec["level"].attrs.update(units="hPa", long_name="pressure level")
+    sec["distance"].attrs.update(units="km", long_name="distance along the section from its start")
     return sec
 
 
@@ -858,7 +864,7 @@ def _front_distance_km(front, lat, lon):
 
 
 def pick_front(fronts, point, *, kind="nearest", time=None):
-    """The front of ``kind`` nearest to ``point`` at ``time``.
+    """Return the front of ``kind`` nearest to ``point`` at ``time``.
 
     Parameters
     ----------

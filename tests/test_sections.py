@@ -9,7 +9,6 @@ exercise the code; they are never used as reference values themselves.
 """
 
 import json
-import math
 from pathlib import Path
 
 import numpy as np
@@ -54,10 +53,11 @@ def make_run(fields, lat, lon, *, run="2027-01-13T18Z"):
 def smooth_fields():
     """Smooth, non-linear, invented fields (for library comparisons)."""
     return {
-        "t": lambda P, LA, LO: t_isa(P) + 8 * np.sin(np.deg2rad(3 * LA)) * np.cos(np.deg2rad(2 * LO))
-        + 0.002 * LO * LA,
-        "td": lambda P, LA, LO: t_isa(P) + 8 * np.sin(np.deg2rad(3 * LA)) * np.cos(np.deg2rad(2 * LO))
-        + 0.002 * LO * LA - 2 - 3 * np.cos(np.deg2rad(4 * LO)) ** 2,
+        "t": lambda P, LA, LO: t_isa(P)
+        + 8 * np.sin(np.deg2rad(3 * LA)) * np.cos(np.deg2rad(2 * LO)) + 0.002 * LO * LA,
+        "td": lambda P, LA, LO: t_isa(P)
+        + 8 * np.sin(np.deg2rad(3 * LA)) * np.cos(np.deg2rad(2 * LO)) + 0.002 * LO * LA
+        - 2 - 3 * np.cos(np.deg2rad(4 * LO)) ** 2,
         "u": lambda P, LA, LO: 15 + 20 * np.exp(-(((P - 300) / 150) ** 2))
         * np.cos(np.deg2rad(4 * (LA - 45))) + 3 * np.sin(np.deg2rad(5 * LO)),
         "v": lambda P, LA, LO: 5 * np.sin(np.deg2rad(6 * LO)) * np.cos(np.deg2rad(3 * LA))

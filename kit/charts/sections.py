@@ -48,7 +48,7 @@ SECTION_COLOURS = {
     "isotach": "#4a4fa3",
     "jet": "#2d2f7a",
     "zero": BRIEFING_COLOURS["freezing_level"],
-    "pv2": "#7b2d6e",
+    "pv2": "#8a6a12",
     "front_none": INK,
     "site": BRIEFING_COLOURS["site"],
     "precip": BRIEFING_COLOURS["precip"],
@@ -60,6 +60,12 @@ _KT = 1.0 / 0.514444
 _FT = 1.0 / 0.3048
 _P_TICKS = [1000, 925, 850, 700, 600, 500, 400, 300, 250, 200, 150, 100]
 _H_TICKS_FT = [0, 5000, 10000, 15000, 20000, 25000, 30000, 35000, 40000, 45000, 50000]
+
+
+def _kind_words(kind):
+    """``warm front``, ``cold front``, ``quasi-stationary front`` or ``front``."""
+    word = KIND_LABELS.get(kind, "front")
+    return word if word.endswith("front") else f"{word} front"
 
 
 def _need(sec, *names):
@@ -161,6 +167,10 @@ def draw_section(ax, strip, sec):
             (art["frontal-surface"],) = ax.plot(fs[ok], lev[ok], color=fcol, lw=2.6, marker="o",
                                                 ms=3.5, zorder=7, gid="frontal-surface",
                                                 label="frontal surface")
+            if kind == "quasi-stationary":  # WMO colours alternate red and blue
+                art["frontal-surface"].set_color(_FRONT["cold"])
+                ax.plot(fs[ok], lev[ok], color=_FRONT["warm"], lw=2.6, ls=(0, (6, 6)), zorder=7,
+                        gid="frontal-surface-alt")
             n = sec.attrs.get("frontal_slope_1_in", np.nan)
             if np.isfinite(n):
                 ktop = np.flatnonzero(ok)[-1]
@@ -228,7 +238,7 @@ def draw_section(ax, strip, sec):
         (art["surface-front"],) = ax.plot([sfc], [pmax], marker="D", ms=9, clip_on=False,
                                           color=fcol, mec="white", ls="none", zorder=10,
                                           gid="surface-front", label="surface front")
-        word = KIND_LABELS.get(kind, "front")
+        word = _kind_words(kind)
         ax.annotate(f"surface {word}", (sfc, pmax), xytext=(0, 22), textcoords="offset points",
                     ha="center", fontsize=FONT["small"], color=fcol, fontweight="bold",
                     zorder=10, bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none",
@@ -298,7 +308,7 @@ def _legend_handles(art):
 
 
 def section_figure(sec, *, figsize=(11.0, 7.6)):
-    """The briefing cross-section figure of a section.
+    """Build the briefing cross-section figure of a section.
 
     Parameters
     ----------
@@ -342,7 +352,7 @@ def section_figure(sec, *, figsize=(11.0, 7.6)):
     if a.get("site_name"):
         what += f" through {a['site_name']}"
     if kind:
-        what += f", across the {KIND_LABELS.get(kind, kind)}"
+        what += f", across the {_kind_words(kind)}"
         if "front_level_hpa" in a:
             what += f" ({a['front_level_hpa']:.0f} hPa line)"
     if "member" in a:

@@ -70,7 +70,7 @@ def add_parser(subparsers):
 
 
 def _start_folder(run_arg):
-    """The folder to start the sites.csv search from, for a file, folder or glob."""
+    """Return the folder to start the sites.csv search from (file, folder or glob)."""
     path = Path(run_arg)
     if path.is_dir():
         return path.resolve()
@@ -87,7 +87,7 @@ def _start_folder(run_arg):
 
 
 def find_sites_file(run_arg, max_up=5):
-    """The first ``sites.csv`` found in the RUN folder or up to ``max_up`` folders above it.
+    """Find the first ``sites.csv`` in the RUN folder or up to ``max_up`` folders above.
 
     Parameters
     ----------
@@ -113,7 +113,7 @@ def find_sites_file(run_arg, max_up=5):
 
 
 def lookup_site(sites, name, where):
-    """The row of ``sites`` named ``name`` (exact, else case-insensitive match).
+    """Return the row of ``sites`` named ``name`` (exact, else case-insensitive).
 
     Parameters
     ----------
@@ -139,7 +139,7 @@ def lookup_site(sites, name, where):
 
 
 def section_to_netcdf_bytes(sec):
-    """The section as CF NetCDF-4 bytes (written to a temporary file, then read back).
+    """Encode the section as CF NetCDF-4 bytes (via a temporary file).
 
     Parameters
     ----------
@@ -199,9 +199,10 @@ def run(args):
         from kit.charts.sections import section_figure
 
         save_figure(section_figure(sec), out, overwrite=args.overwrite)
-    kind = sec.attrs.get("front_kind") or "no"
+    kind = sec.attrs.get("front_kind")
+    across = f"across the {kind} front" if kind else "(no front found; along the theta-w gradient)"
     slope = sec.attrs.get("frontal_slope_1_in")
     slope_text = f", frontal slope 1:{slope:.0f}" if slope == slope and slope else ""
-    print(f"section through {site['name']} across the {kind} front at "
-          f"{sec.attrs['valid_time']}{slope_text} written to {out}")
+    print(f"section through {site['name']} {across} at {sec.attrs['valid_time']}{slope_text} "
+          f"written to {out}")
     return 0
