@@ -18,6 +18,9 @@ References
    Rev., 136, 2764-2785.
 """
 
+import os
+from concurrent.futures import ThreadPoolExecutor
+
 import numpy as np
 import xarray as xr
 
@@ -69,23 +72,36 @@ def _is_xr(x):
 
 
 def _float(x):
-    """Numpy float array; keep float32, promote everything else to float64."""
+    """Numpy float array; keep float32, promote everything else to float64.
+
+    Python scalars stay Python floats, so that they do not promote float32
+    arrays to float64 (numpy's weak scalar rule).
+    """
+    if isinstance(x, (int, float)) and not isinstance(x, bool):
+        return float(x)
     a = np.asarray(x)
     if a.dtype == np.float32:
         return a
     return a.astype(np.float64, copy=False)
 
 
+def _is_dask(x):
+    return _is_xr(x) and getattr(x, "chunks", None) is not None
+
+
 def _apply(func, *args, name=None, attrs=None):
     """Run an element-wise numpy kernel on numpy or xarray arguments.
 
     xarray arguments are aligned and broadcast by :func:`xarray.apply_ufunc`
-    (lazily with dask); numpy arguments are broadcast by numpy. Scalars in give
-    a numpy scalar out.
+    (lazily with dask, which then runs the blocks in parallel); numpy
+    arguments are broadcast by numpy, and large ones are cut into
+    cache-sized blocks run on a few threads (:func:`_blockwise`). Scalars in
+    give a numpy scalar out.
     """
     if any(_is_xr(a) for a in args):
+        threads = not any(_is_dask(a) for a in args)  # dask already runs blocks in parallel
         out = xr.apply_ufunc(
-            lambda *a: func(*[_float(v) for v in a]),
+            lambda *a: _blockwise(func, a, threads=threads),
             *args,
             dask="parallelized",
             output_dtypes=[_result_dtype(args)],
@@ -97,9 +113,9 @@ def _apply(func, *args, name=None, attrs=None):
             if attrs:
                 out.attrs.update(attrs)
         return out
-    res = func(*[_float(a) for a in args])
+    res = _blockwise(func, args)
     if np.ndim(res) == 0:
-        return res[()] if isinstance(res, np.ndarray) else res
+        return res[()] if isinstance(res, np.ndarray) else np.float64(res)
     return res
 
 
@@ -110,9 +126,65 @@ def _result_dtype(args):
     return np.float64
 
 
+_BLOCK = 16384  # elements per block: the temporaries of a kernel stay in cache
+
+
+def _blockwise(func, args, threads=True, block=_BLOCK):
+    """Evaluate an element-wise kernel block by block over the broadcast shape.
+
+    A long chain of numpy operations on millions of points spends most of
+    its time moving temporaries through memory; cut into blocks of about
+    16k points it stays in cache, and the blocks run on a few threads (numpy
+    releases the GIL inside its loops). Results are identical to one call.
+    """
+    arrs = [_float(a) for a in args]
+    shape = np.broadcast_shapes(*(np.shape(a) for a in arrs))
+    n = int(np.prod(shape, dtype=np.int64))
+    if n <= 4 * block:
+        res = func(*arrs)
+        return np.asarray(res) if not np.isscalar(res) else res
+    nd = len(shape)
+    dtype = np.result_type(*arrs)
+    arrs = [np.asarray(a, dtype=dtype if isinstance(a, float) else a.dtype) for a in arrs]
+    arrs = [a.reshape((1,) * (nd - a.ndim) + a.shape) for a in arrs]
+    # split axis: the outermost axis whose inner part still fits in a block
+    inner, ax = 1, nd - 1
+    while ax > 0 and inner * shape[ax] <= block:
+        inner *= shape[ax]
+        ax -= 1
+    step = max(1, block // inner)
+    tasks = []
+    for idx in np.ndindex(*shape[:ax]):
+        for s in range(0, shape[ax], step):
+            tasks.append(idx + (slice(s, s + step),))
+    out = np.empty(shape, dtype=dtype)
+
+    def run(sl):
+        subs = []
+        for a in arrs:
+            key = tuple(
+                (0 if isinstance(k, int) else slice(0, 1)) if a.shape[i] == 1 else k
+                for i, k in enumerate(sl)
+            )
+            subs.append(a[key])
+        out[sl] = func(*subs)
+
+    workers = min(len(tasks), os.cpu_count() or 1, 8) if threads else 1
+    if workers > 1:
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            list(pool.map(run, tasks))
+    else:
+        for sl in tasks:
+            run(sl)
+    return out
+
+
 # ---------------------------------------------------------------------------
 # numpy kernels
 # ---------------------------------------------------------------------------
+_LN_P0 = float(np.log(_P0))
+
+
 def _es(t):
     tc = t - T0C
     return _ES0 * np.exp(_EA * tc / (tc + _EB))
@@ -132,16 +204,26 @@ def _tl(t, td):
     return 56.0 + 1.0 / (1.0 / (td - 56.0) + np.log(t / td) / 800.0)
 
 
+def _ln_theta_e(t, td, p, kappa=KAPPA):
+    """Natural log of Bolton's theta-e (Eqs. 10, 15, 24, 39): one exp and four logs."""
+    tcd = td - T0C
+    es = _ES0 * np.exp(_EA * tcd / (tcd + _EB))
+    pd = p - es
+    r = EPSILON * es / pd
+    lnt = np.log(t)
+    tl = 56.0 + 1.0 / (1.0 / (td - 56.0) + (lnt - np.log(td)) * (1.0 / 800.0))
+    out = lnt + kappa * (_LN_P0 - np.log(pd))
+    out += 0.28 * r * (lnt - np.log(tl))
+    out += r * (1.0 + 0.448 * r) * (3036.0 / tl - 1.78)
+    return out
+
+
 def _theta_e(t, td, p, kappa=KAPPA):
-    e = _es(td)
-    r = EPSILON * e / (p - e)
-    tl = _tl(t, td)
-    th_dl = t * (_P0 / (p - e)) ** kappa * (t / tl) ** (0.28 * r)
-    return th_dl * np.exp(r * (1.0 + 0.448 * r) * (3036.0 / tl - 1.78))
+    return np.exp(_ln_theta_e(t, td, p, kappa))
 
 
 def _log_theta_es_and_slope(t, p, kappa=KAPPA):
-    """Ln theta-e of saturated air at (t, p) and its derivative in t [K-1].
+    """Natural log of theta-e of saturated air at (t, p) and its derivative in t [K-1].
 
     Bolton (1980) Eq. 39 with T_L = T (saturated air): the pseudo-adiabat
     through (t, p) is labelled by this value.
@@ -152,20 +234,23 @@ def _log_theta_es_and_slope(t, p, kappa=KAPPA):
     dlnes = (_EA * _EB) / (den * den)
     pd = p - es
     r = EPSILON * es / pd
-    dr = r * (p / pd) * dlnes
-    g = 3036.0 / t - 1.78
+    inv_t = 1.0 / t
+    g = 3036.0 * inv_t - 1.78
     rr = r * (1.0 + 0.448 * r)
-    f = np.log(t) + kappa * np.log(_P0 / pd) + rr * g
-    df = 1.0 / t + kappa * es * dlnes / pd + (1.0 + 0.896 * r) * dr * g - rr * 3036.0 / (t * t)
+    f = np.log(t) + kappa * (_LN_P0 - np.log(pd)) + rr * g
+    # d/dT of the three terms; es/pd = r/epsilon and dr/dT = r (p/pd) dln(es)/dT
+    df = inv_t * (1.0 - 3036.0 * rr * inv_t) + r * dlnes * (
+        kappa / EPSILON + (p / pd) * (1.0 + 0.896 * r) * g
+    )
     return f, df
 
 
 def _theta_w_first_guess(theta_e):
     # Davies-Jones (2008), Eq. 3.8: rational fit of theta_e - theta_w in x = theta_e / 273.15
-    x = theta_e / T0C
+    x = theta_e * (1.0 / T0C)
     a = 7.101574 + x * (-20.68208 + x * (16.11182 + x * (2.574631 - 5.205688 * x)))
     b = 1.0 + x * (-3.552497 + x * (3.781782 + x * (-0.6899655 - 0.5929340 * x)))
-    return np.where(theta_e > 173.15, theta_e - np.exp(a / b), theta_e)
+    return theta_e - np.exp(a / b)
 
 
 def _wet_bulb_first_guess(t, td, p):
@@ -217,7 +302,7 @@ def _bisect(log_theta_e, p, lo, hi, kappa=KAPPA, steps=60):
 
 
 def _safeguard(out, bad, log_theta_e, p, hi, kappa=KAPPA):
-    """Replace ``out`` where ``bad`` by the bracketed solution (in place)."""
+    """Replace ``out`` where ``bad`` by the bracketed solution."""
     if not np.any(bad):
         return out
     out = np.array(out, copy=True)
@@ -227,24 +312,22 @@ def _safeguard(out, bad, log_theta_e, p, hi, kappa=KAPPA):
 
 
 def _theta_w(t, td, p, kappa=KAPPA, iterations=1):
-    te = _theta_e(t, td, p, kappa)
-    log_te = np.log(te)
-    guess = _theta_w_first_guess(te)
-    p0 = np.asarray(_P0, dtype=te.dtype)
-    with np.errstate(invalid="ignore", over="ignore"):
-        out = _invert_theta_e(log_te, p0, guess, iterations, kappa)
-        bad = np.isfinite(te) & ((te > 650.0) | ~np.isfinite(out))
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        log_te = _ln_theta_e(t, td, p, kappa)
+        te = np.exp(log_te)
+        p0 = np.asarray(_P0, dtype=te.dtype)
+        out = _invert_theta_e(log_te, p0, _theta_w_first_guess(te), iterations, kappa)
+        bad = ~(te < 650.0) | ~(out > 100.0)
+        bad &= np.isfinite(te)
     return _safeguard(out, bad, log_te, p0, np.minimum(te, 373.0), kappa)
 
 
 def _wet_bulb(t, td, p, iterations=2):
-    te = _theta_e(t, td, p)
-    log_te = np.log(te)
-    guess = _wet_bulb_first_guess(t, td, p)
-    with np.errstate(invalid="ignore", over="ignore"):
-        tw = _invert_theta_e(log_te, p, guess, iterations)
+    with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+        log_te = _ln_theta_e(t, td, p)
+        tw = _invert_theta_e(log_te, p, _wet_bulb_first_guess(t, td, p), iterations)
         # the wet-bulb temperature lies between the dew point and the temperature
-        bad = np.isfinite(te) & ~((tw >= td - 0.5) & (tw <= t + 1e-3))
+        bad = ~((tw >= td - 0.5) & (tw <= t + 1e-3)) & np.isfinite(log_te)
     tw = _safeguard(tw, bad, log_te, p, t + 1e-3)
     return np.minimum(tw, t)  # saturated air: T_W = T (rounding could exceed it)
 
