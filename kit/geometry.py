@@ -10,7 +10,8 @@ Two kinds of grid are understood, as the canonical Dataset defines them
 * **projected**: ``ds.attrs["grid"] == "projected"``, 2-D ``lat``/``lon``,
   grid lengths ``ds.attrs["dx_m"]`` and ``["dy_m"]`` (or 1-D ``x``/``y``
   coordinates in metres). Map factors are ignored unless the Dataset carries
-  a ``map_factor`` variable (or one is passed); gradients are rotated from the
+  a ``map_factor`` coordinate (or ``map_factor_x`` and ``map_factor_y``, as
+  :func:`kit.grids.open_run` writes them) or one is passed; gradients are rotated from the
   grid axes to earth-relative east/north with the local grid convergence taken
   from the 2-D latitude/longitude.
 
@@ -159,13 +160,29 @@ class _Grid:
             self.lon_rad = np.deg2rad(lon)
             self.periodic = False
             self.shape = lat.shape
-            if map_factor is None and isinstance(ds, xr.Dataset) and "map_factor" in ds:
-                map_factor = ds["map_factor"]
-            mf = 1.0 if map_factor is None else np.asarray(map_factor, dtype=np.float64)
-            self.map_factor = None if map_factor is None else mf
+            mfx = mfy = None
+            if map_factor is not None:
+                mfx = mfy = np.asarray(map_factor, dtype=np.float64)
+            elif "map_factor" in ds.coords or (isinstance(ds, xr.Dataset) and "map_factor" in ds):
+                mfx = mfy = np.asarray(ds["map_factor"].values, dtype=np.float64)
+            elif "map_factor_x" in ds.coords and "map_factor_y" in ds.coords:
+                mfx = np.asarray(ds["map_factor_x"].values, dtype=np.float64)
+                mfy = np.asarray(ds["map_factor_y"].values, dtype=np.float64)
+            for mf in (mfx, mfy):
+                if mf is not None and (
+                    mf.shape not in ((), tuple(self.shape))
+                    or not np.all(np.isfinite(mf) & (mf > 0))
+                ):
+                    raise InputError(
+                        f"grid: map factor of shape {mf.shape} with non-positive or missing "
+                        f"values; expected positive numbers on the grid {tuple(self.shape)}"
+                    )
+            self.map_factor = mfx
+            mfx = 1.0 if mfx is None else mfx
+            mfy = 1.0 if mfy is None else mfy
             # signed spacings: the sign of dx_m/dy_m says which way the axis runs
-            self.dx = np.broadcast_to(dx_m / mf, self.shape).astype(np.float64)
-            self.dy = np.broadcast_to(dy_m / mf, self.shape).astype(np.float64)
+            self.dx = np.broadcast_to(dx_m / mfx, self.shape).astype(np.float64)
+            self.dy = np.broadcast_to(dy_m / mfy, self.shape).astype(np.float64)
             # local direction of the grid +x axis in earth east/north (grid convergence)
             lon_u = np.unwrap(self.lon_rad, axis=1)
             dlon_dx = _diff_axis(lon_u, axis=1, periodic=False)

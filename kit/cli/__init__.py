@@ -18,6 +18,7 @@ __all__ = ["COMMANDS", "main", "build_parser"]
 
 #: sub-command modules, in the order --help lists them
 COMMANDS = [
+    "fronts",
     "arrivals",
     "rerun",
     "section",

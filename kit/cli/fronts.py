@@ -1,0 +1,138 @@
+"""``frontshift fronts RUN... [--level 850] --out FILE.geojson``: objective fronts as GeoJSON.
+
+Every RUN (a NetCDF file, glob or folder of one model run; several are runs or
+members of one event) is opened with :func:`kit.grids.open_run`; its fronts
+are found at every valid time (:func:`kit.motion.analyse_run`: location,
+type, tracks over lead time, speeds three ways, slopes) and written as one
+RFC 7946 FeatureCollection of LineStrings (:func:`kit.fronts.fronts_to_geojson`)
+that carries kit.CAUTION. A one-line summary goes to stdout.
+"""
+
+from pathlib import Path
+
+from kit import CAUTION
+from kit.errors import InputError, OutputError
+
+__all__ = ["add_parser", "run"]
+
+_SUFFIXES = (".geojson", ".json")
+
+
+def add_parser(subparsers):
+    """Register the ``fronts`` sub-command."""
+    p = subparsers.add_parser(
+        "fronts",
+        help="objective fronts (warm, cold, quasi-stationary) of each run as GeoJSON",
+        description="Locate fronts on one pressure level with the thermal front parameter of "
+        "smoothed wet-bulb potential temperature (or potential temperature), type them by the "
+        "front-normal wind, track them over lead time and write every line, valid time, run "
+        "and member to one GeoJSON file.",
+        epilog=CAUTION,
+    )
+    p.add_argument(
+        "runs",
+        metavar="RUN",
+        nargs="+",
+        help="NetCDF file, glob or folder of one model run; several = runs/members of one event",
+    )
+    p.add_argument(
+        "--level",
+        type=float,
+        default=850.0,
+        metavar="HPA",
+        help="pressure level the fronts are located on [hPa] (default 850)",
+    )
+    p.add_argument(
+        "--field",
+        choices=("theta_w", "theta"),
+        default="theta_w",
+        help="thermal field: wet-bulb potential temperature (default) or potential "
+        "temperature (marks moisture boundaries less in the subtropics)",
+    )
+    p.add_argument(
+        "--member",
+        type=int,
+        metavar="N",
+        help="analyse only ensemble member N (default: every member)",
+    )
+    p.add_argument(
+        "--smoothing-km",
+        type=float,
+        default=None,
+        metavar="KM",
+        help="Gaussian smoothing scale [km] (default 100, never under one grid length)",
+    )
+    p.add_argument(
+        "--min-length-km",
+        type=float,
+        default=None,
+        metavar="KM",
+        help="drop lines shorter than this [km] (default 300)",
+    )
+    p.add_argument("--out", required=True, metavar="FILE.geojson", help="output GeoJSON file")
+    p.add_argument(
+        "--overwrite", action="store_true", help="replace an existing output file (never silent)"
+    )
+    p.set_defaults(func=run)
+
+
+def _settings(args):
+    from kit.fronts import FrontSettings
+
+    kw = {"field": args.field}
+    if args.smoothing_km is not None:
+        kw["smoothing_km"] = args.smoothing_km
+    if args.min_length_km is not None:
+        kw["min_length_km"] = args.min_length_km
+    return FrontSettings(**kw)
+
+
+def _analyse(ds, level, settings):
+    """Fronts with tracks/speeds/slopes where kit.motion offers them."""
+    try:
+        from kit.motion import analyse_run
+    except ImportError:  # motion not installed in this tree: location and type only
+        from kit.fronts import find_fronts
+
+        return find_fronts(ds, level=level, settings=settings)
+    return analyse_run(ds, level=level, settings=settings)
+
+
+def run(args):
+    """Find the fronts of every RUN and write the GeoJSON; return 0."""
+    from kit.cli.common import load_runs, output_path
+    from kit.export import write_json
+    from kit.fronts import fronts_to_geojson
+
+    out = output_path(args.out, _SUFFIXES)
+    if out.exists() and not args.overwrite:
+        raise OutputError(
+            f"{out}: already exists; choose a new name or pass --overwrite to replace it"
+        )
+    if not (args.level > 0):
+        raise InputError(f"--level {args.level:g}: expected a pressure level in hPa above 0")
+    settings = _settings(args)
+    runs = load_runs(args.runs, member=args.member)
+    fronts = []
+    for ds in runs:
+        fronts.extend(_analyse(ds, args.level, settings))
+    collection = fronts_to_geojson(fronts)
+    pairs = list(zip(args.runs, runs, strict=True))
+    collection["properties"] = {
+        "product": "frontshift fronts",
+        "level_hpa": float(args.level),
+        "field": settings.field,
+        "runs": [str(ds.attrs.get("run", Path(str(a)).name)) for a, ds in pairs],
+        "source": "; ".join(str(ds.attrs.get("source", a)) for a, ds in pairs),
+        "caution": CAUTION,
+    }
+    write_json(out, collection, overwrite=args.overwrite)
+    kinds = {k: sum(f.kind == k for f in fronts) for k in ("warm", "cold", "quasi-stationary")}
+    times = len({str(f.valid_time) for f in fronts})
+    print(
+        f"wrote {len(fronts)} fronts ({kinds['warm']} warm, {kinds['cold']} cold, "
+        f"{kinds['quasi-stationary']} quasi-stationary) at {times} valid times "
+        f"on {args.level:g} hPa to {out}"
+    )
+    print(CAUTION)
+    return 0

@@ -1,0 +1,170 @@
+"""Tests of ``frontshift fronts``: a tiny CF NetCDF run written here, the GeoJSON
+contract of DESIGN.md (RFC 7946 FeatureCollection of LineStrings), and the
+one-line ``error:`` / exit 2 rule for bad input.
+
+The frontal zone in the file is an analytic tanh zone (not a reference value);
+what is checked is the product format and the command's behaviour.
+"""
+
+import json
+
+import numpy as np
+import pytest
+import xarray as xr
+
+from kit import CAUTION
+from kit import geometry as geo
+from kit.cli import main
+
+LEVELS = np.array([1000.0, 925.0, 850.0, 700.0, 500.0])
+KAPPA = 0.2857
+
+
+def write_run(path, *, ref="2030-01-14T00", shift_km=0.0, wind_to_cold=6.0, steps=2):
+    """A CF run: tanh theta-w zone near 50 N, 10 E, moving east with the wind."""
+    lat = np.arange(40.0, 60.01, 0.5)
+    lon = np.arange(-5.0, 25.01, 0.5)
+    lon2, lat2 = np.meshgrid(lon, lat)
+    e, n = geo.local_east_north_km(lon2, lat2, 10.0, 50.0)
+    times = np.datetime64(ref, "ns") + np.arange(steps) * np.timedelta64(6, "h")
+    t = np.empty((steps, LEVELS.size) + lat2.shape)
+    for it in range(steps):
+        x = e - shift_km - it * 100.0
+        theta = 285.0 + 7.0 * np.tanh(x / 120.0)
+        for k, p in enumerate(LEVELS):
+            t[it, k] = theta * (p / 1000.0) ** KAPPA
+    td = t - 2.0
+    u = np.full(t.shape, -wind_to_cold)  # cold side is west: blowing west = toward cold
+    v = np.zeros(t.shape)
+    z = np.broadcast_to(
+        (44330.8 * (1 - (LEVELS / 1013.25) ** 0.190263))[None, :, None, None], t.shape
+    )
+    dims = ("time", "isobaric", "latitude", "longitude")
+    ds = xr.Dataset(
+        {
+            "temp": (dims, t.astype("f4"), {"standard_name": "air_temperature", "units": "K"}),
+            "dewp": (
+                dims,
+                td.astype("f4"),
+                {"standard_name": "dew_point_temperature", "units": "K"},
+            ),
+            "uwnd": (dims, u.astype("f4"), {"standard_name": "eastward_wind", "units": "m s-1"}),
+            "vwnd": (dims, v.astype("f4"), {"standard_name": "northward_wind", "units": "m s-1"}),
+            "hgt": (
+                dims,
+                np.array(z, "f4"),
+                {"standard_name": "geopotential_height", "units": "m"},
+            ),
+        },
+        coords={
+            "time": ("time", times, {"standard_name": "time"}),
+            "isobaric": ("isobaric", LEVELS, {"standard_name": "air_pressure", "units": "hPa"}),
+            "latitude": ("latitude", lat, {"standard_name": "latitude", "units": "degrees_north"}),
+            "longitude": (
+                "longitude",
+                lon,
+                {"standard_name": "longitude", "units": "degrees_east"},
+            ),
+            "forecast_reference_time": (
+                (),
+                np.datetime64(ref, "ns"),
+                {"standard_name": "forecast_reference_time"},
+            ),
+        },
+        attrs={"Conventions": "CF-1.8", "title": "invented test run"},
+    )
+    ds.to_netcdf(path)
+    return path
+
+
+@pytest.fixture(scope="module")
+def run_file(tmp_path_factory):
+    return write_run(tmp_path_factory.mktemp("run") / "run.nc")
+
+
+def test_fronts_command_writes_the_geojson_contract(run_file, tmp_path, capsys):
+    out = tmp_path / "fronts.geojson"
+    assert main(["fronts", str(run_file), "--out", str(out)]) == 0
+    text = out.read_text()
+    gj = json.loads(text)
+    assert "NaN" not in text
+    assert gj["type"] == "FeatureCollection" and gj["caution"] == CAUTION
+    assert gj["features"], "no front found in an obvious frontal zone"
+    times = set()
+    for feat in gj["features"]:
+        assert feat["type"] == "Feature" and feat["geometry"]["type"] == "LineString"
+        coords = np.array(feat["geometry"]["coordinates"])
+        assert coords.shape[1] == 2
+        assert np.all(np.abs(coords[:, 0]) <= 180) and np.all(np.abs(coords[:, 1]) <= 90)
+        p = feat["properties"]
+        for key in (
+            "kind",
+            "valid_time",
+            "level_hpa",
+            "length_km",
+            "speed_ms",
+            "track",
+            "run",
+            "member",
+        ):
+            assert key in p
+        assert p["kind"] == "warm" and p["level_hpa"] == 850.0
+        assert p["speed_ms"] == pytest.approx(6.0, abs=0.3)
+        assert p["valid_time"].endswith("Z") and len(p["valid_time"]) == 20
+        assert p["run"] == "2030-01-14T00Z"
+        times.add(p["valid_time"])
+    assert times == {"2030-01-14T00:00:00Z", "2030-01-14T06:00:00Z"}
+    printed = capsys.readouterr().out
+    assert "wrote" in printed and str(out) in printed and CAUTION in printed
+
+
+def test_fronts_command_never_overwrites_silently(run_file, tmp_path, capsys):
+    out = tmp_path / "f.geojson"
+    out.write_text("earlier product")
+    assert main(["fronts", str(run_file), "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: ") and "already exists" in err and err.count("\n") == 1
+    assert out.read_text() == "earlier product"
+    assert main(["fronts", str(run_file), "--out", str(out), "--overwrite"]) == 0
+    assert json.loads(out.read_text())["type"] == "FeatureCollection"
+
+
+@pytest.mark.parametrize(
+    "extra,match",
+    [
+        (["--level", "300"], "300 hPa not in the dataset"),
+        (["--out-suffix"], None),
+    ],
+)
+def test_fronts_command_bad_level_is_one_line(run_file, tmp_path, capsys, extra, match):
+    if match is None:  # wrong output type
+        code = main(["fronts", str(run_file), "--out", str(tmp_path / "f.csv")])
+        match = "unknown file type '.csv'"
+    else:
+        code = main(["fronts", str(run_file), "--out", str(tmp_path / "f.geojson"), *extra])
+    err = capsys.readouterr().err
+    assert code == 2 and err.startswith("error: ") and match in err and err.count("\n") == 1
+    assert "Traceback" not in err
+
+
+def test_fronts_command_missing_run(tmp_path, capsys):
+    code = main(["fronts", str(tmp_path / "nothing_here.nc"), "--out", str(tmp_path / "f.geojson")])
+    err = capsys.readouterr().err
+    assert code == 2 and err.startswith("error: ") and err.count("\n") == 1
+    assert not (tmp_path / "f.geojson").exists()
+
+
+def test_fronts_command_two_runs_and_theta(tmp_path):
+    a = write_run(tmp_path / "a.nc", ref="2030-01-14T00")
+    b = write_run(
+        tmp_path / "b.nc", ref="2030-01-14T06", shift_km=100.0, wind_to_cold=-6.0, steps=1
+    )
+    out = tmp_path / "two.geojson"
+    assert main(["fronts", str(a), str(b), "--field", "theta", "--out", str(out)]) == 0
+    gj = json.loads(out.read_text())
+    by_run = {}
+    for feat in gj["features"]:
+        by_run.setdefault(feat["properties"]["run"], set()).add(feat["properties"]["kind"])
+        assert feat["properties"]["field"] == "theta"
+    assert by_run == {"2030-01-14T00Z": {"warm"}, "2030-01-14T06Z": {"cold"}}
+    assert gj["properties"]["runs"] == ["2030-01-14T00Z", "2030-01-14T06Z"]
