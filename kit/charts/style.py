@@ -30,6 +30,7 @@ import matplotlib.colors as mcolors  # noqa: E402
 import matplotlib.patches  # noqa: E402, F401
 import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
+from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 
 from kit import CAUTION  # noqa: E402
@@ -201,6 +202,7 @@ def new_figure(nrows=1, ncols=1, *, projection=None, figsize=(10.0, 7.0), bottom
         raise InputError(f"new_figure: figsize={figsize}; expected positive width and height")
     with briefing_rc():
         fig = Figure(figsize=(width, height), dpi=110)
+        FigureCanvasAgg(fig)  # headless canvas: fig.canvas.draw() and savefig work anywhere
         top = 1.0 - (HEADER_IN + top_in) / height
         bottom = (FOOTER_IN + bottom_in) / height
         if top <= bottom:
@@ -539,13 +541,13 @@ def map_projection(ds_or_extent):
         w, e, s, n = map_extent(ds_or_extent)
     lon0 = ((w + e) / 2.0 + 180.0) % 360.0 - 180.0
     span = e - w
-    tropical = max(abs(s), abs(n)) < 22.0 or (s < 0.0 < n and max(abs(s), abs(n)) < 40.0)
-    if span > 200.0 or tropical:
-        return ccrs.PlateCarree(central_longitude=lon0)
     if n > 84.0 and s > 20.0:
         return ccrs.NorthPolarStereo(central_longitude=lon0)
     if s < -84.0 and n < -20.0:
         return ccrs.SouthPolarStereo(central_longitude=lon0)
+    tropical = max(abs(s), abs(n)) < 22.0 or (s < 0.0 < n and max(abs(s), abs(n)) < 40.0)
+    if span > 200.0 or tropical:
+        return ccrs.PlateCarree(central_longitude=lon0)
     if s < 0.0 < n:
         return ccrs.PlateCarree(central_longitude=lon0)
     lat_mid = (s + n) / 2.0

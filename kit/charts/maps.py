@@ -1,0 +1,757 @@
+"""Frontal maps in the briefing style.
+
+- :func:`front_map`: one valid time: theta-w (or theta) shading on the front
+  level, MSLP isobars every 4 hPa with labels, fronts with the WMO symbols,
+  sites, offline coastlines and a labelled graticule.
+- :func:`fronts_through_time`: small multiples of the run's fronts at chosen
+  valid times, with one shared colour key.
+- :func:`fronts_overview`: every front line of the run on one map, coloured by
+  lead time, so the movement of each front reads at a glance.
+
+Each figure is stamped with run, valid time, lead time, source and
+:data:`kit.CAUTION` (:func:`kit.charts.style.stamp`).
+
+WMO front symbols come from MetPy's path effects: cold fronts blue with
+triangles toward the warm air, warm fronts red with semicircles toward the cold
+air, quasi-stationary fronts alternating (triangles toward the warm air,
+semicircles toward the cold air). The symbols sit on the side the front moves
+toward; the side is taken from each front's cold-side normal.
+"""
+
+from kit.charts import _require
+
+_require(("matplotlib", "cartopy", "metpy"), "kit.charts.maps")
+
+import matplotlib.patheffects as mpe  # noqa: E402
+import numpy as np  # noqa: E402
+import pandas as pd  # noqa: E402
+from matplotlib.lines import Line2D  # noqa: E402
+
+from kit.charts import style  # noqa: E402
+from kit.errors import InputError  # noqa: E402
+
+__all__ = [
+    "FIELDS",
+    "select_time",
+    "level_field_c",
+    "map_axes",
+    "draw_shading",
+    "draw_isobars",
+    "draw_fronts",
+    "draw_sites",
+    "add_graticule",
+    "front_legend",
+    "front_map",
+    "fronts_through_time",
+    "fronts_overview",
+    "symbol_side",
+]
+
+#: fields a map can shade: key -> (label, kit.thermo name)
+FIELDS = {
+    "theta_w": ("\u03b8w", "theta_w"),
+    "theta": ("\u03b8", "theta"),
+}
+
+#: background outside the model domain
+NO_DATA = "#e4e4e4"
+#: sea colour on maps without shading
+SEA = "#f3f7f9"
+
+_HALO = [mpe.withStroke(linewidth=2.4, foreground="white")]
+
+
+def _pc():
+    import cartopy.crs as ccrs
+
+    return ccrs.PlateCarree()
+
+
+def _times(ds):
+    if "time" not in ds.coords:
+        raise InputError("dataset: no 'time' coordinate; expected a canonical run (kit.open_run)")
+    return np.atleast_1d(ds["time"].values).astype("datetime64[ns]")
+
+
+def select_time(ds, time, *, member=None):
+    """Pick one valid time (and member) of a run.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run.
+    time : datetime-like
+        Valid time (UTC); must be one of the run's times (within one minute).
+    member : int, optional
+        Ensemble member; the first member when the run has several and None.
+
+    Returns
+    -------
+    ds_t : xarray.Dataset
+        The run at that time (no ``time`` or ``member`` dimension).
+    valid : numpy.datetime64
+        The valid time found [ns].
+    """
+    times = _times(ds)
+    want = style._timestamp(time, "time").tz_convert(None).to_datetime64()
+    diff = np.abs(times - want)
+    i = int(np.argmin(diff))
+    if diff[i] > np.timedelta64(60, "s"):
+        raise InputError(
+            f"time {pd.Timestamp(want):%Y-%m-%dT%H:%MZ}: not a valid time of run "
+            f"{ds.attrs.get('run', '?')}; expected one of "
+            f"{pd.Timestamp(times[0]):%Y-%m-%dT%H:%MZ} .. {pd.Timestamp(times[-1]):%Y-%m-%dT%H:%MZ}"
+        )
+    out = ds.isel(time=i) if "time" in ds.dims else ds
+    if "member" in out.dims:
+        members = list(np.atleast_1d(out["member"].values))
+        if member is None:
+            member = members[0]
+        if member not in members:
+            raise InputError(f"member {member}: not in the run; expected one of {members}")
+        out = out.sel(member=member)
+    return out, times[i]
+
+
+def level_field_c(ds_t, field="theta_w", level=850.0):
+    """Return a shading field on one level in degrees Celsius [degC], as numpy.
+
+    Parameters
+    ----------
+    ds_t : xarray.Dataset
+        Canonical run at one time.
+    field : {"theta_w", "theta"}
+    level : float
+        Pressure level [hPa].
+    """
+    from kit import thermo
+
+    if field not in FIELDS:
+        raise InputError(f"field {field!r}: unknown; expected one of {', '.join(FIELDS)}")
+    da = thermo.level_field(ds_t, FIELDS[field][1], level)
+    return np.asarray(da.values, dtype=float) - 273.15
+
+
+def _lonlat2d(ds):
+    lon = np.asarray(ds["lon"].values, dtype=float)
+    lat = np.asarray(ds["lat"].values, dtype=float)
+    if lon.ndim == 1:
+        lon = np.rad2deg(np.unwrap(np.deg2rad(lon)))
+        lon, lat = np.meshgrid(lon, lat)
+    return lon, lat
+
+
+def _inner_extent(ds, projection):
+    """Projected rectangle mostly inside the grid's outline [projection units].
+
+    Halfway between the rectangle inscribed in the (curved) grid outline and the
+    one around it: little blank corner, little lost domain.
+    """
+    lon, lat = _lonlat2d(ds)
+    pts = projection.transform_points(_pc(), lon, lat)
+    x, y = pts[..., 0], pts[..., 1]
+    ok = np.isfinite(x) & np.isfinite(y)
+    if not ok.any():
+        raise InputError("dataset: grid cannot be placed on a map; expected valid lat/lon")
+    x = np.where(ok, x, np.nan)
+    y = np.where(ok, y, np.nan)
+    west, east, south, north = x[:, 0], x[:, -1], y[0, :], y[-1, :]
+    if np.nanmean(east) < np.nanmean(west):  # columns run westward
+        west, east = east, west
+    if np.nanmean(north) < np.nanmean(south):  # rows run southward
+        south, north = north, south
+    x0 = 0.5 * (np.nanmax(west) + np.nanmin(west))
+    x1 = 0.5 * (np.nanmin(east) + np.nanmax(east))
+    y0 = 0.5 * (np.nanmax(south) + np.nanmin(south))
+    y1 = 0.5 * (np.nanmin(north) + np.nanmax(north))
+    if not (x1 > x0 and y1 > y0):  # odd grid orientation: the full box
+        x0, x1, y0, y1 = np.nanmin(x), np.nanmax(x), np.nanmin(y), np.nanmax(y)
+    return float(x0), float(x1), float(y0), float(y1)
+
+
+#: room under the maps for graticule labels [inches] and for the colour key [inches]
+LABEL_IN = 0.3
+KEY_IN = 0.62
+
+
+def map_axes(ds, *, nrows=1, ncols=1, width_in=10.0, max_height_in=9.0, bottom_in=None,
+             extent=None, hspace=0.12, wspace=0.05, panel_header_in=0.0):
+    """Make a briefing figure of map axes fitting the run's domain.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run (for the domain and projection).
+    nrows, ncols : int
+        Grid of maps.
+    width_in, max_height_in : float
+        Figure width and largest height [inches]; the height follows the domain's shape.
+    bottom_in : float, optional
+        Room under the maps for graticule labels and the colour key [inches];
+        default ``LABEL_IN + KEY_IN`` (see :func:`colour_key`).
+    extent : (west, east, south, north), optional
+        Map extent [degrees]; default the grid's inner rectangle.
+    hspace, wspace : float
+        Space between maps.
+    panel_header_in : float
+        Extra room above each row (panel titles) [inches].
+
+    Returns
+    -------
+    fig, axes
+        As :func:`kit.charts.style.new_figure`.
+    """
+    if bottom_in is None:
+        bottom_in = LABEL_IN + KEY_IN
+    proj = style.map_projection(extent if extent is not None else ds)
+    if extent is None:
+        x0, x1, y0, y1 = _inner_extent(ds, proj)
+    else:
+        import cartopy.crs as ccrs  # noqa: F401
+
+        w, e, s, n = extent
+        lons = np.concatenate([np.linspace(w, e, 50), np.full(50, e), np.linspace(e, w, 50),
+                               np.full(50, w)])
+        lats = np.concatenate([np.full(50, s), np.linspace(s, n, 50), np.full(50, n),
+                               np.linspace(n, s, 50)])
+        pts = proj.transform_points(_pc(), lons, lats)
+        x0, x1 = np.nanmin(pts[:, 0]), np.nanmax(pts[:, 0])
+        y0, y1 = np.nanmin(pts[:, 1]), np.nanmax(pts[:, 1])
+    aspect = (y1 - y0) / (x1 - x0)
+    left_in, right_in = 0.55, 0.25
+    map_w = (width_in - left_in - right_in - (ncols - 1) * wspace * 2.0) / ncols
+    map_h = map_w * aspect
+    fixed = style.HEADER_IN + style.FOOTER_IN + bottom_in + 0.1
+    height = fixed + nrows * (map_h + panel_header_in) + (nrows - 1) * hspace * map_h
+    if height > max_height_in:  # too tall: narrower maps instead (cartopy keeps the aspect)
+        height = max_height_in
+    fig, axes = style.new_figure(
+        nrows, ncols, projection=proj, figsize=(width_in, max(height, 4.0)),
+        bottom_in=bottom_in, left_in=left_in, right_in=right_in, top_in=0.1 + panel_header_in,
+        hspace=hspace + (0.25 if panel_header_in else 0.0), wspace=wspace,
+    )
+    for ax in np.atleast_1d(axes).ravel():
+        ax.set_extent([x0, x1, y0, y1], crs=proj)
+        ax.set_facecolor(NO_DATA)  # outside the model domain
+    return fig, axes
+
+
+def _map_xy(ax, ds):
+    """Grid points in the map's projection coordinates (contouring there is fast) [m]."""
+    lon, lat = _lonlat2d(ds)
+    key = (id(ax.projection), lon.shape, float(lon[0, 0]), float(lat[0, 0]), float(lon[-1, -1]),
+           float(lat[-1, -1]))
+    cache = ax.__dict__.setdefault("_frontshift_xy", {})
+    if key not in cache:
+        pts = ax.projection.transform_points(_pc(), lon, lat)
+        cache[key] = (pts[..., 0], pts[..., 1])
+    return cache[key]
+
+
+def colour_key(fig, mappable, label, *, ticks=None):
+    """Add a horizontal colour key centred in the band under the maps.
+
+    Returns
+    -------
+    matplotlib.colorbar.Colorbar
+    """
+    width, height = fig.get_size_inches()
+    key_w = min(0.6, 6.5 / width)
+    cax = fig.add_axes([(1 - key_w) / 2, (style.FOOTER_IN + 0.28) / height, key_w,
+                        0.12 / height])
+    cax.set_gid("frontshift-colour-key")
+    cb = fig.colorbar(mappable, cax=cax, orientation="horizontal", ticks=ticks)
+    cb.set_label(label, fontsize=style.FONT["label"], labelpad=1)
+    cb.ax.tick_params(labelsize=style.FONT["tick"], pad=1, length=2)
+    return cb
+
+
+def draw_shading(ax, ds_t, *, field="theta_w", level=850.0, levels=None, step=1.0, alpha=0.9):
+    """Shade theta-w (or theta) on one level [degC] with the kit's palette.
+
+    Returns
+    -------
+    matplotlib.contour.QuadContourSet
+    """
+    values = level_field_c(ds_t, field, level)
+    if levels is None:
+        levels = style.thetaw_levels(values, step)
+    x, y = _map_xy(ax, ds_t)
+    return ax.contourf(x, y, values, levels=levels, cmap=style.THETAW_CMAP, extend="both",
+                       alpha=alpha, zorder=1)
+
+
+def draw_isobars(ax, ds_t, *, interval_hpa=4.0, labels=True, linewidth=0.8):
+    """Draw MSLP isobars every ``interval_hpa`` [hPa], labelled; None when no ``mslp``.
+
+    Returns
+    -------
+    matplotlib.contour.QuadContourSet or None
+    """
+    if "mslp" not in ds_t:
+        return None
+    hpa = np.asarray(ds_t["mslp"].values, dtype=float) / 100.0
+    finite = hpa[np.isfinite(hpa)]
+    if finite.size == 0:
+        return None
+    lo = np.floor(finite.min() / interval_hpa) * interval_hpa
+    hi = np.ceil(finite.max() / interval_hpa) * interval_hpa
+    levels = np.arange(lo, hi + interval_hpa / 2, interval_hpa)
+    x, y = _map_xy(ax, ds_t)
+    cs = ax.contour(x, y, hpa, levels=levels, colors=style.BRIEFING_COLOURS["isobar"],
+                    linewidths=linewidth, zorder=4)
+    cs.set_gid("frontshift-isobars")
+    if labels and len(levels) > 1:
+        ax.clabel(cs, levels=levels, fmt="%d", fontsize=style.FONT["small"], inline=True,
+                  inline_spacing=2)
+    return cs
+
+
+def _local_tangent(lon, lat):
+    """Return unit tangents (east, north) along a line in the local plane [1]."""
+    lon = np.rad2deg(np.unwrap(np.deg2rad(np.asarray(lon, dtype=float))))
+    lat = np.asarray(lat, dtype=float)
+    de = np.gradient(lon) * np.cos(np.deg2rad(lat))
+    dn = np.gradient(lat)
+    norm = np.hypot(de, dn)
+    norm[norm == 0] = 1.0
+    return de / norm, dn / norm
+
+
+def symbol_side(front):
+    """Vertex order so that the WMO symbols face the way the front moves.
+
+    MetPy draws front symbols on the left of the line's drawing direction.
+    Cold and quasi-stationary fronts need their triangles on the warm side
+    (opposite the cold-side normal); warm fronts their semicircles on the cold
+    side.
+
+    Parameters
+    ----------
+    front : kit.fronts.Front
+
+    Returns
+    -------
+    lon, lat : ndarray
+        Vertices [degrees], reversed where needed.
+    """
+    lon = np.asarray(front.lon, dtype=float)
+    lat = np.asarray(front.lat, dtype=float)
+    if lon.size < 2:
+        return lon, lat
+    te, tn = _local_tangent(lon, lat)
+    left_e, left_n = -tn, te
+    want = 1.0 if front.kind == "warm" else -1.0
+    ne = np.asarray(front.normal_east, dtype=float)
+    nn = np.asarray(front.normal_north, dtype=float)
+    score = np.nansum(want * (left_e * ne + left_n * nn))
+    if score < 0:
+        return lon[::-1], lat[::-1]
+    return lon, lat
+
+
+def _front_effect(kind, size, spacing=1.6):
+    from metpy.plots import ColdFront, StationaryFront, WarmFront
+
+    c = style.FRONT_COLOURS
+    if kind == "cold":
+        return ColdFront(color=c["cold"], size=size, spacing=spacing)
+    if kind == "warm":
+        return WarmFront(color=c["warm"], size=size, spacing=spacing)
+    if kind == "quasi-stationary":
+        return StationaryFront(colors=(c["warm"], c["cold"]), size=size, spacing=spacing)
+    raise InputError(f"front kind {kind!r}: unknown; expected cold, warm or quasi-stationary")
+
+
+def _speed_kt(front):
+    for key in ("speed_tracked_ms",):
+        value = front.props.get(key) if front.props else None
+        if value is not None and np.isfinite(value):
+            return abs(float(value)) * 3600.0 / 1852.0
+    if front.speed_ms is not None and np.isfinite(front.speed_ms):
+        return abs(float(front.speed_ms)) * 3600.0 / 1852.0
+    return None
+
+
+def draw_fronts(ax, fronts, *, size=7.0, linewidth=2.2, labels=True):
+    """Draw fronts with WMO symbols; label each with its speed [kt].
+
+    Parameters
+    ----------
+    ax : cartopy GeoAxes
+    fronts : list of kit.fronts.Front
+    size : float
+        Symbol size [points].
+    linewidth : float
+        Line width [points].
+    labels : bool
+        Write the front speed (knots) beside the middle of each line.
+
+    Returns
+    -------
+    list of matplotlib.lines.Line2D
+        One line per front, with the MetPy path effect attached.
+    """
+    lines = []
+    for front in fronts:
+        lon, lat = symbol_side(front)
+        if lon.size < 2:
+            continue
+        colour = style.FRONT_COLOURS["cold" if front.kind == "quasi-stationary" else front.kind]
+        (line,) = ax.plot(lon, lat, color=colour, linewidth=linewidth, transform=_pc(),
+                          path_effects=[_front_effect(front.kind, size)], zorder=6,
+                          solid_capstyle="round")
+        line.set_gid(f"frontshift-front-{front.kind}")
+        lines.append(line)
+        if labels:
+            kt = _speed_kt(front)
+            if kt is not None:
+                mid = lon.size // 2
+                ax.text(lon[mid], lat[mid], f"{kt:.0f} kt", transform=_pc(),
+                        fontsize=style.FONT["small"], color=colour, fontweight="bold",
+                        ha="left", va="bottom", path_effects=_HALO, zorder=7,
+                        clip_on=True)
+    return lines
+
+
+def draw_sites(ax, sites, *, names=True):
+    """Mark and name the sites (a DataFrame with ``name, lat, lon``).
+
+    Returns
+    -------
+    list of matplotlib artists
+    """
+    if sites is None or len(sites) == 0:
+        return []
+    for col in ("name", "lat", "lon"):
+        if col not in sites:
+            raise InputError(f"sites: column '{col}' missing; expected name, lat, lon")
+    colours = style.BRIEFING_COLOURS
+    out = [ax.scatter(sites["lon"], sites["lat"], s=26, marker="o", c=colours["site_face"],
+                      edgecolors=colours["site"], linewidths=0.9, transform=_pc(), zorder=8)]
+    out[0].set_gid("frontshift-sites")
+    if names:
+        for _, row in sites.iterrows():
+            out.append(ax.annotate(
+                str(row["name"]), (row["lon"], row["lat"]), xycoords=_pc()._as_mpl_transform(ax),
+                xytext=(4, 3), textcoords="offset points", fontsize=style.FONT["small"],
+                color=colours["site"], path_effects=_HALO, zorder=9, annotation_clip=True,
+            ))
+    return out
+
+
+def _lonlat_span(ax):
+    """Longitude/latitude span of a map's frame [degrees], contiguous across the dateline."""
+    x0, x1, y0, y1 = ax.get_extent()
+    t = np.linspace(0.0, 1.0, 40)
+    xs = np.concatenate([x0 + (x1 - x0) * t, np.full(40, x1), x1 - (x1 - x0) * t, np.full(40, x0)])
+    ys = np.concatenate([np.full(40, y0), y0 + (y1 - y0) * t, np.full(40, y1), y1 - (y1 - y0) * t])
+    pts = _pc().transform_points(ax.projection, xs, ys)
+    lon, lat = pts[:, 0], pts[:, 1]
+    ok = np.isfinite(lon) & np.isfinite(lat)
+    if not ok.any():
+        return -180.0, 180.0, -90.0, 90.0
+    lon = np.rad2deg(np.unwrap(np.deg2rad(lon[ok])))
+    return float(lon.min()), float(lon.max()), float(lat[ok].min()), float(lat[ok].max())
+
+
+def add_graticule(ax, *, labels=True, bottom=True, left=True):
+    """Add a light graticule, labelled on the left and bottom edges.
+
+    Returns
+    -------
+    cartopy.mpl.gridliner.Gridliner
+    """
+    gl = ax.gridlines(draw_labels=labels, linewidth=0.4, color=style.BRIEFING_COLOURS[
+        "graticule"], alpha=0.8, linestyle=(0, (2, 3)), x_inline=False, y_inline=False,
+        zorder=2.5)
+    import matplotlib.ticker as mticker
+
+    w, e, s, n = _lonlat_span(ax)
+
+    def nice(span, count):
+        for step in (1, 2, 5, 10, 15, 20, 30, 45, 60, 90):
+            if span / step <= count:
+                return step
+        return 90
+
+    dlon, dlat = nice(e - w, 7), nice(n - s, 6)
+    gl.xlocator = mticker.FixedLocator(np.arange(-360.0, 361.0, dlon))
+    gl.ylocator = mticker.FixedLocator(np.arange(-90.0, 91.0, dlat))
+    if labels:
+        gl.top_labels = False
+        gl.right_labels = False
+        gl.bottom_labels = bottom
+        gl.left_labels = left
+        gl.rotate_labels = False
+        gl.xlabel_style = {"size": style.FONT["tick"], "color": style.INK}
+        gl.ylabel_style = {"size": style.FONT["tick"], "color": style.INK}
+    ax._frontshift_gridliner = gl
+    return gl
+
+
+def front_legend(ax, *, kinds=("cold", "warm", "quasi-stationary"), isobars=True, sites=False,
+                 loc="upper left", isobar_text="MSLP every 4 hPa"):
+    """Add a compact key: front kinds (with their symbols), isobars, sites."""
+    handles = []
+    for kind in kinds:
+        colour = style.FRONT_COLOURS["cold" if kind == "quasi-stationary" else kind]
+        handles.append(Line2D([0, 1], [0, 0], color=colour, linewidth=2.0,
+                              path_effects=[_front_effect(kind, 4.0, spacing=1.0)],
+                              label=style.KIND_LABELS[kind]))
+    if isobars:
+        handles.append(Line2D([0], [0], color=style.BRIEFING_COLOURS["isobar"], linewidth=0.8,
+                              label=isobar_text))
+    if sites:
+        handles.append(Line2D([0], [0], marker="o", linestyle="none",
+                              markerfacecolor=style.BRIEFING_COLOURS["site_face"],
+                              markeredgecolor=style.BRIEFING_COLOURS["site"], label="site"))
+    leg = ax.legend(handles=handles, loc=loc, fontsize=style.FONT["small"], handlelength=4.5,
+                    borderpad=0.5, labelspacing=0.5, framealpha=0.92)
+    leg.set_zorder(20)
+    return leg
+
+
+def _fronts_at(fronts, valid, level=None, member=None):
+    out = []
+    for f in fronts or []:
+        if np.datetime64(f.valid_time, "ns") != np.datetime64(valid, "ns"):
+            continue
+        if level is not None and f.level_hpa is not None and abs(f.level_hpa - level) > 1e-6:
+            continue
+        if member is not None and f.member is not None and f.member != member:
+            continue
+        out.append(f)
+    return out
+
+
+def _member_of(ds, member):
+    if "member" in ds.dims and member is None:
+        return int(np.atleast_1d(ds["member"].values)[0])
+    return member
+
+
+def front_map(ds, fronts=None, *, time, level=850.0, field="theta_w", sites=None, member=None,
+              isobars=True, extent=None, labels=True, width_in=10.0):
+    """Map the fronts of one valid time in the briefing style.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run.
+    fronts : list of kit.fronts.Front, optional
+        Fronts of the run (any times; those at ``time`` are drawn). Found with
+        :func:`kit.fronts.find_fronts` when None.
+    time : datetime-like
+        Valid time (UTC).
+    level : float
+        Front level and shading level [hPa].
+    field : {"theta_w", "theta"}
+        Shaded field.
+    sites : pandas.DataFrame, optional
+        Sites to mark (``name, lat, lon``).
+    member : int, optional
+        Ensemble member (default the first).
+    isobars : bool
+        Draw MSLP isobars (when the run has ``mslp``).
+    extent : (west, east, south, north), optional
+        Map extent [degrees]; default the grid's domain.
+    labels : bool
+        Speed labels on the fronts.
+    width_in : float
+        Figure width [inches].
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    from kit.coast import add_coastlines
+
+    member = _member_of(ds, member)
+    ds_t, valid = select_time(ds, time, member=member)
+    if fronts is None:
+        from kit.fronts import find_fronts
+
+        fronts = find_fronts(ds, level=level, times=[valid], member=member)
+    drawn = _fronts_at(fronts, valid, level, member)
+    fig, ax = map_axes(ds, extent=extent, width_in=width_in)
+    shading = draw_shading(ax, ds_t, field=field, level=level)
+    add_coastlines(ax)
+    add_graticule(ax)
+    has_isobars = isobars and draw_isobars(ax, ds_t) is not None
+    draw_fronts(ax, drawn, labels=labels)
+    draw_sites(ax, sites)
+    front_legend(ax, isobars=has_isobars, sites=sites is not None and len(sites) > 0)
+    label = FIELDS[field][0]
+    colour_key(fig, shading, f"{label} at {level:g} hPa [\u00b0C]")
+    counts = {k: sum(f.kind == k for f in drawn) for k in style.FRONT_COLOURS}
+    summary = ", ".join(f"{n} {style.KIND_LABELS[k]}{'s' if n != 1 else ''}"
+                        for k, n in counts.items() if n)
+    extra = f"Fronts at {level:g} hPa on {label}" + (f" (member {member})" if member is not None
+                                                     else "")
+    extra += f": {summary}" if summary else ": no fronts found"
+    style.stamp(fig, run=ds.attrs.get("run", "unnamed run"), valid_time=valid,
+                lead_h=style.lead_hours(ds, valid), source=ds, extra=extra)
+    fig._frontshift.update(kind="front_map", fronts=len(drawn), level=level, field=field)
+    return fig
+
+
+def _pick_times(times, max_panels):
+    """Evenly spread valid times, first and last included."""
+    if len(times) <= max_panels:
+        return list(times)
+    idx = np.unique(np.round(np.linspace(0, len(times) - 1, max_panels)).astype(int))
+    return [times[i] for i in idx]
+
+
+def fronts_through_time(ds, fronts, *, times=None, level=850.0, field="theta_w", sites=None,
+                        member=None, ncols=3, max_panels=9, width_in=11.0):
+    """Small multiples: the run's fronts at several valid times, one shared colour key.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run.
+    fronts : list of kit.fronts.Front
+        Fronts of the run at any valid times.
+    times : list of datetime-like, optional
+        Valid times to show; default up to ``max_panels`` spread over the run.
+    level, field, sites, member
+        As :func:`front_map`.
+    ncols : int
+        Maps per row.
+    max_panels : int
+        Most maps when ``times`` is None.
+    width_in : float
+        Figure width [inches].
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    from kit.coast import add_coastlines
+
+    member = _member_of(ds, member)
+    all_times = _times(ds)
+    chosen = _pick_times(list(all_times), max_panels) if times is None else [
+        select_time(ds, t, member=member)[1] for t in times]
+    if not chosen:
+        raise InputError("fronts_through_time: no valid times to show; expected at least one")
+    ncols = max(1, min(ncols, len(chosen)))
+    nrows = int(np.ceil(len(chosen) / ncols))
+    fig, axes = map_axes(ds, nrows=nrows, ncols=ncols, width_in=width_in, max_height_in=14.0,
+                         panel_header_in=0.18, wspace=0.06, hspace=0.05)
+    axes = np.atleast_1d(axes).ravel()
+    # one colour scale for all panels
+    fields = [level_field_c(select_time(ds, t, member=member)[0], field, level) for t in chosen]
+    levels = style.thetaw_levels(np.concatenate([f.ravel() for f in fields]), 1.0)
+    shading = None
+    for k, ax in enumerate(axes):
+        if k >= len(chosen):
+            ax.set_visible(False)
+            continue
+        ds_t, valid = select_time(ds, chosen[k], member=member)
+        shading = draw_shading(ax, ds_t, field=field, level=level, levels=levels)
+        add_coastlines(ax, linewidth=0.5)
+        row, col = divmod(k, ncols)
+        add_graticule(ax, bottom=(row == nrows - 1) or (k + ncols >= len(chosen)),
+                      left=(col == 0))
+        draw_isobars(ax, ds_t, interval_hpa=8.0, labels=False, linewidth=0.5)
+        draw_fronts(ax, _fronts_at(fronts, valid, level, member), size=4.0, linewidth=1.5,
+                    labels=False)
+        if sites is not None and len(sites):
+            draw_sites(ax, sites, names=False)
+        lead = style.lead_hours(ds, valid)
+        ax.set_title(f"{style.format_lead(lead)}   {pd.Timestamp(valid):%a %d %H UTC}",
+                     fontsize=style.FONT["label"], loc="left", pad=3)
+    label = FIELDS[field][0]
+    colour_key(fig, shading, f"{label} at {level:g} hPa [\u00b0C]")
+    if len(chosen) < len(axes):  # the key of symbols goes into the first empty slot
+        spare = axes[len(chosen)]
+        spare.set_visible(True)
+        spare.axis("off")
+        front_legend(spare, isobars=True, loc="center", isobar_text="MSLP every 8 hPa")
+    else:
+        front_legend(axes[-1], isobars=True, loc="lower right", isobar_text="MSLP every 8 hPa")
+    style.stamp(fig, run=ds.attrs.get("run", "unnamed run"), valid_time=(chosen[0], chosen[-1]),
+                lead_h=(style.lead_hours(ds, chosen[0]), style.lead_hours(ds, chosen[-1])),
+                source=ds, extra=f"Fronts at {level:g} hPa through the run"
+                + (f" (member {member})" if member is not None else ""))
+    fig._frontshift.update(kind="fronts_through_time", panels=len(chosen), level=level)
+    return fig
+
+
+def fronts_overview(ds, fronts, *, level=850.0, sites=None, member=None, width_in=10.0):
+    """One map of every front line of the run, coloured by lead time.
+
+    Line style tells the kind (cold solid, warm dashed, quasi-stationary
+    dotted); the track id is written at each track's last position.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run.
+    fronts : list of kit.fronts.Front
+        Fronts of the run at any valid times (tracked ones carry ``track``).
+    level, sites, member
+        As :func:`front_map`.
+    width_in : float
+        Figure width [inches].
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import matplotlib.colors as mcolors
+
+    from kit.coast import add_coastlines
+
+    member = _member_of(ds, member)
+    times = _times(ds)
+    chosen = [f for f in fronts or []
+              if (level is None or abs(f.level_hpa - level) < 1e-6)
+              and (member is None or f.member is None or f.member == member)]
+    fig, ax = map_axes(ds, width_in=width_in)
+    ax.set_facecolor(SEA)
+    add_coastlines(ax, land=True)
+    add_graticule(ax)
+    leads = [style.lead_hours(ds, t) for t in times]
+    lead_min = min(v for v in leads if v is not None) if any(v is not None for v in leads) else 0
+    lead_max = max(v for v in leads if v is not None) if any(v is not None for v in leads) else 1
+    norm = mcolors.Normalize(vmin=lead_min, vmax=max(lead_max, lead_min + 1))
+    dashes = {"cold": "-", "warm": (0, (5, 2)), "quasi-stationary": (0, (1.5, 1.5))}
+    last = {}
+    for f in sorted(chosen, key=lambda f: np.datetime64(f.valid_time, "ns")):
+        lead = style.lead_hours(ds, f.valid_time)
+        lead = 0.0 if lead is None else lead
+        lon = np.rad2deg(np.unwrap(np.deg2rad(np.asarray(f.lon, dtype=float))))
+        (line,) = ax.plot(lon, f.lat, color=style.LEAD_CMAP(norm(lead)), linewidth=1.6,
+                          linestyle=dashes.get(f.kind, "-"), transform=_pc(), zorder=5)
+        line.set_gid(f"frontshift-track-{f.kind}")
+        if f.track is not None:
+            last[f.track] = (lon[len(lon) // 2], f.lat[len(f.lat) // 2], f.kind)
+    for track, (x, y, kind) in last.items():
+        ax.text(x, y, f"#{track}", transform=_pc(), fontsize=style.FONT["small"],
+                fontweight="bold", color=style.FRONT_COLOURS["cold" if kind == "quasi-stationary"
+                                                              else kind],
+                path_effects=_HALO, zorder=7, clip_on=True)
+    draw_sites(ax, sites)
+    from matplotlib.cm import ScalarMappable
+
+    sm = ScalarMappable(norm=norm, cmap=style.LEAD_CMAP)
+    span = norm.vmax - norm.vmin
+    tick_step = 3 if span <= 24 else 6 if span <= 48 else 12 if span <= 120 else 24
+    ticks = np.arange(np.ceil(norm.vmin / tick_step) * tick_step, norm.vmax + 1e-9, tick_step)
+    colour_key(fig, sm, "lead time [h]", ticks=ticks)
+    handles = [Line2D([0], [0], color=style.INK, linestyle=dashes[k], linewidth=1.6,
+                      label=style.KIND_LABELS[k]) for k in ("cold", "warm", "quasi-stationary")]
+    ax.legend(handles=handles, loc="upper left", fontsize=style.FONT["small"],
+              framealpha=0.92).set_zorder(20)
+    t0, t1 = times[0], times[-1]
+    style.stamp(fig, run=ds.attrs.get("run", "unnamed run"), valid_time=(t0, t1),
+                lead_h=(style.lead_hours(ds, t0), style.lead_hours(ds, t1)), source=ds,
+                extra=f"Front lines at {level:g} hPa through the run, coloured by lead time"
+                + (f" (member {member})" if member is not None else "")
+                + ("; #n = track" if last else ""))
+    fig._frontshift.update(kind="fronts_overview", fronts=len(chosen), level=level)
+    return fig
