@@ -891,6 +891,19 @@ def _column_args(dim, *arrays):
     return False, int(dim)
 
 
+def _profile_like(x, t, dim, what):
+    """Turn a 1-D numpy profile (heights, pressures) into a DataArray on the vertical dim."""
+    if not _is_xr(t) or _is_xr(x) or np.ndim(x) == 0:
+        return x
+    arr = np.asarray(x)
+    if arr.ndim == 1 and isinstance(dim, str) and dim in t.dims and arr.size == t.sizes[dim]:
+        return xr.DataArray(arr, dims=(dim,))
+    raise InputError(
+        f"{what}: numpy array of shape {arr.shape} beside xarray temperature; expected a "
+        f"DataArray or a 1-D array of {t.sizes.get(dim, '?')} values along '{dim}'"
+    )
+
+
 def _sorted_columns(t, z):
     """Move the vertical axis last and sort each column by height (NaNs last)."""
     order = np.argsort(np.where(np.isfinite(z), z, np.inf), axis=-1, kind="stable")
@@ -981,6 +994,7 @@ def freezing_level(t, z, *, dim="level"):
     >>> float(freezing_level(np.array([283.15, 273.15 - 5.0]), np.array([0.0, 1500.0])))
     1000.0
     """
+    z = _profile_like(z, t, dim, "heights")
     return _profile_apply(
         _freezing_level_kernel,
         (t, z),
@@ -1011,10 +1025,8 @@ def wet_bulb_freezing_level(t, td, z, p, *, dim="level"):
         Height [m]; rules as in :func:`freezing_level` applied to the
         wet-bulb temperature (:func:`wet_bulb_temperature`).
     """
-    if _is_xr(t) or _is_xr(td):
-        tw = wet_bulb_temperature(t, td, p)
-    else:
-        tw = wet_bulb_temperature(t, td, p)
+    p = _profile_like(p, t, dim, "pressure")
+    tw = wet_bulb_temperature(t, td, p)
     out = freezing_level(tw, z, dim=dim)
     if isinstance(out, xr.DataArray):
         out.name = "wet_bulb_freezing_level_m"
@@ -1103,6 +1115,7 @@ def warm_layer_aloft(t, z, *, dim="level", t_surface=None, z_surface=None):
         at the ground is not below 0 C, where no warm layer lies above it,
         or where the warm layer reaches the top of the data.
     """
+    z = _profile_like(z, t, dim, "heights")
     arrays = [t, z]
     if t_surface is not None:
         arrays.append(t_surface)

@@ -670,3 +670,18 @@ def test_extreme_input_is_solved_not_garbage():
         thermo.equivalent_potential_temperature(t, t - 20.0, p),
         rtol=1e-6,
     )
+
+
+def test_profiles_accept_plain_level_arrays_beside_xarray():
+    # canonical fields with heights/pressures given as plain 1-D arrays along 'level'
+    z = np.array([100.0, 1500.0, 3000.0])
+    p = np.array([1000.0, 850.0, 700.0])
+    cols = np.stack([_linear_profile(c, 6.5, z) for c in (3.0, 9.0)])  # (x, level)
+    t = xr.DataArray(cols.T, dims=("level", "x"), coords={"level": p})
+    fl = thermo.freezing_level(t, z)
+    assert fl.dims == ("x",)
+    np.testing.assert_allclose(fl.values, [3.0 / 6.5 * 1000.0, 9.0 / 6.5 * 1000.0], atol=1e-6)
+    wb = thermo.wet_bulb_freezing_level(t, t - 2.0, z, p)
+    assert wb.dims == ("x",) and np.all(wb.values < fl.values)
+    with pytest.raises(InputError, match="1-D array of 3 values along 'level'"):
+        thermo.freezing_level(t, z[:2])
