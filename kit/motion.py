@@ -698,9 +698,15 @@ def _rule_factor(kind, vg_n):
     return RULE_FACTOR["warm"] if vg_n > 0 else RULE_FACTOR["cold"]
 
 
-def _speed_flag(tracked, wind, rule, frac, qs):
-    """Plain-words hint where the three speeds disagree [m s-1]; '' where they agree."""
+def _speed_flag(tracked, wind, rule, frac, qs, kind=None):
+    """Plain-words hint where the three speeds disagree [m s-1]; '' where they agree.
+
+    The track is compared with the wind times the rule factor of the front's
+    kind (a warm front moving at about 2/3 of the normal wind is normal).
+    """
     hints = []
+    if np.isfinite(wind):
+        wind = _rule_factor(kind, wind) * wind
     floor = 2.5  # m/s (about 5 kt): differences below it are not worth a flag
 
     def differ(a, b):
@@ -765,7 +771,10 @@ def speeds_three_ways(
         Air density for the isobar rule [kg m-3].
     disagree_frac : float
         Two speeds disagree when they differ by more than this fraction of the
-        larger one (and by more than 2.5 m/s) [1].
+        larger one (and by more than 2.5 m/s) [1]. The tracked speed is held
+        against the steering wind times the rule factor (2/3 for a warm front,
+        1 for a cold one: common practice, no source), since a warm front
+        moving at two thirds of the wind is the normal case, not a warning.
     qs_speed_ms : float
         Quasi-stationary threshold [m s-1] (1.5 m/s, Berry et al. 2011, from
         memory).
@@ -843,7 +852,9 @@ def speeds_three_ways(
         fr.props["speed_geostrophic_normal_ms"] = _json_float(vg_n)
         fr.props["speed_geostrophic_rule_ms"] = _json_float(rule)
         fr.props["speed_rule_source"] = rule_source
-        fr.props["speed_flag"] = _speed_flag(tracked, wind, rule, disagree_frac, qs_speed_ms)
+        fr.props["speed_flag"] = _speed_flag(
+            tracked, wind, rule, disagree_frac, qs_speed_ms, fr.kind
+        )
     return fronts
 
 
