@@ -51,7 +51,7 @@ import xarray as xr
 
 from kit import CAUTION
 from kit.errors import InputError
-from kit.sites import _local_en, grid_position, read_sites
+from kit.sites import _extent_text, _local_en, grid_position, read_sites
 
 __all__ = [
     "CONTRACT_COLUMNS",
@@ -70,20 +70,52 @@ __all__ = [
 
 #: the arrival table columns every product carries (DESIGN.md)
 CONTRACT_COLUMNS = [
-    "site", "front_kind", "passage_utc", "speed_kt", "precip_start_utc", "precip_end_utc",
-    "wind_before_deg", "wind_after_deg", "wind_turn_deg", "temp_change_c",
-    "freezing_level_before_m", "freezing_level_after_m", "spread_h",
+    "site",
+    "front_kind",
+    "passage_utc",
+    "speed_kt",
+    "precip_start_utc",
+    "precip_end_utc",
+    "wind_before_deg",
+    "wind_after_deg",
+    "wind_turn_deg",
+    "temp_change_c",
+    "freezing_level_before_m",
+    "freezing_level_after_m",
+    "spread_h",
 ]
 
 #: further columns, after the contract ones
 EXTRA_COLUMNS = [
-    "run", "member", "track", "level_hpa", "extrapolated", "surface_offset_km",
-    "passage_earliest_utc", "passage_median_utc", "passage_latest_utc", "runs_with_passage",
-    "precip_total_mm", "precip_peak_mm_h", "wind_before_kt", "wind_after_kt",
-    "dewpoint_change_c", "thetaw_change_k", "wet_bulb_freezing_level_before_m",
-    "wet_bulb_freezing_level_after_m", "cloud_base_before_ft", "cloud_base_min_ft",
-    "cloud_base_min_utc", "fzra_start_utc", "fzra_end_utc", "fzra_warm_layer_max_c",
-    "snow_risk", "rule_rain_what", "rule_rain_from_utc", "rule_rain_to_utc", "note",
+    "run",
+    "member",
+    "track",
+    "level_hpa",
+    "extrapolated",
+    "surface_offset_km",
+    "passage_earliest_utc",
+    "passage_median_utc",
+    "passage_latest_utc",
+    "runs_with_passage",
+    "precip_total_mm",
+    "precip_peak_mm_h",
+    "wind_before_kt",
+    "wind_after_kt",
+    "dewpoint_change_c",
+    "thetaw_change_k",
+    "wet_bulb_freezing_level_before_m",
+    "wet_bulb_freezing_level_after_m",
+    "cloud_base_before_ft",
+    "cloud_base_min_ft",
+    "cloud_base_min_utc",
+    "fzra_start_utc",
+    "fzra_end_utc",
+    "fzra_warm_layer_max_c",
+    "snow_risk",
+    "rule_rain_what",
+    "rule_rain_from_utc",
+    "rule_rain_to_utc",
+    "note",
 ]
 
 #: precipitation rate that counts as "raining" [mm h-1] (common practice, no source)
@@ -176,16 +208,33 @@ def _thermo():
             return out.reshape(shape)
 
         def rh(t, td):
-            return _pt(lambda a, b: mpcalc.relative_humidity_from_dewpoint(
-                a * units.K, b * units.K).m_as(""), t, td)
+            return _pt(
+                lambda a, b: mpcalc.relative_humidity_from_dewpoint(a * units.K, b * units.K).m_as(
+                    ""
+                ),
+                t,
+                td,
+            )
 
         def tw(t, td, p):
-            return _pt(lambda a, b, c: mpcalc.wet_bulb_temperature(
-                c * units.hPa, a * units.K, b * units.K).m_as("K"), t, td, p)
+            return _pt(
+                lambda a, b, c: mpcalc.wet_bulb_temperature(
+                    c * units.hPa, a * units.K, b * units.K
+                ).m_as("K"),
+                t,
+                td,
+                p,
+            )
 
         def thw(t, td, p):
-            return _pt(lambda a, b, c: mpcalc.wet_bulb_potential_temperature(
-                c * units.hPa, a * units.K, b * units.K).m_as("K"), t, td, p)
+            return _pt(
+                lambda a, b, c: mpcalc.wet_bulb_potential_temperature(
+                    c * units.hPa, a * units.K, b * units.K
+                ).m_as("K"),
+                t,
+                td,
+                p,
+            )
 
         return {"rh": rh, "tw": tw, "thw": thw}
 
@@ -211,7 +260,10 @@ def _cross(z0, z1, x0, x1, level):
 
 
 def _highest_zero(z, tc):
-    """Height of the highest 0 C crossing [m]; the ground when all sub-zero; NaN if warm to the top."""
+    """Return the height of the highest 0 C crossing [m].
+
+    The ground when the column is sub-zero throughout; NaN when above 0 C to the top.
+    """
     if z.size == 0:
         return np.nan
     if np.all(tc <= 0.0):
@@ -237,7 +289,7 @@ def _lowest_saturated(z, rh, threshold):
 
 
 def _warm_layer(z, tc):
-    """A layer above 0 C aloft over sub-zero air at the ground.
+    """Find a layer above 0 C aloft over sub-zero air at the ground.
 
     Returns (base_m, top_m, max_c, cold_min_c), NaN where there is none.
     """
@@ -265,7 +317,8 @@ def _site_fields(site):
         lat, lon = float(site["lat"]), float(site["lon"])
     except (KeyError, TypeError, ValueError):
         raise InputError(
-            f"site {site!r}: expected a mapping with name, lat, lon[, elevation_m] (kit.sites.read_sites row)"
+            f"site {site!r}: expected a mapping with name, lat, lon[, elevation_m] "
+            "(a kit.sites.read_sites row)"
         ) from None
     elev = site.get("elevation_m", np.nan) if hasattr(site, "get") else np.nan
     elev = float(elev) if elev is not None and np.isfinite(float(elev)) else np.nan
@@ -277,7 +330,9 @@ def _dims(ds):
         return "lat", "lon"
     if "y" in ds.dims and "x" in ds.dims:
         return "y", "x"
-    raise InputError("dataset: no lat/lon or y/x grid dimensions; expected the canonical dataset of kit.open_run")
+    raise InputError(
+        "dataset: no lat/lon or y/x grid dimensions; expected the canonical dataset of kit.open_run"
+    )
 
 
 def _bilinear(ds, row, col):
@@ -294,8 +349,12 @@ def _bilinear(ds, row, col):
         i0 = min(i0, nx - 2) if nx > 1 else 0
         i1, wx = (i0 + 1 if nx > 1 else 0), (col - i0 if nx > 1 else 0.0)
     j1 = j0 + 1 if ny > 1 else 0
-    corners = [(j0, i0, (1 - wy) * (1 - wx)), (j0, i1, (1 - wy) * wx),
-               (j1, i0, wy * (1 - wx)), (j1, i1, wy * wx)]
+    corners = [
+        (j0, i0, (1 - wy) * (1 - wx)),
+        (j0, i1, (1 - wy) * wx),
+        (j1, i0, wy * (1 - wx)),
+        (j1, i1, wy * wx),
+    ]
     drop = [c for c in ds.coords if ydim in ds[c].dims or xdim in ds[c].dims]
     out = {}
     for name, da in ds.data_vars.items():
@@ -359,16 +418,16 @@ def site_series(ds, site):
     name, lat, lon, elev = _site_fields(site)
     row, col = grid_position(ds, lat, lon)
     if not (np.isfinite(row) and np.isfinite(col)):
-        glat, glon = np.asarray(ds["lat"].values), np.asarray(ds["lon"].values)
         raise InputError(
-            f"site '{name}' ({lat:.3f}, {lon:.3f}) lies off the grid of {ds.attrs.get('run', 'the run')} "
-            f"(lat {np.nanmin(glat):.2f}..{np.nanmax(glat):.2f}, lon {np.nanmin(glon):.2f}..{np.nanmax(glon):.2f}); "
+            f"site '{name}' ({lat:.3f}, {lon:.3f}) lies off the grid of "
+            f"{ds.attrs.get('run', 'the run')} ({_extent_text(ds)}); "
             "expected a site inside the model domain"
         )
     for var in ("t", "td", "z"):
         if var not in ds:
             raise InputError(
-                f"run {ds.attrs.get('run', '?')}: no variable '{var}'; expected the canonical dataset (DEVELOPERS.md)"
+                f"run {ds.attrs.get('run', '?')}: no variable '{var}'; "
+                "expected the canonical dataset (DEVELOPERS.md)"
             )
     s = _bilinear(ds, row, col)
     assumed = not np.isfinite(elev)
@@ -397,11 +456,18 @@ def site_series(ds, site):
         p_sfc = xr.apply_ufunc(_psfc, z, input_core_dims=[["level"]], vectorize=True)
     s["p_sfc"] = p_sfc.assign_attrs(units="hPa", long_name="surface pressure at the site")
     p3 = s["level"].astype(float).broadcast_like(t).transpose(*t.dims)
-    s["rh"] = xr.DataArray(th["rh"](t.values, td.values), dims=t.dims, coords=t.coords, attrs={"units": "1"})
-    s["tw"] = xr.DataArray(th["tw"](t.values, td.values, p3.values), dims=t.dims, coords=t.coords,
-                           attrs={"units": "K"})
-    s["theta_w"] = xr.DataArray(th["thw"](t.values, td.values, p3.values), dims=t.dims,
-                                coords=t.coords, attrs={"units": "K"})
+    s["rh"] = xr.DataArray(
+        th["rh"](t.values, td.values), dims=t.dims, coords=t.coords, attrs={"units": "1"}
+    )
+    s["tw"] = xr.DataArray(
+        th["tw"](t.values, td.values, p3.values), dims=t.dims, coords=t.coords, attrs={"units": "K"}
+    )
+    s["theta_w"] = xr.DataArray(
+        th["thw"](t.values, td.values, p3.values),
+        dims=t.dims,
+        coords=t.coords,
+        attrs={"units": "K"},
+    )
     has_sfc = "t2m" in s and "td2m" in s
     if has_sfc:
         s["rh2m"] = (s["t2m"].dims, th["rh"](s["t2m"].values, s["td2m"].values))
@@ -418,8 +484,15 @@ def site_series(ds, site):
     t_s = s["t2m"].transpose(*lead).values - _T0 if has_sfc else nan
     tw_s = s["tw2m"].transpose(*lead).values - _T0 if has_sfc else nan
     rh_s = s["rh2m"].transpose(*lead).values if has_sfc else nan
-    names = ["freezing_level_m", "wet_bulb_freezing_level_m", "cloud_base_m",
-             "warm_layer_base_m", "warm_layer_top_m", "warm_layer_max_c", "cold_layer_min_c"]
+    names = [
+        "freezing_level_m",
+        "wet_bulb_freezing_level_m",
+        "cloud_base_m",
+        "warm_layer_base_m",
+        "warm_layer_top_m",
+        "warm_layer_max_c",
+        "cold_layer_min_c",
+    ]
     res = {k: np.full(shape, np.nan) for k in names}
     for idx in np.ndindex(*shape):
         zc, tc = _column(zz[idx], tt[idx], z_sfc, t_s[idx])
@@ -431,10 +504,15 @@ def site_series(ds, site):
         b, tp, mx, cm = _warm_layer(zc, tc)
         res["warm_layer_base_m"][idx], res["warm_layer_top_m"][idx] = b, tp
         res["warm_layer_max_c"][idx], res["cold_layer_min_c"][idx] = mx, cm
-    units = {"freezing_level_m": "m above mean sea level", "wet_bulb_freezing_level_m":
-             "m above mean sea level", "cloud_base_m": "m above site", "warm_layer_base_m":
-             "m above mean sea level", "warm_layer_top_m": "m above mean sea level",
-             "warm_layer_max_c": "degC", "cold_layer_min_c": "degC"}
+    units = {
+        "freezing_level_m": "m above mean sea level",
+        "wet_bulb_freezing_level_m": "m above mean sea level",
+        "cloud_base_m": "m above site",
+        "warm_layer_base_m": "m above mean sea level",
+        "warm_layer_top_m": "m above mean sea level",
+        "warm_layer_max_c": "degC",
+        "cold_layer_min_c": "degC",
+    }
     for k in names:
         s[k] = (lead, res[k], {"units": units[k]})
     if "u10" in s and "v10" in s:
@@ -444,9 +522,17 @@ def site_series(ds, site):
         u, v = s["u"].isel(level=above), s["v"].isel(level=above)
     s["wind_dir_deg"] = xr.apply_ufunc(_wind_dir, u, v).assign_attrs(units="degrees (from)")
     s["wind_speed_ms"] = np.hypot(u, v).assign_attrs(units="m s-1")
-    s.attrs.update(site=name, lat=lat, lon=lon, elevation_m=z_sfc, elevation_assumed=int(assumed),
-                   run=str(ds.attrs.get("run", "")), source=str(ds.attrs.get("source", "")),
-                   grid_row=row, grid_col=col)
+    s.attrs.update(
+        site=name,
+        lat=lat,
+        lon=lon,
+        elevation_m=z_sfc,
+        elevation_assumed=int(assumed),
+        run=str(ds.attrs.get("run", "")),
+        source=str(ds.attrs.get("source", "")),
+        grid_row=row,
+        grid_col=col,
+    )
     return s
 
 
@@ -475,8 +561,14 @@ def _nearest_on_line(x, y):
     else:
         frac = fc[k]
     seglen = math.sqrt(l2[k])
-    return (ax[k] + frac * dx[k], ay[k] + frac * dy[k], k, frac, over,
-            (dx[k] / seglen, dy[k] / seglen))
+    return (
+        ax[k] + frac * dx[k],
+        ay[k] + frac * dy[k],
+        k,
+        frac,
+        over,
+        (dx[k] / seglen, dy[k] / seglen),
+    )
 
 
 def signed_distance_km(front, lat, lon):
@@ -523,8 +615,12 @@ def signed_distance_km(front, lat, lon):
     else:
         ex, ey = px, py
     bearing = float(np.mod(np.degrees(np.arctan2(ex, ey)), 360.0))
-    return {"d_km": float(d), "overshoot_km": over, "bearing_deg": bearing,
-            "end_distance_km": float(math.hypot(ex, ey))}
+    return {
+        "d_km": float(d),
+        "overshoot_km": over,
+        "bearing_deg": bearing,
+        "end_distance_km": float(math.hypot(ex, ey)),
+    }
 
 
 _COMPASS = ["N", "NE", "E", "SE", "S", "SW", "W", "NW"]
@@ -593,14 +689,21 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
                 n, _ = _slope_1_in(f)
                 if np.isfinite(n):
                     zl = zlev.sel(level=float(f.level_hpa), method="nearest")
-                    zl = float(zl.interp(time=np.datetime64(f.valid_time, "ns")).values) \
-                        if zl.sizes.get("time", 1) > 1 else float(zl.values.ravel()[0])
+                    zl = (
+                        float(zl.interp(time=np.datetime64(f.valid_time, "ns")).values)
+                        if zl.sizes.get("time", 1) > 1
+                        else float(zl.values.ravel()[0])
+                    )
                     if np.isfinite(zl):
                         shift = max(zl - elev, 0.0) * n / 1000.0
             g["d_km"] += shift
             g["shift"] = shift
             # a split track may hold several lines at one time: keep the nearest
-            if h not in by_time or abs(g["d_km"]) + g["overshoot_km"] < abs(by_time[h][1]["d_km"]) + by_time[h][1]["overshoot_km"]:
+            if (
+                h not in by_time
+                or abs(g["d_km"]) + g["overshoot_km"]
+                < abs(by_time[h][1]["d_km"]) + by_time[h][1]["overshoot_km"]
+            ):
                 by_time[h] = (f, g)
         times = sorted(by_time)
         steps = [(h, *by_time[h]) for h in times]
@@ -625,9 +728,18 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
             note = "quasi-stationary: timing uncertain" if kind == "quasi-stationary" else ""
             if f0.kind != f1.kind:
                 note = (note + "; " if note else "") + f"type changes {f0.kind} -> {f1.kind}"
-            out.append({"track": tid, "front_kind": kind, "passage": tp,
-                        "speed_kt": rate / _KMH_PER_KT, "extrapolated": False,
-                        "surface_offset_km": shift, "level_hpa": f0.level_hpa, "note": note})
+            out.append(
+                {
+                    "track": tid,
+                    "front_kind": kind,
+                    "passage": tp,
+                    "speed_kt": rate / _KMH_PER_KT,
+                    "extrapolated": False,
+                    "surface_offset_km": shift,
+                    "level_hpa": f0.level_hpa,
+                    "note": note,
+                }
+            )
         if steps and not found:
             hK, fK, gK = steps[-1]
             if len(steps) >= 2:
@@ -644,23 +756,41 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
                     if gK["overshoot_km"] > along_tolerance_km:
                         out.append(_miss(tid, fK.kind, fK, gK, tp, gK["shift"], extrap=True))
                     else:
-                        out.append({"track": tid, "front_kind": fK.kind, "passage": tp,
-                                    "speed_kt": abs(rate) / _KMH_PER_KT, "extrapolated": True,
-                                    "surface_offset_km": gK["shift"], "level_hpa": fK.level_hpa,
-                                    "note": f"extrapolated {dt:.1f} h past the last step at the tracked speed"})
+                        out.append(
+                            {
+                                "track": tid,
+                                "front_kind": fK.kind,
+                                "passage": tp,
+                                "speed_kt": abs(rate) / _KMH_PER_KT,
+                                "extrapolated": True,
+                                "surface_offset_km": gK["shift"],
+                                "level_hpa": fK.level_hpa,
+                                "note": f"extrapolated {dt:.1f} h past the last step "
+                                "at the tracked speed",
+                            }
+                        )
     out.sort(key=lambda r: (np.nan_to_num(r["passage"], nan=1e18), r["track"]))
     return out
 
 
 def _miss(tid, kind, front, g, tp, shift, extrap=False):
     side = _compass(g["bearing_deg"])
-    note = (f"{kind} front passes {g['end_distance_km']:.0f} km {side} of site "
-            f"(line ends there) near {format_utc(tp)}; no passage")
+    note = (
+        f"{kind} front passes {g['end_distance_km']:.0f} km {side} of site "
+        f"(line ends there) near {format_utc(tp)}; no passage"
+    )
     if extrap:
         note += " (extrapolated)"
-    return {"track": tid, "front_kind": kind, "passage": np.nan, "speed_kt": np.nan,
-            "extrapolated": extrap, "surface_offset_km": shift, "level_hpa": front.level_hpa,
-            "note": note}
+    return {
+        "track": tid,
+        "front_kind": kind,
+        "passage": np.nan,
+        "speed_kt": np.nan,
+        "extrapolated": extrap,
+        "surface_offset_km": shift,
+        "level_hpa": front.level_hpa,
+        "note": note,
+    }
 
 
 # ------------------------------------------------------------ weather sequence
@@ -691,8 +821,11 @@ def _spell(series_h, rate, h, threshold, before_h, after_h):
     if cand.size == 0:
         return None
     # distance of each wet step's interval from h
-    dist = np.where((start_i[cand] <= h) & (series_h[cand] >= h), 0.0,
-                    np.minimum(abs(start_i[cand] - h), abs(series_h[cand] - h)))
+    dist = np.where(
+        (start_i[cand] <= h) & (series_h[cand] >= h),
+        0.0,
+        np.minimum(abs(start_i[cand] - h), abs(series_h[cand] - h)),
+    )
     k = cand[int(np.argmin(dist))]
     a = b = k
     while a - 1 >= 0 and wet[a - 1]:
@@ -706,7 +839,7 @@ def _spell(series_h, rate, h, threshold, before_h, after_h):
 
 
 def _block(series_h, flag, h, lo_h, hi_h):
-    """Contiguous block of True steps in [h - lo_h, h + hi_h] nearest to h: (first, last) or None."""
+    """Find the block of True steps in [h - lo_h, h + hi_h] nearest to h: (first, last) or None."""
     inwin = (series_h >= h - lo_h) & (series_h <= h + hi_h)
     cand = np.nonzero(flag & inwin)[0]
     if cand.size == 0:
@@ -724,8 +857,16 @@ def _round(x, nd=0):
     return round(float(x), nd) if x is not None and np.isfinite(x) else np.nan
 
 
-def weather_sequence(series, passage_h, front_kind, speed_kt, *, window_h=3.0,
-                     precip_threshold_mmh=PRECIP_THRESHOLD_MMH, level_hpa=850.0):
+def weather_sequence(
+    series,
+    passage_h,
+    front_kind,
+    speed_kt,
+    *,
+    window_h=3.0,
+    precip_threshold_mmh=PRECIP_THRESHOLD_MMH,
+    level_hpa=850.0,
+):
     """Weather at a site around one passage, from its model series.
 
     Parameters
@@ -774,7 +915,9 @@ def weather_sequence(series, passage_h, front_kind, speed_kt, *, window_h=3.0,
     if np.isfinite(db) and np.isfinite(da_):
         turn = (da_ - db + 180.0) % 360.0 - 180.0
     row["wind_before_deg"] = _round(360.0 if round(db) == 0 else db) if np.isfinite(db) else np.nan
-    row["wind_after_deg"] = _round(360.0 if round(da_) == 0 else da_) if np.isfinite(da_) else np.nan
+    row["wind_after_deg"] = (
+        _round(360.0 if round(da_) == 0 else da_) if np.isfinite(da_) else np.nan
+    )
     row["wind_turn_deg"] = _round(turn)
     row["wind_before_kt"] = _round(sb * _KT_PER_MS)
     row["wind_after_kt"] = _round(sa * _KT_PER_MS)
@@ -782,10 +925,11 @@ def weather_sequence(series, passage_h, front_kind, speed_kt, *, window_h=3.0,
     row["temp_change_c"] = _round(at("t2m", ha) - at("t2m", hb), 1)
     row["dewpoint_change_c"] = _round(at("td2m", ha) - at("td2m", hb), 1)
     thw = series["theta_w"].sel(level=float(level_hpa), method="nearest")
-    row["thetaw_change_k"] = _round(
-        _interp(th, thw.values, ha) - _interp(th, thw.values, hb), 1)
-    for key, var in (("freezing_level", "freezing_level_m"),
-                     ("wet_bulb_freezing_level", "wet_bulb_freezing_level_m")):
+    row["thetaw_change_k"] = _round(_interp(th, thw.values, ha) - _interp(th, thw.values, hb), 1)
+    for key, var in (
+        ("freezing_level", "freezing_level_m"),
+        ("wet_bulb_freezing_level", "wet_bulb_freezing_level_m"),
+    ):
         row[f"{key}_before_m"] = _round(at(var, hb), -1)
         row[f"{key}_after_m"] = _round(at(var, ha), -1)
     # precipitation
@@ -797,8 +941,9 @@ def weather_sequence(series, passage_h, front_kind, speed_kt, *, window_h=3.0,
         row["precip_start_utc"], row["precip_end_utc"] = format_utc(sp[0]), format_utc(sp[1])
         row["precip_total_mm"], row["precip_peak_mm_h"] = _round(sp[2], 1), _round(sp[3], 1)
     else:
-        row.update(precip_start_utc="", precip_end_utc="", precip_total_mm=np.nan,
-                   precip_peak_mm_h=np.nan)
+        row.update(
+            precip_start_utc="", precip_end_utc="", precip_total_mm=np.nan, precip_peak_mm_h=np.nan
+        )
     # cloud base proxy [ft above site]
     cb = np.asarray(series["cloud_base_m"].values, dtype=float)
     row["cloud_base_before_ft"] = _round(at("cloud_base_m", hb) * _FT_PER_M, -2)
@@ -824,10 +969,14 @@ def weather_sequence(series, passage_h, front_kind, speed_kt, *, window_h=3.0,
     if sp:
         wet = (th > sp[0]) & (th <= sp[1] + 1e-9)
         wb = np.asarray(series["wet_bulb_freezing_level_m"].values, dtype=float) - float(
-            series.attrs.get("elevation_m", 0.0))
+            series.attrs.get("elevation_m", 0.0)
+        )
         low = wet & np.isfinite(wb) & (wb < SNOW_WBFL_M)
-        row["snow_risk"] = (f"yes from {format_utc(series['time'].values[np.nonzero(low)[0][0]])}"
-                            if low.any() else "no")
+        row["snow_risk"] = (
+            f"yes from {format_utc(series['time'].values[np.nonzero(low)[0][0]])}"
+            if low.any()
+            else "no"
+        )
     # rule of thumb (common practice, no source)
     row.update(rule_rain_what="", rule_rain_from_utc="", rule_rain_to_utc="")
     if np.isfinite(speed_kt) and speed_kt >= 5.0:
@@ -868,7 +1017,12 @@ def add_spread(table, *, max_match_h=24.0):
         The table with the spread columns filled in.
     """
     t = table.copy()
-    for c in ("passage_earliest_utc", "passage_median_utc", "passage_latest_utc", "runs_with_passage"):
+    for c in (
+        "passage_earliest_utc",
+        "passage_median_utc",
+        "passage_latest_utc",
+        "runs_with_passage",
+    ):
         t[c] = ""
     t["spread_h"] = np.nan
     src = list(zip(t["run"].astype(str), t["member"].astype(str), strict=True))
@@ -876,7 +1030,9 @@ def add_spread(table, *, max_match_h=24.0):
     n_src = len(dict.fromkeys(t["_src"]))
     t["_group"] = -1
     gid = 0
-    for (_site, _kind), sub in t[np.isfinite(t["_passage_h"])].groupby(["site", "front_kind"], sort=False):
+    for (_site, _kind), sub in t[np.isfinite(t["_passage_h"])].groupby(
+        ["site", "front_kind"], sort=False
+    ):
         groups = []  # list of dict(src -> (index, time))
         for s_, rows in sub.groupby("_src", sort=False):
             used = set()
@@ -925,17 +1081,32 @@ def _fronts_for(fronts_by_run, i, ds, level, settings):
     if isinstance(fronts_by_run, dict):
         key = ds.attrs.get("run")
         if key not in fronts_by_run:
-            raise InputError(f"fronts_by_run: no fronts for run '{key}'; expected a key per run label")
+            raise InputError(
+                f"fronts_by_run: no fronts for run '{key}'; expected a key per run label"
+            )
         return fronts_by_run[key]
     if i < len(fronts_by_run):
         return fronts_by_run[i]
-    raise InputError(f"fronts_by_run: {len(fronts_by_run)} lists for more runs; expected one list per run")
+    raise InputError(
+        f"fronts_by_run: {len(fronts_by_run)} lists for more runs; expected one list per run"
+    )
 
 
-def arrival_table(runs, sites, fronts_by_run=None, *, level=850.0, surface=True, horizon_h=12.0,
-                  window_h=3.0, along_tolerance_km=100.0,
-                  precip_threshold_mmh=PRECIP_THRESHOLD_MMH, settings=None, max_match_h=24.0,
-                  return_series=False):
+def arrival_table(
+    runs,
+    sites,
+    fronts_by_run=None,
+    *,
+    level=850.0,
+    surface=True,
+    horizon_h=12.0,
+    window_h=3.0,
+    along_tolerance_km=100.0,
+    precip_threshold_mmh=PRECIP_THRESHOLD_MMH,
+    settings=None,
+    max_match_h=24.0,
+    return_series=False,
+):
     """Site arrival table: one row per site and front passage (per run and member).
 
     Parameters
@@ -989,34 +1160,61 @@ def arrival_table(runs, sites, fronts_by_run=None, *, level=850.0, surface=True,
         last_h = float(_hours(ds["time"].values[-1]))
         first_h = float(_hours(ds["time"].values[0]))
         for member in _members(ds):
-            mfronts = [f for f in fronts if member is None or f.member is None or int(f.member) == member]
+            mfronts = [
+                f for f in fronts if member is None or f.member is None or int(f.member) == member
+            ]
             dsm = ds.sel(member=member) if member is not None else ds
             for _, site in sites.iterrows():
                 series = site_series(dsm, site)
                 store[(run, member, site["name"])] = series
-                found = find_passages(mfronts, series, surface=surface, horizon_h=horizon_h,
-                                      along_tolerance_km=along_tolerance_km)
+                found = find_passages(
+                    mfronts,
+                    series,
+                    surface=surface,
+                    horizon_h=horizon_h,
+                    along_tolerance_km=along_tolerance_km,
+                )
                 base = {"site": site["name"], "run": run, "member": member}
                 if not found:
-                    rows.append({**base, "front_kind": "", "_passage_h": np.nan, "note":
-                                 f"no front passage {format_utc(first_h)} to "
-                                 f"{format_utc(last_h + horizon_h)}"})
+                    rows.append(
+                        {
+                            **base,
+                            "front_kind": "",
+                            "_passage_h": np.nan,
+                            "note": f"no front passage {format_utc(first_h)} to "
+                            f"{format_utc(last_h + horizon_h)}",
+                        }
+                    )
                     continue
                 for p in found:
-                    r = {**base, "front_kind": p["front_kind"], "track": p["track"],
-                         "level_hpa": p["level_hpa"], "extrapolated": bool(p["extrapolated"]),
-                         "surface_offset_km": _round(p["surface_offset_km"]),
-                         "_passage_h": p["passage"], "note": p["note"]}
+                    r = {
+                        **base,
+                        "front_kind": p["front_kind"],
+                        "track": p["track"],
+                        "level_hpa": p["level_hpa"],
+                        "extrapolated": bool(p["extrapolated"]),
+                        "surface_offset_km": _round(p["surface_offset_km"]),
+                        "_passage_h": p["passage"],
+                        "note": p["note"],
+                    }
                     if np.isfinite(p["passage"]):
                         r["passage_utc"] = format_utc(p["passage"])
                         r["speed_kt"] = _round(p["speed_kt"])
-                        r.update(weather_sequence(
-                            series, p["passage"], p["front_kind"], p["speed_kt"],
-                            window_h=window_h, precip_threshold_mmh=precip_threshold_mmh,
-                            level_hpa=p["level_hpa"] or level))
+                        r.update(
+                            weather_sequence(
+                                series,
+                                p["passage"],
+                                p["front_kind"],
+                                p["speed_kt"],
+                                window_h=window_h,
+                                precip_threshold_mmh=precip_threshold_mmh,
+                                level_hpa=p["level_hpa"] or level,
+                            )
+                        )
                         if series.attrs.get("elevation_assumed"):
-                            r["note"] = (r["note"] + "; " if r["note"] else "") + \
-                                "site elevation not given: 0 m assumed"
+                            r["note"] = (
+                                r["note"] + "; " if r["note"] else ""
+                            ) + "site elevation not given: 0 m assumed"
                     rows.append(r)
     table = pd.DataFrame(rows)
     table = add_spread(table, max_match_h=max_match_h)
@@ -1025,18 +1223,30 @@ def arrival_table(runs, sites, fronts_by_run=None, *, level=850.0, surface=True,
             table[c] = ""
     order = {n: k for k, n in enumerate(sites["name"])}
     table["_site_order"] = table["site"].map(order)
-    table["_g"] = np.where(table["_group"] >= 0, table.groupby("_group")["_passage_h"].transform("min"),
-                           table["_passage_h"])
-    table = table.sort_values(["_site_order", "_g", "run", "member"], na_position="last",
-                              kind="stable")
+    table["_g"] = np.where(
+        table["_group"] >= 0,
+        table.groupby("_group")["_passage_h"].transform("min"),
+        table["_passage_h"],
+    )
+    table = table.sort_values(
+        ["_site_order", "_g", "run", "member"], na_position="last", kind="stable"
+    )
     table["member"] = table["member"].astype("Int64")
     table["track"] = pd.to_numeric(table["track"], errors="coerce").astype("Int64")
-    for c in [c for c in CONTRACT_COLUMNS + EXTRA_COLUMNS if c.endswith("_utc") or c in (
-            "site", "front_kind", "note", "snow_risk", "rule_rain_what", "runs_with_passage")]:
+    for c in [
+        c
+        for c in CONTRACT_COLUMNS + EXTRA_COLUMNS
+        if c.endswith("_utc")
+        or c in ("site", "front_kind", "note", "snow_risk", "rule_rain_what", "runs_with_passage")
+    ]:
         table[c] = table[c].fillna("").astype(str)
     table["extrapolated"] = table["extrapolated"].map(
-        lambda v: ("yes" if v else "no") if isinstance(v, (bool, np.bool_)) else "")
+        lambda v: ("yes" if v else "no") if isinstance(v, (bool, np.bool_)) else ""
+    )
     table = table[CONTRACT_COLUMNS + EXTRA_COLUMNS].reset_index(drop=True)
-    table.attrs.update(caution=CAUTION, runs=[str(ds.attrs.get("run", "")) for ds in runs],
-                       source="; ".join(str(ds.attrs.get("source", "")) for ds in runs))
+    table.attrs.update(
+        caution=CAUTION,
+        runs=[str(ds.attrs.get("run", "")) for ds in runs],
+        source="; ".join(str(ds.attrs.get("source", "")) for ds in runs),
+    )
     return (table, store) if return_series else table

@@ -34,14 +34,16 @@ def _number(text, what, where):
     try:
         value = float(text)
     except (TypeError, ValueError):
-        raise InputError(f"{where}: {what} '{text}' is not a number; expected degrees or metres") from None
+        raise InputError(
+            f"{where}: {what} '{text}' is not a number; expected degrees or metres"
+        ) from None
     if not math.isfinite(value):
         raise InputError(f"{where}: {what} '{text}' is not a finite number")
     return value
 
 
 def read_sites(path):
-    """Read a site list CSV (``name,lat,lon[,elevation_m]``).
+    r"""Read a site list CSV (``name,lat,lon[,elevation_m]``).
 
     Parameters
     ----------
@@ -66,13 +68,15 @@ def read_sites(path):
     --------
     >>> import tempfile, os
     >>> p = os.path.join(tempfile.mkdtemp(), "s.csv")
-    >>> _ = open(p, "w").write("name,lat,lon\\nBrackenholt,52.1,-3.4\\n")
+    >>> _ = open(p, "w").write("name,lat,lon\nBrackenholt,52.1,-3.4\n")
     >>> read_sites(p)[["name", "lat", "lon"]].values.tolist()
     [['Brackenholt', 52.1, -3.4]]
     """
     path = Path(path)
     if not path.is_file():
-        raise InputError(f"{path}: site file not found; expected a CSV file name,lat,lon[,elevation_m]")
+        raise InputError(
+            f"{path}: site file not found; expected a CSV file name,lat,lon[,elevation_m]"
+        )
     try:
         text = path.read_text(encoding="utf-8-sig")
     except (OSError, UnicodeDecodeError) as exc:
@@ -80,7 +84,9 @@ def read_sites(path):
     reader = csv.reader(io.StringIO(text))
     rows = [r for r in reader if any(cell.strip() for cell in r)]
     if not rows:
-        raise InputError(f"{path}: site file is empty; expected a header name,lat,lon[,elevation_m]")
+        raise InputError(
+            f"{path}: site file is empty; expected a header name,lat,lon[,elevation_m]"
+        )
     header = [h.strip().lower() for h in rows[0]]
     missing = [c for c in ("name", "lat", "lon") if c not in header]
     if missing:
@@ -122,7 +128,8 @@ def read_sites(path):
             elev = _number(rec["elevation_m"], "elevation_m", where)
             if not -500.0 <= elev <= 9000.0:
                 raise InputError(
-                    f"{where}: elevation_m {elev:g} out of range; expected metres above sea level (-500..9000)"
+                    f"{where}: elevation_m {elev:g} out of range; "
+                    "expected metres above sea level (-500..9000)"
                 )
         rec.update(name=name, lat=lat, lon=lon, elevation_m=elev)
         records.append(rec)
@@ -188,8 +195,18 @@ def _position_projected(lat2d, lon2d, lat, lon):
             py = ny_[j0 : j0 + 2, i0 : i0 + 2]
             s = t = 0.5
             for _ in range(20):
-                fx = (1 - s) * (1 - t) * px[0, 0] + s * (1 - t) * px[0, 1] + (1 - s) * t * px[1, 0] + s * t * px[1, 1]
-                fy = (1 - s) * (1 - t) * py[0, 0] + s * (1 - t) * py[0, 1] + (1 - s) * t * py[1, 0] + s * t * py[1, 1]
+                fx = (
+                    (1 - s) * (1 - t) * px[0, 0]
+                    + s * (1 - t) * px[0, 1]
+                    + (1 - s) * t * px[1, 0]
+                    + s * t * px[1, 1]
+                )
+                fy = (
+                    (1 - s) * (1 - t) * py[0, 0]
+                    + s * (1 - t) * py[0, 1]
+                    + (1 - s) * t * py[1, 0]
+                    + s * t * py[1, 1]
+                )
                 dxs = (1 - t) * (px[0, 1] - px[0, 0]) + t * (px[1, 1] - px[1, 0])
                 dxt = (1 - s) * (px[1, 0] - px[0, 0]) + s * (px[1, 1] - px[0, 1])
                 dys = (1 - t) * (py[0, 1] - py[0, 0]) + t * (py[1, 1] - py[1, 0])
@@ -250,7 +267,9 @@ def grid_position(ds, lat, lon):
     lat2d = np.asarray(ds["lat"].values, dtype=float)
     lon2d = np.asarray(ds["lon"].values, dtype=float)
     if lat2d.ndim != 2:
-        raise InputError("dataset: projected grid without 2-D lat/lon coordinates; expected lat(y, x), lon(y, x)")
+        raise InputError(
+            "dataset: projected grid without 2-D lat/lon coordinates; expected lat(y, x), lon(y, x)"
+        )
     return _position_projected(lat2d, lon2d, float(lat), float(lon))
 
 
@@ -258,7 +277,8 @@ def _extent_text(ds):
     lat = np.asarray(ds["lat"].values, dtype=float)
     lon = np.asarray(ds["lon"].values, dtype=float)
     return (
-        f"lat {np.nanmin(lat):.2f}..{np.nanmax(lat):.2f}, lon {np.nanmin(lon):.2f}..{np.nanmax(lon):.2f}"
+        f"lat {np.nanmin(lat):.2f}..{np.nanmax(lat):.2f}, "
+        f"lon {np.nanmin(lon):.2f}..{np.nanmax(lon):.2f}"
     )
 
 
@@ -286,7 +306,9 @@ def check_sites_on_grid(sites, ds):
     """
     for col in ("name", "lat", "lon"):
         if col not in getattr(sites, "columns", ()):
-            raise InputError(f"sites: no column '{col}'; expected a table from kit.sites.read_sites")
+            raise InputError(
+                f"sites: no column '{col}'; expected a table from kit.sites.read_sites"
+            )
     out = sites.copy()
     rows, cols = [], []
     run = ds.attrs.get("run", "the run")
@@ -294,7 +316,8 @@ def check_sites_on_grid(sites, ds):
         r, c = grid_position(ds, site["lat"], site["lon"])
         if not (np.isfinite(r) and np.isfinite(c)):
             raise InputError(
-                f"site '{site['name']}' ({site['lat']:.3f}, {site['lon']:.3f}) lies off the grid of "
+                f"site '{site['name']}' ({site['lat']:.3f}, {site['lon']:.3f}) "
+                "lies off the grid of "
                 f"{run} ({_extent_text(ds)}); expected a site inside the model domain"
             )
         rows.append(r)

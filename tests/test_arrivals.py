@@ -7,7 +7,6 @@ prescribed motion, not a number taken from invented data), [regression] the
 invented demo scenario (sample_grids/truth.json), labelled as such.
 """
 
-import json
 import math
 from pathlib import Path
 
@@ -22,7 +21,6 @@ from kit.arrivals import (
     _warm_layer,
     add_spread,
     arrival_table,
-    find_passages,
     format_utc,
     signed_distance_km,
     site_series,
@@ -36,19 +34,29 @@ LEVELS = np.array([1000.0, 925.0, 850.0, 700.0, 500.0])
 
 
 def std_height(p_hpa):
-    """ICAO standard-atmosphere height of a pressure level [m] (troposphere formula) [pub: ICAO 1993]."""
+    """ICAO standard-atmosphere height of a pressure level [m] (troposphere; ICAO 1993)."""
     return 44330.8 * (1.0 - (p_hpa / 1013.25) ** 0.190263)
 
 
 def front_lon(t_h, *, lon_site, lat_site, speed_ms, passage_h):
-    """Longitude of a meridional front moving east at ``speed_ms`` over the site at ``passage_h``."""
+    """Longitude of a meridional front moving east at ``speed_ms``; over the site at passage_h."""
     km = speed_ms * 3.6 * (t_h - passage_h)
     return lon_site + math.degrees(km / (R_KM * math.cos(math.radians(lat_site))))
 
 
-def make_run(*, kind="cold", lat_site=50.0, lon_site=0.0, speed_ms=10.0, passage_h=7.6,
-             hours=np.arange(0, 37, 3), run="2027-01-14T00Z", winter=False, members=None,
-             grid_step=0.5):
+def make_run(
+    *,
+    kind="cold",
+    lat_site=50.0,
+    lon_site=0.0,
+    speed_ms=10.0,
+    passage_h=7.6,
+    hours=None,
+    run="2027-01-14T00Z",
+    winter=False,
+    members=None,
+    grid_step=0.5,
+):
     """Synthetic canonical run: a meridional front (straight N-S) moving east.
 
     Cold front: cold air west (behind); warm front: cold air east (ahead).
@@ -56,6 +64,7 @@ def make_run(*, kind="cold", lat_site=50.0, lon_site=0.0, speed_ms=10.0, passage
     ``members``: list of passage-time offsets [h], one member each.
     Returns (ds, fronts) where fronts is a list of Front with track ids.
     """
+    hours = np.arange(0, 37, 3) if hours is None else hours
     sh = lat_site < 0
     lat = np.arange(lat_site - 10, lat_site + 10 + 1e-9, grid_step)
     lon = np.arange(lon_site - 15, lon_site + 15 + 1e-9, grid_step)
@@ -73,8 +82,13 @@ def make_run(*, kind="cold", lat_site=50.0, lon_site=0.0, speed_ms=10.0, passage
     coslat = np.cos(np.radians(lat))[:, None]
     for m, off in enumerate(offsets):
         for k, h in enumerate(hours):
-            lf = front_lon(h, lon_site=lon_site, lat_site=lat_site, speed_ms=speed_ms,
-                           passage_h=passage_h + off)
+            lf = front_lon(
+                h,
+                lon_site=lon_site,
+                lat_site=lat_site,
+                speed_ms=speed_ms,
+                passage_h=passage_h + off,
+            )
             x = np.radians(lon[None, :] - lf) * R_KM * coslat  # km east of the front
             warm_side = x > 0 if kind == "cold" else x < 0
             s = np.tanh(x / 60.0) * (1 if kind == "cold" else -1)  # +1 on the warm side
@@ -91,8 +105,14 @@ def make_run(*, kind="cold", lat_site=50.0, lon_site=0.0, speed_ms=10.0, passage
             t2m[m, k] = tsfc
             td2m[m, k] = tsfc - 2.0
             # ahead (warm side for a cold front): SW 15 m/s; behind: NW 12 m/s (NH)
-            ua = np.where(warm_side, 10.6, 8.5) if kind == "cold" else np.where(warm_side, 10.6, 7.0)
-            va = np.where(warm_side, 10.6, -8.5) if kind == "cold" else np.where(warm_side, 10.6, 7.0)
+            ua = (
+                np.where(warm_side, 10.6, 8.5) if kind == "cold" else np.where(warm_side, 10.6, 7.0)
+            )
+            va = (
+                np.where(warm_side, 10.6, -8.5)
+                if kind == "cold"
+                else np.where(warm_side, 10.6, 7.0)
+            )
             if sh:
                 va = -va
             u10[m, k], v10[m, k] = ua, va
@@ -103,17 +123,40 @@ def make_run(*, kind="cold", lat_site=50.0, lon_site=0.0, speed_ms=10.0, passage
             pr[m, k] = np.where(band, 3.0, 0.0)
             mslp[m, k] = 100500.0
             flat = np.linspace(lat[0] + 1, lat[-1] - 1, 25)
-            flon = np.array([front_lon(h, lon_site=lon_site, lat_site=lat_site, speed_ms=speed_ms,
-                                       passage_h=passage_h + off)] * flat.size)
+            flon = np.array(
+                [
+                    front_lon(
+                        h,
+                        lon_site=lon_site,
+                        lat_site=lat_site,
+                        speed_ms=speed_ms,
+                        passage_h=passage_h + off,
+                    )
+                ]
+                * flat.size
+            )
             ncold = -1.0 if kind == "cold" else 1.0
             sp = speed_ms * (-1 if kind == "cold" else 1)  # positive toward the cold side
-            fronts.append(Front(
-                lon=flon, lat=flat, kind=kind, valid_time=times[k], level_hpa=850.0,
-                tfp=np.full(flat.size, 1e-10), grad=np.full(flat.size, 3e-5),
-                normal_east=np.full(flat.size, ncold), normal_north=np.zeros(flat.size),
-                vn=np.full(flat.size, sp), speed_ms=sp, length_km=2000.0, run=run,
-                member=(m if members is not None else None), track=1,
-                props={"speed_tracked_ms": sp}))
+            fronts.append(
+                Front(
+                    lon=flon,
+                    lat=flat,
+                    kind=kind,
+                    valid_time=times[k],
+                    level_hpa=850.0,
+                    tfp=np.full(flat.size, 1e-10),
+                    grad=np.full(flat.size, 3e-5),
+                    normal_east=np.full(flat.size, ncold),
+                    normal_north=np.zeros(flat.size),
+                    vn=np.full(flat.size, sp),
+                    speed_ms=sp,
+                    length_km=2000.0,
+                    run=run,
+                    member=(m if members is not None else None),
+                    track=1,
+                    props={"speed_tracked_ms": sp},
+                )
+            )
     coords = {"time": times, "level": LEVELS, "lat": lat, "lon": lon}
     dims4, dims3 = ("time", "level", "lat", "lon"), ("time", "lat", "lon")
     sel = (lambda a: a[0]) if members is None else (lambda a: a)
@@ -121,10 +164,19 @@ def make_run(*, kind="cold", lat_site=50.0, lon_site=0.0, speed_ms=10.0, passage
         coords["member"] = np.arange(nm)
         dims4, dims3 = ("member",) + dims4, ("member",) + dims3
     ds = xr.Dataset(
-        {"t": (dims4, sel(t)), "td": (dims4, sel(td)), "u": (dims4, sel(u)),
-         "v": (dims4, sel(v)), "z": (dims4, sel(z)), "t2m": (dims3, sel(t2m)),
-         "td2m": (dims3, sel(td2m)), "u10": (dims3, sel(u10)), "v10": (dims3, sel(v10)),
-         "precip": (dims3, sel(pr)), "mslp": (dims3, sel(mslp))},
+        {
+            "t": (dims4, sel(t)),
+            "td": (dims4, sel(td)),
+            "u": (dims4, sel(u)),
+            "v": (dims4, sel(v)),
+            "z": (dims4, sel(z)),
+            "t2m": (dims3, sel(t2m)),
+            "td2m": (dims3, sel(td2m)),
+            "u10": (dims3, sel(u10)),
+            "v10": (dims3, sel(v10)),
+            "precip": (dims3, sel(pr)),
+            "mslp": (dims3, sel(mslp)),
+        },
         coords=coords,
         attrs={"run": run, "source": "synthetic test field", "grid": "latlon"},
     )
@@ -212,7 +264,9 @@ def test_signed_distance_sign_and_size():
     assert g["d_km"] < 0
     geod = pyproj.Geod(ellps="sphere", a=R_KM * 1000.0, b=R_KM * 1000.0)
     lats = np.linspace(49.0, 51.0, 20001)
-    _, _, dist = geod.inv(np.zeros_like(lats), np.full_like(lats, 50.0), np.full_like(lats, -1.0), lats)
+    _, _, dist = geod.inv(
+        np.zeros_like(lats), np.full_like(lats, 50.0), np.full_like(lats, -1.0), lats
+    )
     assert -g["d_km"] == pytest.approx(dist.min() / 1000.0, abs=0.5)
 
 
@@ -368,9 +422,15 @@ def test_two_runs_spread_and_unmatched():
     b, fb = make_run(kind="cold", passage_h=14.5, run="2027-01-13T12Z")
     table = arrival_table([a, b], site_frame(), [fa, fb], surface=False)
     assert table["spread_h"].tolist() == pytest.approx([2.5, 2.5], abs=10 / 60)
-    t = pd.DataFrame({"site": ["S", "S", "S"], "front_kind": ["cold", "cold", "warm"],
-                      "run": ["a", "b", "a"], "member": [None] * 3,
-                      "_passage_h": [10.0, 11.0, 5.0]})
+    t = pd.DataFrame(
+        {
+            "site": ["S", "S", "S"],
+            "front_kind": ["cold", "cold", "warm"],
+            "run": ["a", "b", "a"],
+            "member": [None] * 3,
+            "_passage_h": [10.0, 11.0, 5.0],
+        }
+    )
     out = add_spread(t)
     assert out["spread_h"].iloc[:2].tolist() == [1.0, 1.0]
     assert np.isnan(out["spread_h"].iloc[2]) and out["runs_with_passage"].iloc[2] == "1/2"
@@ -391,3 +451,33 @@ def test_contract_columns_and_formats():
 # ---------------------------------------------------- regression: demo scenario
 
 TRUTH = Path(__file__).resolve().parents[1] / "sample_grids" / "truth.json"
+
+
+# ------------------------------------------------------------ timeline figure
+
+
+def test_timeline_figure_content():
+    """The timeline carries run, valid period, source, caution, the site, the four panels'
+    labels and a vertical line per passage in the front's WMO colour."""
+    pytest.importorskip("matplotlib")
+    from kit import CAUTION
+    from kit.charts.style import FRONT_COLOURS, stamp_texts
+    from kit.charts.timelines import timeline_figure
+
+    a, fa = make_run(kind="warm", passage_h=12.0, speed_ms=8.0, winter=True, grid_step=1.0)
+    b, fb = make_run(kind="warm", passage_h=14.5, speed_ms=8.0, winter=True, grid_step=1.0,
+                     run="2027-01-13T12Z")
+    table, store = arrival_table([a, b], site_frame(name="Harrowdene"), [fa, fb], surface=False,
+                                 return_series=True)
+    fig = timeline_figure(store[("2027-01-14T00Z", None, "Harrowdene")], table)
+    texts = " | ".join(stamp_texts(fig))
+    for want in ("Run 2027-01-14T00Z", "Valid Thu 14 Jan 2027 00:00 UTC", "T+0 h to +36 h",
+                 "Source: synthetic test field", CAUTION, "Harrowdene", "[mm/h]",
+                 "[ft above site]", "valid time [UTC]", "warm front 12:00Z"):
+        assert want in texts, want
+    ax_t = fig.axes[0]
+    vlines = [ln for ln in ax_t.get_lines() if len(set(ln.get_xdata())) == 1]
+    styles = sorted((ln.get_color(), ln.get_linestyle()) for ln in vlines)
+    assert styles == [(FRONT_COLOURS["warm"], "-"), (FRONT_COLOURS["warm"], "--")]
+    legend = [t.get_text() for t in fig.axes[3].get_legend().get_texts()]
+    assert any("FZRA" in t for t in legend)

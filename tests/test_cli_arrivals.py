@@ -20,14 +20,14 @@ from kit import CAUTION
 from kit.arrivals import CONTRACT_COLUMNS
 from kit.cli import main
 
-
 HOURS = np.arange(0, 25, 3)  # 9 steps on a 1-degree grid keep the loader quick
 
 
 @pytest.fixture(scope="module")
 def written_run(tmp_path_factory):
-    ds, fronts = make_run(kind="cold", passage_h=12.0, run="2027-01-14T00Z", grid_step=1.0,
-                          hours=HOURS)
+    ds, fronts = make_run(
+        kind="cold", passage_h=12.0, run="2027-01-14T00Z", grid_step=1.0, hours=HOURS
+    )
     return write_cf(to_cf(ds), tmp_path_factory.mktemp("cli") / "run"), fronts
 
 
@@ -48,8 +48,20 @@ def sites_csv(tmp_path):
 def test_csv_contract_and_timelines(run_dir, sites_csv, tmp_path, capsys):
     out = tmp_path / "arrivals.csv"
     out.write_text("an earlier product\n")
-    rc = main(["arrivals", str(run_dir), "--sites", str(sites_csv), "--out", str(out),
-               "--at-level", "--timelines", str(tmp_path / "tl"), "--overwrite"])
+    rc = main(
+        [
+            "arrivals",
+            str(run_dir),
+            "--sites",
+            str(sites_csv),
+            "--out",
+            str(out),
+            "--at-level",
+            "--timelines",
+            str(tmp_path / "tl"),
+            "--overwrite",
+        ]
+    )
     assert rc == 0
     table = pd.read_csv(out, keep_default_na=False)
     assert list(table.columns[: len(CONTRACT_COLUMNS)]) == CONTRACT_COLUMNS
@@ -99,9 +111,22 @@ def test_bad_sites_exit_2_one_line(run_dir, tmp_path, capsys, text, expect):
 
 def test_bad_suffix_and_subprocess_no_traceback(tmp_path, sites_csv):
     """Through the real command line: exit status 2, one line, no traceback."""
-    res = subprocess.run([sys.executable, "-m", "kit", "arrivals", str(tmp_path / "nothing"),
-                          "--sites", str(sites_csv), "--out", str(tmp_path / "x.txt")],
-                         capture_output=True, text=True, timeout=120)
+    res = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "kit",
+            "arrivals",
+            str(tmp_path / "nothing"),
+            "--sites",
+            str(sites_csv),
+            "--out",
+            str(tmp_path / "x.txt"),
+        ],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert res.returncode == 2
     assert res.stderr.startswith("error: --out") and res.stderr.count("\n") == 1
     assert "Traceback" not in res.stderr
@@ -109,13 +134,16 @@ def test_bad_suffix_and_subprocess_no_traceback(tmp_path, sites_csv):
 
 def test_member_run_spread_through_cli(tmp_path, sites_csv, monkeypatch):
     """[analytic] members 0, +1.5, -2 h apart: spread 3.5 h in the product."""
-    ds, fronts = make_run(kind="cold", passage_h=12.0, members=[0.0, 1.5, -2.0], grid_step=1.0,
-                          hours=HOURS)
+    ds, fronts = make_run(
+        kind="cold", passage_h=12.0, members=[0.0, 1.5, -2.0], grid_step=1.0, hours=HOURS
+    )
     path = write_cf(to_cf(ds), tmp_path / "ens")
     monkeypatch.setattr(kit.motion, "analyse_run", lambda ds, **kw: fronts)
     out = tmp_path / "ens.csv"
-    assert main(["arrivals", str(path), "--sites", str(sites_csv), "--out", str(out),
-                 "--at-level"]) == 0
+    assert (
+        main(["arrivals", str(path), "--sites", str(sites_csv), "--out", str(out), "--at-level"])
+        == 0
+    )
     table = pd.read_csv(out, keep_default_na=False)
     kessock = table[table["site"] == "Kessock Moor"]
     assert sorted(kessock["member"].tolist()) == [0, 1, 2]

@@ -14,15 +14,20 @@ def write(tmp_path, text, name="sites.csv"):
     return p
 
 
-def regular(lat=np.arange(40.0, 60.01, 0.5), lon=np.arange(-20.0, 20.01, 0.5)):
+def regular(lat=None, lon=None):
+    lat = np.arange(40.0, 60.01, 0.5) if lat is None else lat
+    lon = np.arange(-20.0, 20.01, 0.5) if lon is None else lon
     return xr.Dataset(
         {"t2m": (("lat", "lon"), np.add.outer(lat, lon))},
-        coords={"lat": lat, "lon": lon}, attrs={"run": "2027-01-14T00Z"},
+        coords={"lat": lat, "lon": lon},
+        attrs={"run": "2027-01-14T00Z"},
     )
 
 
 def test_read_sites_columns_and_wrap(tmp_path):
-    p = write(tmp_path, "name,lat,lon,elevation_m\nBrackenholt,52.1,-3.4,112\nMorrow Fen,51.0,350.5,\n")
+    p = write(
+        tmp_path, "name,lat,lon,elevation_m\nBrackenholt,52.1,-3.4,112\nMorrow Fen,51.0,350.5,\n"
+    )
     s = read_sites(p)
     assert list(s.columns[:4]) == ["name", "lat", "lon", "elevation_m"]
     assert s["name"].tolist() == ["Brackenholt", "Morrow Fen"]
@@ -72,8 +77,11 @@ def test_check_sites_on_grid_and_off(tmp_path):
     assert out["grid_row"].tolist() == pytest.approx([20.5, 40.0])
     assert out["grid_col"].tolist() == pytest.approx([42.5, 80.0])
     s = read_sites(write(tmp_path, "name,lat,lon\nInside,50,1\nFarside,35.0,1\n", "b.csv"))
-    with pytest.raises(InputError, match=r"site 'Farside' \(35.000, 1.000\) lies off the grid of "
-                       r"2027-01-14T00Z \(lat 40.00..60.00, lon -20.00..20.00\)"):
+    with pytest.raises(
+        InputError,
+        match=r"site 'Farside' \(35.000, 1.000\) lies off the grid of "
+        r"2027-01-14T00Z \(lat 40.00..60.00, lon -20.00..20.00\)",
+    ):
         check_sites_on_grid(s, ds)
 
 
@@ -105,8 +113,11 @@ def test_projected_grid_position_matches_pyproj():
     y = np.arange(-400e3, 400e3 + 1, 25e3)
     xx, yy = np.meshgrid(x, y)
     lon2, lat2 = tr.transform(xx, yy)
-    ds = xr.Dataset({"t2m": (("y", "x"), xx * 0)}, coords={"x": x, "y": y,
-                    "lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)}, attrs={"grid": "projected"})
+    ds = xr.Dataset(
+        {"t2m": (("y", "x"), xx * 0)},
+        coords={"x": x, "y": y, "lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)},
+        attrs={"grid": "projected"},
+    )
     px, py = 123.4e3, -210.7e3
     plon, plat = tr.transform(px, py)
     r, c = grid_position(ds, plat, plon)

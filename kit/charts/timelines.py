@@ -78,38 +78,80 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         Stamped with run, valid period, lead range, source and kit.CAUTION.
     """
     if "time" not in series.coords or series.sizes.get("time", 0) < 2:
-        raise InputError("timeline: site series has fewer than 2 times; expected a run's time series")
+        raise InputError(
+            "timeline: site series has fewer than 2 times; expected a run's time series"
+        )
     if "member" in series.dims:
-        raise InputError("timeline: site series has a member dimension; expected one member selected")
+        raise InputError(
+            "timeline: site series has a member dimension; expected one member selected"
+        )
     site = series.attrs.get("site", "site")
     run = series.attrs.get("run", "") or "unnamed run"
     times = series["time"].values.astype("datetime64[ns]")
     elev = float(series.attrs.get("elevation_m", 0.0))
-    fig, axes = new_figure(4, 1, figsize=(11.0, 8.6), sharex=True, hspace=0.12,
-                           left_in=0.85, right_in=0.35, bottom_in=0.5)
+    fig, axes = new_figure(
+        4,
+        1,
+        figsize=(11.0, 8.6),
+        sharex=True,
+        hspace=0.12,
+        left_in=0.85,
+        right_in=0.35,
+        bottom_in=0.5,
+    )
     ax_t, ax_p, ax_w, ax_h = axes[:, 0]
     with briefing_rc():
         # temperature and dew point
         if "t2m" in series:
-            ax_t.plot(times, series["t2m"].values - 273.15, color=TIMELINE_COLOURS["temperature"],
-                      lw=1.8, label="temperature 2 m")
+            ax_t.plot(
+                times,
+                series["t2m"].values - 273.15,
+                color=TIMELINE_COLOURS["temperature"],
+                lw=1.8,
+                label="temperature 2 m",
+            )
         if "td2m" in series:
-            ax_t.plot(times, series["td2m"].values - 273.15, color=TIMELINE_COLOURS["dewpoint"],
-                      lw=1.6, label="dew point 2 m")
+            ax_t.plot(
+                times,
+                series["td2m"].values - 273.15,
+                color=TIMELINE_COLOURS["dewpoint"],
+                lw=1.6,
+                label="dew point 2 m",
+            )
         ax_t.axhline(0.0, color=BRIEFING_COLOURS["muted"], lw=0.6, ls=":")
         ax_t.set_ylabel("2 m T, Td [C]")
-        ax_t.legend(loc="best", fontsize=FONT["small"], frameon=True, framealpha=0.85,
-                    facecolor="white", edgecolor="none", ncol=2)
+        ax_t.legend(
+            loc="best",
+            fontsize=FONT["small"],
+            frameon=True,
+            framealpha=0.85,
+            facecolor="white",
+            edgecolor="none",
+            ncol=2,
+        )
         # precipitation bars over the step each rate covers
         if "precip" in series:
             width = np.diff(times) / np.timedelta64(1, "D")
             width = np.concatenate([[width[0]], width])
             left = mdates.date2num(times) - width
-            ax_p.bar(left, series["precip"].values, width=width, align="edge",
-                     color=TIMELINE_COLOURS["precip"], edgecolor="white", lw=0.5,
-                     label="precipitation (rate over the step)")
-            ax_p.legend(loc="upper left", fontsize=FONT["small"], frameon=True, framealpha=0.85,
-                        facecolor="white", edgecolor="none")
+            ax_p.bar(
+                left,
+                series["precip"].values,
+                width=width,
+                align="edge",
+                color=TIMELINE_COLOURS["precip"],
+                edgecolor="white",
+                lw=0.5,
+                label="precipitation (rate over the step)",
+            )
+            ax_p.legend(
+                loc="upper left",
+                fontsize=FONT["small"],
+                frameon=True,
+                framealpha=0.85,
+                facecolor="white",
+                edgecolor="none",
+            )
             ax_p.set_ylim(0, max(1.0, float(np.nanmax(series["precip"].values))) * 1.3)
         ax_p.set_ylabel("[mm/h]")
         # wind barbs at 10 m [kt]
@@ -118,41 +160,88 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         if u is None:
             spd, dr = series["wind_speed_ms"].values, np.radians(series["wind_dir_deg"].values)
             u, v = -spd * np.sin(dr), -spd * np.cos(dr)
-        ax_w.barbs(mdates.date2num(times), np.full(times.size, 0.6), u * _KT_PER_MS,
-                   v * _KT_PER_MS, length=6.2, color=BRIEFING_COLOURS["wind"], lw=0.9,
-                   flip_barb=bool(series.attrs.get("lat", 0.0) < 0))
+        ax_w.barbs(
+            mdates.date2num(times),
+            np.full(times.size, 0.6),
+            u * _KT_PER_MS,
+            v * _KT_PER_MS,
+            length=6.2,
+            color=BRIEFING_COLOURS["wind"],
+            lw=0.9,
+            flip_barb=bool(series.attrs.get("lat", 0.0) < 0),
+        )
         for tt, uu, vv in zip(times, u, v, strict=True):
             d = (270.0 - np.degrees(np.arctan2(vv, uu))) % 360.0
-            ax_w.text(mdates.date2num(tt), 0.12, f"{d:03.0f}/{np.hypot(uu, vv) * _KT_PER_MS:.0f}",
-                      ha="center", va="center", fontsize=FONT["small"] - 0.5, color=INK)
+            ax_w.text(
+                mdates.date2num(tt),
+                0.12,
+                f"{d:03.0f}/{np.hypot(uu, vv) * _KT_PER_MS:.0f}",
+                ha="center",
+                va="center",
+                fontsize=FONT["small"] - 0.5,
+                color=INK,
+            )
         ax_w.set_ylim(0, 1.15)
         ax_w.set_yticks([])
         ax_w.set_ylabel("wind 10 m\n[deg/kt]")
         # heights above the site [ft]
-        for var, label in (("freezing_level_m", "0 C level"),
-                           ("wet_bulb_freezing_level_m", "wet-bulb 0 C level")):
+        for var, label in (
+            ("freezing_level_m", "0 C level"),
+            ("wet_bulb_freezing_level_m", "wet-bulb 0 C level"),
+        ):
             key = var[:-2]
-            ax_h.plot(times, (series[var].values - elev) * _FT_PER_M, color=TIMELINE_COLOURS[key],
-                      lw=1.8 if key == "freezing_level" else 1.3,
-                      ls="-" if key == "freezing_level" else "--", label=label)
-        ax_h.plot(times, series["cloud_base_m"].values * _FT_PER_M, color=TIMELINE_COLOURS[
-            "cloud_base"], lw=0, marker="v", ms=5, label="cloud base (RH >= 95 %)")
+            ax_h.plot(
+                times,
+                (series[var].values - elev) * _FT_PER_M,
+                color=TIMELINE_COLOURS[key],
+                lw=1.8 if key == "freezing_level" else 1.3,
+                ls="-" if key == "freezing_level" else "--",
+                label=label,
+            )
+        ax_h.plot(
+            times,
+            series["cloud_base_m"].values * _FT_PER_M,
+            color=TIMELINE_COLOURS["cloud_base"],
+            lw=0,
+            marker="v",
+            ms=5,
+            label="cloud base (RH >= 95 %)",
+        )
         wl = np.isfinite(series["warm_layer_max_c"].values)
         first_span = True
         for k in np.nonzero(wl)[0]:
             lo = times[k] - (times[1] - times[0]) / 2
             hi = times[k] + (times[1] - times[0]) / 2
-            ax_h.axvspan(lo, hi, color=TIMELINE_COLOURS["fzra"], alpha=0.55, lw=0,
-                         label="warm layer aloft over sub-zero ground air (FZRA/PL)" if first_span else None)
+            ax_h.axvspan(
+                lo,
+                hi,
+                color=TIMELINE_COLOURS["fzra"],
+                alpha=0.55,
+                lw=0,
+                label="warm layer aloft over sub-zero ground air (FZRA/PL)" if first_span else None,
+            )
             first_span = False
         ax_h.set_ylabel("[ft above site]")
-        top = np.nanmax(np.concatenate([
-            (series["freezing_level_m"].values - elev) * _FT_PER_M,
-            (series["wet_bulb_freezing_level_m"].values - elev) * _FT_PER_M,
-            series["cloud_base_m"].values * _FT_PER_M, [1000.0]]))
+        top = np.nanmax(
+            np.concatenate(
+                [
+                    (series["freezing_level_m"].values - elev) * _FT_PER_M,
+                    (series["wet_bulb_freezing_level_m"].values - elev) * _FT_PER_M,
+                    series["cloud_base_m"].values * _FT_PER_M,
+                    [1000.0],
+                ]
+            )
+        )
         ax_h.set_ylim(0, top * 1.45)  # headroom for the legend
-        ax_h.legend(loc="upper left", fontsize=FONT["small"], frameon=True, framealpha=0.85,
-                    facecolor="white", edgecolor="none", ncol=2)
+        ax_h.legend(
+            loc="upper left",
+            fontsize=FONT["small"],
+            frameon=True,
+            framealpha=0.85,
+            facecolor="white",
+            edgecolor="none",
+            ncol=2,
+        )
         # passages
         labels = []
         if rows is not None and len(rows):
@@ -163,22 +252,51 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 colour = front_colour(kind)
                 own = str(r.get("run", "")) == run
                 tp = _t(r["passage_utc"])
-                if own and r.get("passage_earliest_utc") and r.get("passage_latest_utc") and \
-                        r["passage_earliest_utc"] != r["passage_latest_utc"]:
+                if (
+                    own
+                    and r.get("passage_earliest_utc")
+                    and r.get("passage_latest_utc")
+                    and r["passage_earliest_utc"] != r["passage_latest_utc"]
+                ):
                     for ax in (ax_t, ax_p, ax_w, ax_h):
-                        ax.axvspan(_t(r["passage_earliest_utc"]), _t(r["passage_latest_utc"]),
-                                   color=TIMELINE_COLOURS["spread"], alpha=0.45, lw=0, zorder=0)
+                        ax.axvspan(
+                            _t(r["passage_earliest_utc"]),
+                            _t(r["passage_latest_utc"]),
+                            color=TIMELINE_COLOURS["spread"],
+                            alpha=0.45,
+                            lw=0,
+                            zorder=0,
+                        )
                 for ax in (ax_t, ax_p, ax_w, ax_h):
-                    ax.axvline(tp, color=colour, lw=1.8 if own else 1.0, ls="-" if own else "--",
-                               alpha=1.0 if own else 0.8, zorder=3)
+                    ax.axvline(
+                        tp,
+                        color=colour,
+                        lw=1.8 if own else 1.0,
+                        ls="-" if own else "--",
+                        alpha=1.0 if own else 0.8,
+                        zorder=3,
+                    )
                 if own:
                     extra = " (extrap.)" if r.get("extrapolated") == "yes" else ""
-                    labels.append((tp, f"{KIND_LABELS.get(kind, kind)} {str(r['passage_utc'])[11:]}"
-                                   f"{extra}", colour))
+                    labels.append(
+                        (
+                            tp,
+                            f"{KIND_LABELS.get(kind, kind)} {str(r['passage_utc'])[11:]}{extra}",
+                            colour,
+                        )
+                    )
         for n, (tp, text, colour) in enumerate(sorted(labels, key=lambda x: x[0])):
-            ax_t.annotate(text, xy=(tp, 1.0), xycoords=("data", "axes fraction"),
-                          xytext=(3, -10 - 11 * (n % 2)), textcoords="offset points",
-                          fontsize=FONT["small"], color=colour, fontweight="bold", ha="left")
+            ax_t.annotate(
+                text,
+                xy=(tp, 1.0),
+                xycoords=("data", "axes fraction"),
+                xytext=(3, -10 - 11 * (n % 2)),
+                textcoords="offset points",
+                fontsize=FONT["small"],
+                color=colour,
+                fontweight="bold",
+                ha="left",
+            )
         ax_h.xaxis.set_major_locator(mdates.HourLocator(byhour=range(0, 24, 6)))
         ax_h.xaxis.set_major_formatter(mdates.DateFormatter("%d/%HZ"))
         ax_h.set_xlim(times[0] - (times[1] - times[0]), times[-1])
@@ -188,14 +306,21 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         for ax in (ax_t, ax_p, ax_w):
             ax.tick_params(labelbottom=False)
     lat, lon = series.attrs.get("lat", np.nan), series.attrs.get("lon", np.nan)
-    product = (f"Site timeline: {site} ({lat:.2f}, {lon:.2f}, {elev:.0f} m); "
-               "passages solid = this run, dashed = other runs/members, grey = spread")
+    product = (
+        f"Site timeline: {site} ({lat:.2f}, {lon:.2f}, {elev:.0f} m); "
+        "passages solid = this run, dashed = other runs/members, grey = spread"
+    )
     if series.attrs.get("elevation_assumed"):
         product += "; elevation not given, 0 m assumed"
     if title_extra:
         product += f"; {title_extra}"
     l0, l1 = lead_hours(series, times[0]), lead_hours(series, times[-1])
-    stamp(fig, run=run, valid_time=(times[0], times[-1]),
-          lead_h=None if l0 is None else (l0, l1), source=series.attrs.get("source", ""),
-          extra=product)
+    stamp(
+        fig,
+        run=run,
+        valid_time=(times[0], times[-1]),
+        lead_h=None if l0 is None else (l0, l1),
+        source=series.attrs.get("source", ""),
+        extra=product,
+    )
     return fig

@@ -29,23 +29,46 @@ def add_parser(subparsers):
         "members. --out ending in .csv writes CSV, .html a table page.",
         epilog=CAUTION,
     )
-    p.add_argument("runs", metavar="RUN", nargs="+",
-                   help="NetCDF file, glob or folder of one model run; several = runs/members "
-                   "of one event (the first is the one the timelines show)")
-    p.add_argument("--sites", required=True, metavar="SITES.csv",
-                   help="site list CSV: name,lat,lon[,elevation_m]")
+    p.add_argument(
+        "runs",
+        metavar="RUN",
+        nargs="+",
+        help="NetCDF file, glob or folder of one model run; several = runs/members "
+        "of one event (the first is the one the timelines show)",
+    )
+    p.add_argument(
+        "--sites",
+        required=True,
+        metavar="SITES.csv",
+        help="site list CSV: name,lat,lon[,elevation_m]",
+    )
     p.add_argument("--out", required=True, metavar="FILE", help="output table: .csv or .html")
-    p.add_argument("--overwrite", action="store_true",
-                   help="replace existing output files (never silent)")
-    p.add_argument("--timelines", metavar="DIR",
-                   help="also write a timeline figure (PNG) per site into DIR")
-    p.add_argument("--level", type=float, default=850.0, metavar="HPA",
-                   help="level the fronts are found on [hPa] (default 850)")
-    p.add_argument("--horizon-h", type=float, default=12.0, metavar="H",
-                   help="longest extrapolation past the last step [h] (default 12)")
-    p.add_argument("--at-level", action="store_true",
-                   help="time the passage of the line on --level itself instead of the "
-                   "surface front estimated from the slope")
+    p.add_argument(
+        "--overwrite", action="store_true", help="replace existing output files (never silent)"
+    )
+    p.add_argument(
+        "--timelines", metavar="DIR", help="also write a timeline figure (PNG) per site into DIR"
+    )
+    p.add_argument(
+        "--level",
+        type=float,
+        default=850.0,
+        metavar="HPA",
+        help="level the fronts are found on [hPa] (default 850)",
+    )
+    p.add_argument(
+        "--horizon-h",
+        type=float,
+        default=12.0,
+        metavar="H",
+        help="longest extrapolation past the last step [h] (default 12)",
+    )
+    p.add_argument(
+        "--at-level",
+        action="store_true",
+        help="time the passage of the line on --level itself instead of the "
+        "surface front estimated from the slope",
+    )
     p.set_defaults(func=run)
 
 
@@ -75,8 +98,14 @@ def run(args):
     runs = load_runs(args.runs)
     for ds in runs:
         check_sites_on_grid(sites, ds)
-    table, series = arrival_table(runs, sites, level=args.level, surface=not args.at_level,
-                                  horizon_h=args.horizon_h, return_series=True)
+    table, series = arrival_table(
+        runs,
+        sites,
+        level=args.level,
+        surface=not args.at_level,
+        horizon_h=args.horizon_h,
+        return_series=True,
+    )
     labels = ", ".join(table.attrs.get("runs", []))
     if out.suffix.lower() == ".csv":
         frame = table.copy()
@@ -96,7 +125,8 @@ def run(args):
             key = next(k for k in series if k[0] == first and k[2] == site["name"])
             rows = table[table["site"] == site["name"]]
             fig = timeline_figure(series[key], rows)
-            path = save_figure(fig, tl_dir / f"timeline_{_slug(site['name'])}.png",
-                               overwrite=args.overwrite)
+            path = save_figure(
+                fig, tl_dir / f"timeline_{_slug(site['name'])}.png", overwrite=args.overwrite
+            )
             print(f"timeline {path}")
     return 0
