@@ -22,6 +22,7 @@ COMMANDS = [
     "arrivals",
     "rerun",
     "section",
+    "shift",
 ]
 
 
