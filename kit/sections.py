@@ -478,7 +478,7 @@ def locate_frontal_surface(sec, *, field="theta_w", reference_km=None, reference
         Level the reference applies to [hPa].
     smoothing_km : float, optional
         Gaussian smoothing scale along the section [km]; default the larger of
-        40 km and the grid length.
+        25 km and the grid length.
     top_hpa : float
         Highest level searched [hPa].
 
@@ -503,7 +503,7 @@ def locate_frontal_surface(sec, *, field="theta_w", reference_km=None, reference
     levels = sec["level"].values.astype(float)
     dist = sec["distance"].values.astype(float)
     if smoothing_km is None:
-        smoothing_km = max(40.0, float(sec.attrs.get("grid_km", 0.0)))
+        smoothing_km = max(25.0, float(sec.attrs.get("grid_km", 0.0)))
     tau = sec[field].transpose("level", "distance").values
     zmean = np.nanmean(sec["z"].transpose("level", "distance").values, axis=1)
     cands = [
@@ -744,7 +744,7 @@ def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smooth
     if "theta_w_surface" in sec and cold != 0:
         ref = pos[np.isfinite(pos)][0] if np.isfinite(pos).any() else reference_km
         c = [c for c in _front_candidates(sec["theta_w_surface"].values, dist,
-                                          smoothing_km or max(40.0, sec.attrs["grid_km"]))
+                                          smoothing_km or max(25.0, sec.attrs["grid_km"]))
              if c[2] == -cold]
         if c and ref is not None:
             best = min(c, key=lambda q: abs(q[0] - ref))
@@ -760,15 +760,18 @@ def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smooth
     if front_kind in RULE_ZONES_NM and np.isfinite(surf) and cold != 0:
         near, far = (x * NM_KM for x in RULE_ZONES_NM[front_kind])
         off = (dist - surf) * cold  # >0 on the cold side
-        zone[(off >= 0) & (off <= far)] = 1
-        zone[(off >= 0) & (off <= near)] = 2
+        if front_kind == "warm":  # rain from 200-300 nm ahead up to the front
+            zone[(off >= 0) & (off <= far)] = 1
+            zone[(off >= 0) & (off <= near)] = 2
+        else:  # main band 50-100 nm behind the front
+            zone[(off >= near) & (off <= far)] = 2
         sec.attrs["rule_zone_kind"] = front_kind
         sec.attrs["rule_zone_near_km"] = float(surf + cold * near)
         sec.attrs["rule_zone_far_km"] = float(surf + cold * far)
     sec["rule_zone"] = ("distance", zone, {"long_name": "rule-of-thumb precipitation zone "
-                        "(common practice, no source): 2 = within the nearer distance, 1 = "
-                        "between the nearer and the farther distance, 0 = outside; warm front "
-                        "200-300 nm ahead, cold front 50-100 nm behind"})
+                        "(common practice, no source): warm front, 2 = from the surface front "
+                        "to 200 nm ahead, 1 = 200-300 nm ahead (where rain typically begins); "
+                        "cold front, 2 = the main band 50-100 nm behind; 0 = outside"})
 
 
 def section_between(ds, start, end, *, steps=None, spacing_km=10.0, time=None, member=None,

@@ -134,12 +134,12 @@ def draw_section(ax, strip, sec):
         jk, jp = sec.attrs["jet_core_km"], sec.attrs["jet_core_hpa"]
         spd = sec.attrs["jet_core_speed_ms"] * _KT
         is_jet = bool(sec.attrs.get("jet_core_is_jet", 0))
-        (art["jet-core"],) = ax.plot([jk], [jp], marker="o", ms=11, mfc="white",
+        (art["jet-core"],) = ax.plot([jk], [jp], marker="o", ms=11, mfc="white", clip_on=False,
                                      mec=SECTION_COLOURS["jet"], mew=1.5, ls="none", zorder=8,
                                      gid="jet-core", label="jet core" if is_jet else "wind max")
         ax.text(jk, jp, "J" if is_jet else "x", ha="center", va="center", zorder=9,
                 fontsize=FONT["small"], fontweight="bold", color=SECTION_COLOURS["jet"])
-        ax.annotate(f"{spd:.0f} kt", (jk, jp), xytext=(8, 6), textcoords="offset points",
+        ax.annotate(f"{spd:.0f} kt", (jk, jp), xytext=(9, -14), textcoords="offset points",
                     fontsize=FONT["small"], color=SECTION_COLOURS["jet"], zorder=9,
                     bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.8))
 
@@ -249,18 +249,24 @@ def draw_section(ax, strip, sec):
         if (zone > 0).any():
             near_km = sec.attrs.get("rule_zone_near_km")
             far_km = sec.attrs.get("rule_zone_far_km")
-            a, b = sorted((sfc, near_km))
+            zkind = sec.attrs.get("rule_zone_kind", kind)
+            if zkind == "warm":
+                a, b = sorted((sfc, near_km))
+                c, d = sorted((near_km, far_km))
+                strip.axvspan(c, d, color=SECTION_COLOURS["zone_fringe"], zorder=0,
+                              gid="rule-zone-fringe", lw=0)
+                words = "rule of thumb: rain begins {lo:.0f}-{hi:.0f} nm ahead of the warm front"
+            else:
+                a, b = sorted((near_km, far_km))
+                c, d = a, b
+                words = "rule of thumb: main band {lo:.0f}-{hi:.0f} nm behind the cold front"
             art["rule-zone"] = strip.axvspan(a, b, color=SECTION_COLOURS["zone_core"], zorder=0,
                                              gid="rule-zone", lw=0)
-            c, d = sorted((near_km, far_km))
-            strip.axvspan(c, d, color=SECTION_COLOURS["zone_fringe"], zorder=0,
-                          gid="rule-zone-fringe", lw=0)
-            lo, hi = RULE_ZONES_NM[sec.attrs.get("rule_zone_kind", kind)]
-            where = "ahead of the warm front" if kind == "warm" else "behind the cold front"
-            strip.text(0.5 * (min(a, c) + max(b, d)), 0.93,
-                       f"rule of thumb: rain {lo:.0f}-{hi:.0f} nm {where}",
+            lo, hi = RULE_ZONES_NM[zkind]
+            strip.text(0.5 * (min(a, c) + max(b, d)), 0.93, words.format(lo=lo, hi=hi),
                        transform=strip.get_xaxis_transform(), ha="center", va="top",
-                       fontsize=FONT["small"] - 0.5, color=INK, clip_on=True, zorder=3)
+                       fontsize=FONT["small"] - 0.5, color=INK, clip_on=True, zorder=3,
+                       bbox=dict(boxstyle="round,pad=0.1", fc="white", ec="none", alpha=0.7))
         if "precip" in sec:
             pr = sec["precip"].values
             art["precip"] = strip.fill_between(dist, 0, np.nan_to_num(pr), step="mid",
