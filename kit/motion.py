@@ -313,6 +313,21 @@ def _weighted_mean(values, weights):
     return float(np.sum(v[ok] * w[ok]) / np.sum(w[ok]))
 
 
+def _weighted_median(values, weights):
+    """Length-weighted median of the finite values (NaN if none)."""
+    v = np.asarray(values, float)
+    w = np.asarray(weights, float)
+    ok = np.isfinite(v) & (w > 0)
+    if not ok.any():
+        return float("nan")
+    v, w = v[ok], w[ok]
+    order = np.argsort(v)
+    v, w = v[order], w[order]
+    cw = np.cumsum(w)
+    k = int(np.searchsorted(cw, 0.5 * cw[-1]))
+    return float(v[min(k, v.size - 1)])
+
+
 def _json_float(x, ndigits=3):
     """Return a float for ``front.props``: rounded, or None where missing (GeoJSON has no NaN)."""
     if x is None:
@@ -560,7 +575,9 @@ def track_fronts(
     list of kit.fronts.Front
         The same fronts, with ``front.track`` (int, unique over the list) and
         ``front.props``: ``speed_tracked_ms`` [m s-1] (front-normal, positive
-        toward the cold side; None where the track has one time only),
+        toward the cold side; the length-weighted median of the vertex speeds,
+        so the ends of a line and the bend near a triple point, which move
+        differently, do not bias it; None where the track has one time only),
         ``vn_tracked`` (per-vertex list [m s-1], None where a vertex has no
         counterpart) and ``track_parent``/``track_event`` (``"new"``,
         ``"continues"``, ``"split"`` or ``"merge"``).
@@ -652,7 +669,7 @@ def track_fronts(
         for f in group:
             vk = _vertex_speeds(f, fwd.get(id(f)), bwd.get(id(f)))
             w = _vertex_weights_km(f.lon, f.lat)
-            f.props["speed_tracked_ms"] = _json_float(_weighted_mean(vk, w))
+            f.props["speed_tracked_ms"] = _json_float(_weighted_median(vk, w))
             f.props["vn_tracked"] = [_json_float(v, 2) for v in vk]
     return fronts
 

@@ -156,14 +156,16 @@ def _tfp_2d(tau, ds):
 class _Fields:
     """Smoothed thermal field, its TFP and z per (member, time, level), computed once."""
 
-    def __init__(self, ds, settings=None, field=None):
+    def __init__(self, ds, settings=None, field=None, field_name="theta"):
         self.ds = ds
         self.settings = settings
         self.field = field
-        self.name = getattr(settings, "field", "theta_w") or "theta_w"
+        if field_name is None:
+            field_name = getattr(settings, "field", "theta_w") or "theta_w"
+        self.name = field_name
         if self.name not in ("theta_w", "theta"):
             raise InputError(
-                f"front settings: field {self.name!r} unknown; expected 'theta_w' or 'theta'"
+                f"slope: thermal field {self.name!r} unknown; expected 'theta_w' or 'theta'"
             )
         self.scale_km = _smoothing_km(ds, settings)
         self.sampler = _PointSampler(ds)
@@ -240,6 +242,8 @@ def front_slope(
     half_width_km=900.0,
     step_km=15.0,
     max_vertices=15,
+    method="tfp",
+    field_name="theta",
     _fields=None,
 ):
     """Slope of a front from the 3-D thermal field.
@@ -255,10 +259,20 @@ def front_slope(
         Pressure levels to locate the front on [hPa]; those missing from the
         dataset are skipped (at least three are needed).
     settings : kit.fronts.FrontSettings, optional
-        ``field`` (``"theta_w"`` or ``"theta"``) and ``smoothing_km`` [km] as
-        for the fronts (default 75 km or two grid lengths, the larger).
+        The smoothing scale of the fronts
+        (:func:`kit.fronts.effective_smoothing_km`); ``settings.field`` is
+        used only when ``field_name`` is None.
     field : xarray.DataArray, optional
         A thermal field [K] with a ``level`` dimension to use instead.
+    method : {"tfp", "gradient"}
+        Locate the front on a level at the TFP maximum (warm edge of the zone,
+        as the fronts) or at the strongest gradient (zone centre).
+    field_name : {"theta", "theta_w", None}
+        Thermal field the surface is traced in. Default potential temperature:
+        the frontal surface is a temperature (density) boundary, while aloft
+        theta-w also marks moisture boundaries such as a dry slot behind a
+        cold front (Thomas & Schultz 2019), which bend a theta-w surface.
+        None follows ``settings.field``.
     half_width_km : float
         How far along the normal, each way, the front is looked for [km]
         (900 km reaches a 1:150 surface 6 km up).
@@ -288,7 +302,7 @@ def front_slope(
     :math:`ds/dz` is ``N``; a surface that leans over the warm side gives
     no slope (NaN).
     """
-    fields = _fields if _fields is not None else _Fields(ds, settings, field)
+    fields = _fields if _fields is not None else _Fields(ds, settings, field, field_name)
     levels = sorted(_levels_present(ds, levels), reverse=True)  # 1000 first
     nan = {
         "slope_1_in": float("nan"),
@@ -325,7 +339,10 @@ def front_slope(
             for li in order:
                 lv = levels[li]
                 tp, al, zz = prof[lv][0][k], prof[lv][1][k], prof[lv][2][k]
-                pos, _ = _profile_peaks(s, tp, al)
+                if method == "gradient":
+                    pos, _ = _profile_peaks(s, -al, al)
+                else:
+                    pos, _ = _profile_peaks(s, tp, al)
                 if pos.size == 0:
                     break
                 zpos = np.interp(pos, s, zz)
@@ -436,7 +453,15 @@ def front_margules_slope(front, ds, *, level=None, offset_km=250.0, max_vertices
     return float(1.0 / np.median(good))
 
 
-def add_slopes(fronts, ds, *, settings=None, levels=DEFAULT_LEVELS, margules_offset_km=250.0):
+def add_slopes(
+    fronts,
+    ds,
+    *,
+    settings=None,
+    levels=DEFAULT_LEVELS,
+    margules_offset_km=250.0,
+    field_name="theta",
+):
     """Put the slopes of every front into its props.
 
     Parameters
@@ -451,6 +476,8 @@ def add_slopes(fronts, ds, *, settings=None, levels=DEFAULT_LEVELS, margules_off
         Levels for :func:`front_slope` [hPa].
     margules_offset_km : float
         As ``offset_km`` of :func:`front_margules_slope` [km].
+    field_name : {"theta", "theta_w", None}
+        As for :func:`front_slope`.
 
     Returns
     -------
@@ -461,7 +488,7 @@ def add_slopes(fronts, ds, *, settings=None, levels=DEFAULT_LEVELS, margules_off
     """
     if not fronts:
         return fronts
-    fields = _Fields(ds, settings)
+    fields = _Fields(ds, settings, field_name=field_name)
     for fr in fronts:
         res = front_slope(fr, ds, levels, settings=settings, _fields=fields)
         fr.props["slope_1_in"] = _json_float(res["slope_1_in"], 0)

@@ -610,3 +610,18 @@ def test_analyse_run_members_tracked_apart():
         for f in mine:
             assert f.props["speed_tracked_ms"] == pytest.approx(c, rel=0.05)
     assert len({f.track for f in fronts}) == 2
+
+
+def test_tracked_speed_is_robust_to_a_stuck_end():
+    # [derived] 80 % of the line moves 108 km poleward in 3 h (10 m/s), the
+    # western 20 % stays put (the bend near a low centre): the length-weighted
+    # median gives the speed of the bulk of the line, 10 m/s (a mean would
+    # give about 8)
+    a = parallel_front(45.0, 0.0)
+    lon = a.lon.copy()
+    lat = np.where(lon < -16.0, 45.0, lat_after(45.0, 108.0))
+    b = make_front(lon, lat, 0.0, 1.0, hours(3.0))
+    track_fronts([a, b])
+    assert a.props["speed_tracked_ms"] == pytest.approx(10.0, rel=0.01)
+    vk = np.array([np.nan if v is None else v for v in a.props["vn_tracked"]])
+    assert np.nanmin(vk) == pytest.approx(0.0, abs=0.05)

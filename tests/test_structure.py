@@ -267,7 +267,12 @@ def test_slope_with_theta_w_field():
     ds = sloping_zone(150.0)
     lat_f = 45.0 + np.rad2deg(150.0 * 1.46 / R_KM)
     fr = make_front(np.arange(-15.0, -5.0, 0.25), lat_f, 0.0, 1.0)
-    res = front_slope(fr, ds, settings=SimpleNamespace(field="theta_w", smoothing_km=50.0))
+    res = front_slope(fr, ds, settings=SETTINGS, field_name="theta_w")
+    assert res["slope_1_in"] == pytest.approx(150.0, rel=0.10)
+    # None follows the fronts' field
+    res = front_slope(
+        fr, ds, settings=SimpleNamespace(field="theta_w", smoothing_km=50.0), field_name=None
+    )
     assert res["slope_1_in"] == pytest.approx(150.0, rel=0.10)
 
 
