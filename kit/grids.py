@@ -888,7 +888,7 @@ def _geographic_of(crs):
     return CRS.from_proj4(f"+proj=longlat +a={ell.semi_major_metre!r} +b={ell.semi_minor_metre!r} +no_defs")
 
 
-def _axis_geometry(crs, xn, yn, unit_m):
+def _axis_geometry(crs, xn, yn, unit_m, step):
     """Local grid geometry on the ellipsoid from the projection, by finite steps.
 
     Parameters
@@ -899,6 +899,8 @@ def _axis_geometry(crs, xn, yn, unit_m):
     unit_m : float
         Metres per native unit along the nominal grid (1 for projected metres,
         R pi/180 for rotated degrees).
+    step : float
+        Grid length in native units.
 
     Returns
     -------
@@ -913,17 +915,24 @@ def _axis_geometry(crs, xn, yn, unit_m):
     tr = Transformer.from_crs(crs, geo, always_xy=True)
     ell = crs.ellipsoid
     geod = Geod(a=ell.semi_major_metre, b=ell.semi_minor_metre) if ell else Geod(a=6371229.0, b=6371229.0)
-    h = 1e-3 * (1.0 if unit_m == 1.0 else 1e-3)  # native units: 1 mm or ~1e-6 degree
+    # finite step: 1e-4 of the grid length (native units), small against curvature,
+    # large against the rounding of degrees in double precision
+    h = 1e-4 * step
     h_m = h * unit_m
     lon_a, lat_a = tr.transform(xn - h, yn)
     lon_b, lat_b = tr.transform(xn + h, yn)
-    az_x, _, dist_x = geod.inv(lon_a, lat_a, lon_b, lat_b)
+    az_a, az_back, dist_x = geod.inv(lon_a, lat_a, lon_b, lat_b)
+    # azimuth at the middle point: mean of the forward azimuths at both ends
+    az_b = np.asarray(az_back) + 180.0
+    ra, rb = np.deg2rad(np.asarray(az_a)), np.deg2rad(az_b)
+    az_x = np.rad2deg(np.arctan2(np.sin(ra) + np.sin(rb), np.cos(ra) + np.cos(rb)))
     lon_c, lat_c = tr.transform(xn, yn - h)
     lon_d, lat_d = tr.transform(xn, yn + h)
     _, _, dist_y = geod.inv(lon_c, lat_c, lon_d, lat_d)
     angle = np.deg2rad(90.0 - np.asarray(az_x))
-    mx = 2.0 * h_m / np.asarray(dist_x)
-    my = 2.0 * h_m / np.asarray(dist_y)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        mx = 2.0 * h_m / np.asarray(dist_x)
+        my = 2.0 * h_m / np.asarray(dist_y)
     return angle, mx, my
 
 
@@ -1029,7 +1038,8 @@ def _projected_grid(ds, lat_name, lon_name, where):
         tr = Transformer.from_crs(crs, _geographic_of(crs), always_xy=True)
         lon2, lat2 = tr.transform(xn, yn)
     lon2 = (np.asarray(lon2) + 180.0) % 360.0 - 180.0
-    angle, mx, my = _axis_geometry(crs, xn, yn, unit_m)
+    gstep = float(np.median(np.abs(np.diff(xv)))) if xv.size > 1 else 1.0
+    angle, mx, my = _axis_geometry(crs, xn, yn, unit_m, gstep)
     drop = [n for n in (lat_name, lon_name, xname, yname, gm_name) if n and n in ds.variables]
     ds = ds.drop_vars(drop)
     ds = ds.rename({ydim: "y", xdim: "x"}) if (ydim, xdim) != ("y", "x") else ds
@@ -1044,7 +1054,8 @@ def _projected_grid(ds, lat_name, lon_name, where):
     if rotated:
         coords["rlon"] = ("x", xv, {"standard_name": "grid_longitude", "units": "degrees"})
         coords["rlat"] = ("y", yv, {"standard_name": "grid_latitude", "units": "degrees"})
-    if np.nanmax(np.abs(mx - my)) < 1e-3 * np.nanmax(np.abs(mx)):
+    fin = np.isfinite(mx) & np.isfinite(my)
+    if np.max(np.abs(mx - my)[fin], initial=0.0) < 1e-3 * np.max(np.abs(mx)[fin], initial=1.0):
         coords["map_factor"] = (("y", "x"), 0.5 * (mx + my),
                                 {"long_name": "map scale factor (grid length / true length)", "units": "1"})
     else:
@@ -1438,9 +1449,13 @@ def _canonical_one(raw, where, member):
             "rotation": rotation, "roles": {k: v[0] for k, v in roles.items()}}
     if precip_kind == "amount":
         info["precip_lower"] = _time_bounds_lower(raw, ds, where)
-    res = xr.Dataset(out)
     for k, (da, name) in extra.items():
-        res[f"_{k}"] = da
+        out[f"_{k}"] = da
+    for k, da in out.items():
+        order = [d for d in ("member", "time", "level", ydim, xdim) if d in da.dims]
+        if list(da.dims) != order:
+            out[k] = da.transpose(*order)
+    res = xr.Dataset(out)
     # level coordinate
     res = res.assign_coords(level=("level", np.asarray(levels, dtype=np.float64)))
     res = res.sortby("level", ascending=False)
@@ -1465,8 +1480,12 @@ def _onto_levels(da, name, levels, main_dim, level_dims, where):
             da = da.drop_vars(dim)
         da = da.rename({dim: "level"}) if dim != "level" else da
         da = da.assign_coords(level=("level", own))
-    if own.size == len(levels) and np.allclose(np.sort(own), np.sort(levels)):
-        return da.sel(level=np.asarray(levels, dtype=np.float64), method="nearest")
+    levels = np.asarray(levels, dtype=np.float64)
+    if own.size == levels.size and np.allclose(own, levels):
+        return da.assign_coords(level=("level", levels))
+    if own.size == levels.size and np.allclose(np.sort(own), np.sort(levels)):
+        idx = [int(np.argmin(np.abs(own - lv))) for lv in levels]
+        return da.isel(level=idx).assign_coords(level=("level", levels))
     common = np.intersect1d(np.round(own, 6), np.round(levels, 6))
     if common.size == 0:
         raise _err(
@@ -1597,20 +1616,15 @@ def _precip_rate(acc, times, ref, lower, where):
             starts = np.concatenate([[ref if ref is not None else np.datetime64("NaT")], times[:-1]]).astype(
                 "datetime64[ns]")
     hours = (times - starts) / np.timedelta64(1, "h")
-    rates = []
-    for i in range(n):
-        same = i > 0 and starts[i] == starts[i - 1] and not np.isnat(starts[i])
-        if same:
-            dt = (times[i] - times[i - 1]) / np.timedelta64(1, "h")
-            r = (acc.isel(time=i) - acc.isel(time=i - 1)) / dt
-        else:
-            h = hours[i]
-            if not np.isfinite(h) or h <= 0:
-                r = acc.isel(time=i) * np.nan
-            else:
-                r = acc.isel(time=i) / h
-        rates.append(r.clip(min=0.0).drop_vars("time", errors="ignore"))
-    out = xr.concat(rates, dim="time")
+    same = np.zeros(n, dtype=bool)
+    same[1:] = (starts[1:] == starts[:-1]) & ~np.isnat(starts[1:])
+    dt = np.full(n, np.nan)
+    dt[1:] = (times[1:] - times[:-1]) / np.timedelta64(1, "h")
+    with np.errstate(invalid="ignore", divide="ignore"):
+        div = np.where(same, dt, np.where(np.isfinite(hours) & (hours > 0), hours, np.nan))
+    prev = acc.isel(time=np.r_[0, np.arange(n - 1)]).assign_coords(time=acc["time"])
+    base = prev * xr.DataArray(same.astype(np.float64), dims="time", coords={"time": acc["time"]})
+    out = ((acc - base) / xr.DataArray(div, dims="time", coords={"time": acc["time"]})).clip(min=0.0)
     return out.assign_coords(time=times)
 
 
