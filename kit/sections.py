@@ -809,6 +809,12 @@ def section_between(ds, start, end, *, steps=None, spacing_km=10.0, time=None, m
         source, valid_time, lead_h, caution, compass ends, jet core, fitted
         frontal slope ``frontal_slope_1_in``, ``surface_front_km``.
 
+    Notes
+    -----
+    The slope is measured along the section: a section cutting a front at an
+    angle a (from the front's normal) shows it shallower by 1 / cos(a); cut
+    across the front with :func:`section_across_front` for its true slope.
+
     Examples
     --------
     >>> sec = section_between(ds, (52.0, -20.0), (48.0, -5.0), time="2027-01-14T06:00Z")
@@ -934,9 +940,9 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
     xarray.Dataset
         As :func:`section_between`, with attributes ``front_kind``,
         ``front_level_hpa``, ``front_km`` (where the front line crosses the
-        section), ``site_km``/``site_name`` and ``rule_zone_*``; the wind
-        component ``v_along`` is then the front-normal wind (positive toward
-        the warm side) and ``v_across`` the along-front wind.
+        section), ``site_km``/``site_name`` and ``rule_zone_*``; and the
+        fields ``wind_normal_to_front`` (positive toward the cold side, as
+        :attr:`kit.fronts.Front.vn`) and ``wind_along_front`` [m s-1].
 
     Notes
     -----
@@ -985,6 +991,14 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
     sec = _build(ds, lat, lon, dist, brg, front.valid_time, front.member,
                  reference_km=front_km, reference_hpa=float(front.level_hpa),
                  front_kind=front.kind, smoothing_km=smoothing_km)
+    sec["wind_normal_to_front"] = -sec["v_along"]
+    sec["wind_normal_to_front"].attrs = {"units": "m s-1", "long_name": "wind component normal "
+                                         "to the front, positive toward the cold side (as "
+                                         "kit.fronts.Front.vn)"}
+    sec["wind_along_front"] = sec["v_across"]
+    sec["wind_along_front"].attrs = {"units": "m s-1", "long_name": "wind component along the "
+                                     "front, positive to the right looking from the cold side "
+                                     "toward the warm side"}
     sec.attrs.update(front_kind=str(front.kind), front_level_hpa=float(front.level_hpa),
                      front_km=float(front_km), site_km=float(-s0), site_name=sname,
                      site_lat=slat, site_lon=slon, section_bearing_deg=float(bearing))

@@ -530,6 +530,9 @@ def _crossing_km(sec, lon, lat):
     return float(hits[0])
 
 
+_OPENED = {}
+
+
 def _sample_case(kind):
     """(ds, truth, set entry, site row, valid time) for a section before a passage."""
     from kit.grids import open_run
@@ -548,8 +551,9 @@ def _sample_case(kind):
             p = pd.Timestamp(p).tz_localize(None)
             ok = [t for t in times if pd.Timedelta(hours=2) <= p - t <= pd.Timedelta(hours=6)]
             if ok:
-                ds = open_run(SAMPLE / entry["folder"])
-                return ds, truth, entry, site, ok[-1]
+                if entry["folder"] not in _OPENED:
+                    _OPENED[entry["folder"]] = open_run(SAMPLE / entry["folder"])
+                return _OPENED[entry["folder"]], truth, entry, site, ok[-1]
     pytest.fail(f"sample event: no site with a {kind} passage 2-6 h after a valid time")
 
 
@@ -590,6 +594,8 @@ def test_sample_event_cold_front_section():
     L = truth["prescribed"]["cold"]["zone_half_width_l_km"]
     centre = _crossing_km(sec, *_truth_line(entry, valid, "cold"))
     np.testing.assert_allclose(sec.attrs["surface_front_km"], centre + 0.658 * L, atol=45.0)
+    # [derived] front-normal wind = minus the along-section wind (section runs cold to warm)
+    np.testing.assert_allclose(sec["wind_normal_to_front"], -sec["v_along"], rtol=0)
     # [trade] the 0 C level falls behind the cold front
     d, fl = sec["distance"].values, sec["freezing_level_m"].values
     sfc = sec.attrs["surface_front_km"]
@@ -599,3 +605,28 @@ def test_sample_event_cold_front_section():
     # scenario regression: the event is built with a 1:50 cold frontal surface
     np.testing.assert_allclose(sec.attrs["frontal_slope_1_in"],
                                truth["prescribed"]["cold"]["slope_1_in"], rtol=0.15)
+
+
+# ----------------------------------------------------------------------------- no front
+def test_section_for_site_without_a_front_runs_along_the_gradient():
+    f = dict(t=lambda P, LA, LO: t_isa(P) - 0.5 * (LA - 45.0),  # colder to the north
+             td=lambda P, LA, LO: t_isa(P) - 0.5 * (LA - 45.0) - 5.0,
+             u=lambda P, LA, LO: 10.0 + 0 * LA, v=lambda P, LA, LO: 0 * LA,
+             z=lambda P, LA, LO: z_isa(P) + 0 * LA)
+    ds = make_run(f, np.arange(35.0, 55.01, 0.5), np.arange(-15.0, 15.01, 0.5))
+    site = {"name": "Orrin Cross", "lat": 45.0, "lon": 0.0}
+    sec = S.section_for_site(ds, site, TIMES[0], fronts=[])
+    # [derived] theta-w increases southward, so the cold-to-warm section runs N -> S
+    np.testing.assert_allclose(sec.attrs["section_bearing_deg"], 180.0, atol=1.0)
+    assert sec.attrs["front_kind"] == "" and "no front" in sec.attrs["note"]
+    np.testing.assert_allclose(sec.attrs["site_km"], 600.0, atol=1e-6)
+    assert (sec["rule_zone"].values == 0).all()
+    with pytest.raises(InputError, match="no warm front"):
+        S.section_for_site(ds, site, TIMES[0], front="warm", fronts=[])
+
+    from kit.charts.sections import section_figure
+
+    fig = section_figure(sec)
+    sub = next(t for t in fig.texts if t.get_gid() == "frontshift-subtitle").get_text()
+    assert "through Orrin Cross" in sub and "no front" in sub
+    assert "rule-zone" not in _gids(fig) and "site" in _gids(fig)
