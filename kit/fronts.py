@@ -263,20 +263,47 @@ def default_thresholds(smoothing_km):
 
 
 # --------------------------------------------------------------------------- fields
-def _tau_fields(tau, grid):
-    """Gradient, TFP, locating function and the K2 quantity of a (smoothed) field."""
-    gx, gy = geo.gradient(tau, grid)
-    mag = np.hypot(gx, gy)
-    mx, my = geo.gradient(mag, grid)
+_N_WORK = 11  # work arrays of the field pipeline
+_WORK_DTYPE = np.float32  # precision of the field pipeline inside find_fronts
+
+
+def _tau_fields(tau, grid, ws=None):
+    """Gradient, TFP, locating function and the K2 quantity of a (smoothed) field.
+
+    ``ws`` is an optional list of work arrays shaped and typed like ``tau``
+    (reused between valid times, so large grids do not allocate anew).
+    """
+    if ws is None:
+        ws = [np.empty(tau.shape, dtype=tau.dtype) for _ in range(_N_WORK)]
+    gx, gy, mag, mx, my, ux, uy, tfp, loc, k2q, tmp = ws[:_N_WORK]
+    geo._gradient_np(tau, grid, out=(gx, gy))
+    np.hypot(gx, gy, out=mag)
+    geo._gradient_np(mag, grid, out=(mx, my))
+    np.hypot(mx, my, out=k2q)
+    k2q *= grid.length_m / math.sqrt(2.0)
+    k2q += mag
     with np.errstate(invalid="ignore", divide="ignore"):
-        inv = 1.0 / mag
-        ux = gx * inv
-        uy = gy * inv
-    tfp = -(mx * ux + my * uy)
-    tx, ty = geo.gradient(tfp, grid)
-    loc = tx * ux + ty * uy
-    k2q = mag + (grid.length_m / math.sqrt(2.0)) * np.hypot(mx, my)
-    return {"gx": gx, "gy": gy, "grad": mag, "tfp": tfp, "loc": loc, "k2q": k2q}
+        np.divide(gx, mag, out=ux)
+        np.divide(gy, mag, out=uy)
+    np.multiply(mx, ux, out=tfp)
+    np.multiply(my, uy, out=tmp)
+    tfp += tmp
+    np.negative(tfp, out=tfp)
+    geo._gradient_np(tfp, grid, out=(mx, my))  # mx, my now hold grad TFP
+    np.multiply(mx, ux, out=loc)
+    np.multiply(my, uy, out=tmp)
+    loc += tmp
+    return {
+        "gx": gx,
+        "gy": gy,
+        "grad": mag,
+        "tfp": tfp,
+        "loc": loc,
+        "k2q": k2q,
+        "ux": ux,
+        "uy": uy,
+        "tmp": tmp,
+    }
 
 
 def _as_numpy_with_grid(tau, ds, what):
@@ -320,7 +347,8 @@ def front_fields(tau, ds):
         ``k2q`` (the quantity compared with K2 [K m-1]).
     """
     arr, grid = _as_numpy_with_grid(tau, ds, "front_fields")
-    return _tau_fields(arr, grid)
+    f = _tau_fields(arr, grid)
+    return {k: f[k] for k in ("gx", "gy", "grad", "tfp", "loc", "k2q")}
 
 
 def thermal_front_parameter(tau, ds):
@@ -424,29 +452,41 @@ def _trace_zero_lines(loc_masked, periodic):
     """Zero lines of a masked locating field in (fractional) index space.
 
     Returns a list of (x_index, y_index) arrays; x may exceed nx - 1 on a
-    periodic grid (take it modulo nx).
+    periodic grid (take it modulo nx). Only the rows (and, on a regional
+    grid, the columns) holding valid values are handed to contourpy.
     """
     import contourpy
 
     valid = np.isfinite(loc_masked)
-    if valid.sum() < 4:
+    rows = np.flatnonzero(valid.any(axis=1))
+    if rows.size < 2:
         return []
+    r0, r1 = int(rows[0]), int(rows[-1]) + 1
+    valid = valid[r0:r1]
+    c0 = 0
     shift = 0
-    z = loc_masked
     if periodic:
         shift, n_left = _seam_shift(valid)
-        z = np.roll(loc_masked, -shift, axis=1)
+        z = np.roll(loc_masked[r0:r1], -shift, axis=1)
         if n_left:
-            z = z.copy()
             z[:, 0] = np.nan  # break the few lines that cross the chosen seam
+    else:
+        cols = np.flatnonzero(valid.any(axis=0))
+        c0, c1 = int(cols[0]), int(cols[-1]) + 1
+        z = loc_masked[r0:r1, c0:c1]
+    if z.shape[0] < 2 or z.shape[1] < 2:
+        return []
     gen = contourpy.contour_generator(
-        z=np.ma.masked_invalid(z), line_type="Separate", corner_mask=False, name="serial"
+        z=np.asarray(z, dtype=np.float64),
+        line_type="Separate",
+        corner_mask=False,
+        name="serial",
     )
     out = []
     for xy in gen.lines(0.0):
         if len(xy) < 2:
             continue
-        out.append((xy[:, 0] + shift, xy[:, 1]))
+        out.append((xy[:, 0] + shift + c0, xy[:, 1] + r0))
     return out
 
 
@@ -459,8 +499,13 @@ def _masked_zero_lines(f, grid, k1, k2):
     strict masks would shred a line that runs along a mask edge.
     """
     with np.errstate(invalid="ignore"):
-        loose = (f["tfp"] > 0.5 * k1) & (f["k2q"] > 0.5 * k2)
-    loc = np.where(loose, f["loc"], np.nan)
+        outside = np.less_equal(f["tfp"], 0.5 * k1)
+        outside |= np.less_equal(f["k2q"], 0.5 * k2)
+    loc = f.get("tmp")
+    if loc is None:
+        loc = np.empty_like(f["loc"])
+    np.copyto(loc, f["loc"])
+    loc[outside] = np.nan
     for xi, yi in _trace_zero_lines(loc, grid.periodic):
         tfp, k2q = _sample([f["tfp"], f["k2q"]], xi, yi, grid.periodic)
         with np.errstate(invalid="ignore", divide="ignore"):
@@ -497,7 +542,10 @@ def _sample(arrays, xi, yi, periodic):
     """Bilinear values of 2-D arrays at fractional indices."""
     coords = np.vstack([yi, xi])
     mode = "grid-wrap" if periodic else "nearest"
-    return [ndimage.map_coordinates(a, coords, order=1, mode=mode, prefilter=False) for a in arrays]
+    return [
+        ndimage.map_coordinates(a, coords, output=np.float64, order=1, mode=mode, prefilter=False)
+        for a in arrays
+    ]
 
 
 def _line_lonlat(grid, xi, yi):
@@ -692,8 +740,10 @@ def _area_weights(grid):
     return dx * dy
 
 
-def _lines_at_time(f, grid, u, v, k1, k2, s, smoothing_km, valid_time, level, run, member):
+def _lines_at_time(f, grid, get_uv, k1, k2, s, smoothing_km, valid_time, level, run, member):
+    """Front objects at one valid time; ``get_uv()`` loads the steering wind."""
     fronts = []
+    uv = None
     window_km = max(grid.length_m / 1000.0, 0.5 * smoothing_km)
     for xi, yi in _masked_zero_lines(f, grid, k1, k2):
         lon, lat = _line_lonlat(grid, xi, yi)
@@ -701,8 +751,10 @@ def _lines_at_time(f, grid, u, v, k1, k2, s, smoothing_km, valid_time, level, ru
         length = float(np.sum(seg))
         if length < s.min_length_km or lon.size < 2:
             continue
+        if uv is None:
+            uv = get_uv()
         tfp, mag, gx, gy, uu, vv = _sample(
-            [f["tfp"], f["grad"], f["gx"], f["gy"], u, v], xi, yi, grid.periodic
+            [f["tfp"], f["grad"], f["ux"], f["uy"], uv[0], uv[1]], xi, yi, grid.periodic
         )
         te, tn = _tangents(lon, lat, window_km)
         ne, nn = -tn, te  # left-hand normal
@@ -830,39 +882,50 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
     run = ds.attrs.get("run")
     if run is not None:
         run = str(run)
-    all_fields = []  # (member, time, fields, u, v)
-    for m in members:
-        dm = ds.sel(member=m) if m is not None else ds
-        tau_all = _tau_of(dm, level, s)
-        tau_all = tau_all.transpose("time", ...)
-        u_all = dm["u"].isel(level=_level_index(dm, s.steering_level_hpa, "steering level"))
-        v_all = dm["v"].isel(level=_level_index(dm, s.steering_level_hpa, "steering level"))
-        u_all = u_all.transpose("time", ...)
-        v_all = v_all.transpose("time", ...)
-        for it in range(dm.sizes["time"]):
-            tau = np.asarray(tau_all.isel(time=it).values, dtype=np.float64)
-            if tau.shape != tuple(grid.shape):
-                raise InputError(
-                    f"find_fronts: field of shape {tau.shape} per time; expected the grid shape "
-                    f"{tuple(grid.shape)} (dimensions time, level, Y, X)"
-                )
-            tau_s = geo.smooth(tau, grid, smoothing_km)
-            f = _tau_fields(tau_s, grid)
-            u = np.asarray(u_all.isel(time=it).values, dtype=np.float64)
-            v = np.asarray(v_all.isel(time=it).values, dtype=np.float64)
+    steer = _level_index(ds, s.steering_level_hpa, "steering level")
+
+    def fields_iter():
+        """(member, valid time, fields, wind loader) for every member and time."""
+        ws = None
+        for m in members:
+            dm = ds.sel(member=m) if m is not None else ds
             member_id = None if m is None else int(m)
             if member_id is None and "member" in ds.coords and ds["member"].size == 1:
                 member_id = int(ds["member"].values)
-            all_fields.append((member_id, dm["time"].values[it], f, u, v))
+            for it in range(dm.sizes["time"]):
+                dt_ = dm.isel(time=it)
+                tau = np.asarray(_tau_of(dt_, level, s).values)
+                if tau.shape != tuple(grid.shape):
+                    raise InputError(
+                        f"find_fronts: field of shape {tau.shape} per time; expected the grid "
+                        f"shape {tuple(grid.shape)} (dimensions time, level, Y, X)"
+                    )
+                if ws is None:
+                    ws = [np.empty(grid.shape, dtype=_WORK_DTYPE) for _ in range(_N_WORK + 3)]
+                    cbuf = np.empty((grid.shape[0], grid.shape[1] // 2 + 1), dtype=np.complex64)
+                # work in float32 on the anomaly from a reference value: the
+                # rounding (1e-6 K) stays far below third differences of tau
+                ref = float(np.nanmean(tau[::7, ::7])) if np.isfinite(tau[::7, ::7]).any() else 0.0
+                np.subtract(tau, ref, out=ws[-3], casting="unsafe")
+                geo._smooth_np(ws[-3], grid, smoothing_km, out=ws[-2], tmp=ws[-1], cbuf=cbuf)
+                f = _tau_fields(ws[-2], grid, ws[:_N_WORK])
+
+                def get_uv(dt_=dt_):
+                    u = dt_["u"].isel(level=steer).transpose(*dt_["u"].dims[-2:]).values
+                    v = dt_["v"].isel(level=steer).transpose(*dt_["v"].dims[-2:]).values
+                    return np.asarray(u, dtype=np.float64), np.asarray(v, dtype=np.float64)
+
+                yield member_id, dm["time"].values[it], f, get_uv
 
     if s.k1_quantile is not None or s.k2_quantile is not None:
+        # first pass: thresholds as area-weighted quantiles over every field
         w_area = _area_weights(grid)[::2, ::2].ravel()
         tf, kq, ww = [], [], []
-        for _, _, f, _, _ in all_fields:
+        for _, _, f, _ in fields_iter():
             a, b = f["tfp"][::2, ::2].ravel(), f["k2q"][::2, ::2].ravel()
             ok = np.isfinite(a) & np.isfinite(b)
-            tf.append(a[ok])
-            kq.append(b[ok])
+            tf.append(a[ok].astype(np.float64))
+            kq.append(b[ok].astype(np.float64))
             ww.append(w_area[ok])
         tf, kq, ww = np.concatenate(tf), np.concatenate(kq), np.concatenate(ww)
         if tf.size == 0:
@@ -873,8 +936,8 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
             k2 = _weighted_quantile(kq, ww, float(s.k2_quantile))
 
     fronts = []
-    for member_id, t, f, u, v in all_fields:
-        found = _lines_at_time(f, grid, u, v, k1, k2, s, smoothing_km, t, level, run, member_id)
+    for member_id, t, f, get_uv in fields_iter():
+        found = _lines_at_time(f, grid, get_uv, k1, k2, s, smoothing_km, t, level, run, member_id)
         found.sort(key=lambda fr: -fr.length_km)
         for fr in found:
             fr.props["k1_K_100km2"] = float(k1 * 1e10)

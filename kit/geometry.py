@@ -68,6 +68,10 @@ class _Grid:
         "map_factor",
         "lat_rad",
         "lon_rad",
+        "fx",
+        "fy",
+        "_length_m",
+        "cache",
     )
 
     def __init__(self, ds, map_factor=None):
@@ -75,6 +79,8 @@ class _Grid:
             for name in self.__slots__:
                 setattr(self, name, getattr(ds, name))
             return
+        self._length_m = None
+        self.cache = {}
         if not isinstance(ds, (xr.Dataset, xr.DataArray)):
             raise InputError(
                 f"grid: got {type(ds).__name__}; expected an xarray Dataset or DataArray "
@@ -130,6 +136,18 @@ class _Grid:
             self.dx = EARTH_RADIUS_M * np.abs(np.outer(coslat, dxr))
             self.dy = EARTH_RADIUS_M * np.abs(np.broadcast_to(dyr[:, None], self.dx.shape))
             self.shape = (lat.size, lon.size)
+            # factors turning a two-step difference a[i+1] - a[i-1] into a
+            # derivative [m-1]: 0.5 / (metres per index step); NaN on pole rows
+            with np.errstate(divide="ignore", invalid="ignore"):
+                inv_cos = np.where(np.abs(coslat) > _POLE_COS, 1.0 / coslat, np.nan)
+            if np.allclose(dxr, dxr[0], rtol=1e-6, atol=0):
+                self.fx = (0.5 / (EARTH_RADIUS_M * dxr[0]) * inv_cos)[:, None]
+            else:
+                self.fx = (
+                    0.5 / (EARTH_RADIUS_M * np.outer(coslat, dxr)) * np.isfinite(inv_cos)[:, None]
+                )
+                self.fx[~np.isfinite(inv_cos)] = np.nan
+            self.fy = (0.5 / (EARTH_RADIUS_M * dyr))[:, None]
         else:
             if lat.ndim != 2 or lon.shape != lat.shape:
                 raise InputError(
@@ -183,6 +201,10 @@ class _Grid:
             # signed spacings: the sign of dx_m/dy_m says which way the axis runs
             self.dx = np.broadcast_to(dx_m / mfx, self.shape).astype(np.float64)
             self.dy = np.broadcast_to(dy_m / mfy, self.shape).astype(np.float64)
+            self.fx = 0.5 / self.dx
+            self.fy = 0.5 / self.dy
+            if np.all(self.fx == self.fx.flat[0]) and np.all(self.fy == self.fy.flat[0]):
+                self.fx, self.fy = float(self.fx.flat[0]), float(self.fy.flat[0])
             # local direction of the grid +x axis in earth east/north (grid convergence)
             lon_u = np.unwrap(self.lon_rad, axis=1)
             dlon_dx = _diff_axis(lon_u, axis=1, periodic=False)
@@ -196,15 +218,16 @@ class _Grid:
 
     @property
     def length_m(self):
-        """Typical grid length [m]: median of sqrt(dx dy) away from the poles."""
-        g = np.sqrt(np.abs(self.dx) * np.abs(self.dy))
-        g = g[np.isfinite(g) & (g > 0)]
-        if self.kind == "latlon":
-            keep = np.abs(np.broadcast_to(self.lat[:, None], self.shape)) < 60.0
-            gk = np.sqrt(np.abs(self.dx) * np.abs(self.dy))[keep]
-            if gk.size:
-                g = gk
-        return float(np.median(g))
+        """Typical grid length [m]: median of sqrt(dx dy) (|lat| < 60 on lat/lon grids)."""
+        if self._length_m is None:
+            if self.kind == "latlon":
+                g = np.sqrt(np.abs(self.dx[:, 0]) * np.abs(self.dy[:, 0]))
+                keep = (np.abs(self.lat) < 60.0) & np.isfinite(g) & (g > 0)
+                g = g[keep] if keep.any() else g[np.isfinite(g) & (g > 0)]
+            else:
+                g = np.sqrt(np.abs(self.dx) * np.abs(self.dy)).ravel()
+            self._length_m = float(np.median(g))
+        return self._length_m
 
 
 def _centred_spacing(coord, periodic):
@@ -325,34 +348,112 @@ def is_periodic(ds):
 
 
 # --------------------------------------------------------------------------- public: fields
-def _deriv_index(a, axis, periodic):
-    """NaN-aware derivative per index step along ``axis``.
+def _diff2(a, axis, periodic, rows=None, out=None):
+    """Two-step difference a[i+1] - a[i-1] along the last (-1) or second-last (-2) axis.
 
-    Centred difference where both neighbours are valid; one-sided where only
-    one is; NaN where neither (or the point itself) is.
+    At open edges and next to missing values the one-sided difference is
+    used, doubled (so the same factor turns it into a derivative); NaN where
+    the point itself is missing or both neighbours are. ``rows`` are the
+    indices along the second-last axis where missing values can matter
+    (None: there are none), so a field with a few NaN rows (poles) is cheap.
     """
-    a = np.moveaxis(a, axis, -1)
-    n = a.shape[-1]
-    out = np.full(a.shape, np.nan, dtype=a.dtype)
+    n = a.shape[axis]
+    if out is None:
+        out = np.empty(a.shape, dtype=a.dtype)
     if n < 2:
-        return np.moveaxis(out, -1, axis)
-    if periodic:
-        fwd = np.roll(a, -1, axis=-1) - a  # a[i+1] - a[i]
-        bwd = a - np.roll(a, 1, axis=-1)  # a[i] - a[i-1]
+        out[...] = np.nan
+        return out
+
+    def at(sl):
+        return (Ellipsis, sl) if axis == -1 else (Ellipsis, sl, slice(None))
+
+    np.subtract(a[at(slice(2, None))], a[at(slice(None, -2))], out=out[at(slice(1, -1))])
+    if periodic and n > 2:
+        np.subtract(a[at(slice(1, 2))], a[at(slice(-1, None))], out=out[at(slice(0, 1))])
+        np.subtract(a[at(slice(0, 1))], a[at(slice(-2, -1))], out=out[at(slice(-1, None))])
     else:
-        fwd = np.empty_like(a)
-        bwd = np.empty_like(a)
-        fwd[..., :-1] = a[..., 1:] - a[..., :-1]
-        fwd[..., -1] = np.nan
-        bwd[..., 1:] = fwd[..., :-1]
-        bwd[..., 0] = np.nan
-    out = 0.5 * (fwd + bwd)
-    bad = np.isnan(out)
+        out[at(0)] = 2.0 * (a[at(1)] - a[at(0)])
+        out[at(-1)] = 2.0 * (a[at(-1)] - a[at(-2)])
+    if rows is None or not len(rows):
+        return out
+    sub_a = a[..., rows, :]
+    sub_out = out[..., rows, :]
+    missing = np.isnan(sub_a)
+    bad = np.isnan(sub_out) & ~missing
     if bad.any():
-        out = np.where(bad, fwd, out)
-        bad = np.isnan(out)
-        out = np.where(bad, bwd, out)
-    return np.moveaxis(out, -1, axis)
+        # one-sided differences at the points next to a gap only
+        idx = list(np.nonzero(bad))
+        idx[-2] = rows[idx[-2]]
+        idx = tuple(idx)
+        ax = a.ndim + axis
+        i = idx[ax]
+
+        def neighbour(offset):
+            j = i + offset
+            if periodic:
+                ok = np.ones(j.shape, dtype=bool)
+                j = j % n
+            else:
+                ok = (j >= 0) & (j < n)
+                j = np.clip(j, 0, n - 1)
+            jj = list(idx)
+            jj[ax] = j
+            v = a[tuple(jj)].astype(a.dtype, copy=True)
+            v[~ok] = np.nan
+            return v
+
+        centre = a[idx]
+        fwd = 2.0 * (neighbour(1) - centre)
+        bwd = 2.0 * (centre - neighbour(-1))
+        out[idx] = np.where(np.isnan(fwd), bwd, fwd)
+    if missing.any():
+        sub_out = out[..., rows, :]
+        sub_out[missing] = np.nan
+        out[..., rows, :] = sub_out
+    return out
+
+
+def _nan_rows(arr):
+    """Flag the rows (second-last axis) holding a NaN; None if there are none."""
+    if not arr.size:
+        return None
+    ny = arr.shape[-2]
+    row_any = np.isnan(arr).any(axis=-1).reshape(-1, ny).any(axis=0)
+    if not row_any.any():
+        return None
+    return row_any
+
+
+def _gradient_np(arr, g, out=None):
+    """Gradient of a float ndarray on a _Grid: (d_east, d_north) [m-1].
+
+    ``out`` is an optional pair of buffers like ``arr`` for the result.
+    """
+    row_any = _nan_rows(arr)
+    rows_x = rows_y = None
+    if row_any is not None:
+        rows_x = np.flatnonzero(row_any)
+        near = row_any.copy()
+        near[1:] |= row_any[:-1]
+        near[:-1] |= row_any[1:]
+        rows_y = np.flatnonzero(near)
+    dt = arr.dtype
+    bx, by = (None, None) if out is None else out
+    gx = _diff2(arr, -1, g.periodic, rows_x, bx)
+    gx *= np.asarray(g.fx, dtype=dt)
+    gy = _diff2(arr, -2, False, rows_y, by)
+    gy *= np.asarray(g.fy, dtype=dt)
+    if g.kind == "latlon":
+        return gx, gy
+    c = g.rot_cos.astype(dt, copy=False)
+    s = g.rot_sin.astype(dt, copy=False)
+    # grid x axis points (c, s) in (east, north); y axis is (-s, c)
+    east = gx * c - gy * s
+    gy *= c
+    gx *= s
+    gy += gx  # north = gx s + gy c
+    np.copyto(gx, east)
+    return gx, gy
 
 
 def gradient(field, ds, *, map_factor=None):
@@ -397,29 +498,7 @@ def gradient(field, ds, *, map_factor=None):
     g = _grid(ds, map_factor)
     arr, wrap = _values(field)
     _check_shape(arr, g, "gradient")
-    di_x = _deriv_index(arr, -1, g.periodic)
-    di_y = _deriv_index(arr, -2, False)
-    if g.kind == "latlon":
-        # metres per index step along x and y (signed: the axes may run backwards)
-        step_x = (
-            EARTH_RADIUS_M
-            * np.cos(g.lat_rad)[:, None]
-            * _centred_spacing(g.lon_rad, g.periodic)[None, :]
-        )
-        step_y = EARTH_RADIUS_M * _centred_spacing(g.lat_rad, False)[:, None]
-        with np.errstate(divide="ignore", invalid="ignore"):
-            inv_x = np.where(np.abs(np.cos(g.lat_rad))[:, None] > _POLE_COS, 1.0 / step_x, np.nan)
-            inv_y = 1.0 / step_y
-        d_east = di_x * inv_x.astype(arr.dtype, copy=False)
-        d_north = di_y * inv_y.astype(arr.dtype, copy=False)
-    else:
-        gx = di_x / g.dx.astype(arr.dtype, copy=False)
-        gy = di_y / g.dy.astype(arr.dtype, copy=False)
-        c = g.rot_cos.astype(arr.dtype, copy=False)
-        s = g.rot_sin.astype(arr.dtype, copy=False)
-        # grid x axis points (c, s) in (east, north); y axis is (-s, c)
-        d_east = gx * c - gy * s
-        d_north = gx * s + gy * c
+    d_east, d_north = _gradient_np(arr, g)
     units = None
     if isinstance(field, xr.DataArray) and "units" in field.attrs:
         units = f"({field.attrs['units']}) m-1"
@@ -430,6 +509,117 @@ def _gauss_axis(a, sigma, axis, mode):
     if sigma < 0.05:
         return a
     return ndimage.gaussian_filter1d(a, sigma, axis=axis, mode=mode, truncate=3.5)
+
+
+def _runs(rows):
+    """Split sorted indices into runs of consecutive ones: list of slices."""
+    if rows.size == 0:
+        return []
+    cut = np.flatnonzero(np.diff(rows) != 1) + 1
+    return [slice(int(r[0]), int(r[-1]) + 1) for r in np.split(rows, cut)]
+
+
+def _smooth_plan(g, scale_km, dtype):
+    """Sigmas and (cached) filters of one grid and scale."""
+    key = ("smooth", float(scale_km), np.dtype(dtype).str)
+    plan = g.cache.get(key)
+    if plan is not None:
+        return plan
+    scale_m = scale_km * 1000.0
+    ny, nx = g.shape
+    dy = np.abs(g.dy)
+    sig_y = scale_m / float(np.median(dy[dy > 0]))
+    wy = _gauss_axis(np.ones(ny), sig_y, -1, "constant").astype(dtype)
+    dx_row = np.abs(g.dx)
+    if g.kind == "latlon":
+        dx_row = dx_row[:, 0]
+        with np.errstate(divide="ignore"):
+            sig_x = np.where(dx_row > 0, scale_m / np.maximum(dx_row, 1e-300), np.inf)
+    else:
+        sig_x = np.full(ny, scale_m / float(np.median(dx_row)))
+    sig_x = np.minimum(sig_x, nx / 6.0)
+    plan = {"sig_y": sig_y, "wy": wy[:, None]}
+    if g.periodic:
+        # Gaussian transfer function per row: the exact periodic kernel of any width
+        k = np.fft.rfftfreq(nx)
+        plan["transfer"] = np.exp(-2.0 * np.pi**2 * (sig_x[:, None] * k[None, :]) ** 2).astype(
+            dtype
+        )
+    else:
+        # rows whose sigmas differ by less than 2 % share one filter call
+        key_x = np.round(np.log(np.maximum(sig_x, 1e-3)) / np.log(1.02)).astype(int)
+        groups = []
+        for kk in np.unique(key_x):
+            rows = np.flatnonzero(key_x == kk)
+            sg = float(np.mean(sig_x[rows]))
+            wx = _gauss_axis(np.ones(nx), sg, -1, "constant").astype(dtype)
+            groups.extend((sl, sg, wx) for sl in _runs(rows))
+        plan["groups"] = groups
+    if len(g.cache) > 8:
+        g.cache.clear()
+    g.cache[key] = plan
+    return plan
+
+
+def _smooth_np(arr, g, scale_km, out=None, tmp=None, cbuf=None):
+    """Smooth a float ndarray (..., Y, X) on a _Grid; optional work buffers.
+
+    ``out`` receives the result (may not be ``arr``); ``tmp`` is a buffer
+    like ``arr``; ``cbuf`` a complex buffer of shape (..., Y, X // 2 + 1).
+    """
+    dtype = arr.dtype
+    if out is None:
+        out = np.empty(arr.shape, dtype=dtype)
+    if tmp is None:
+        tmp = np.empty(arr.shape, dtype=dtype)
+    plan = _smooth_plan(g, scale_km, dtype)
+    valid = np.isfinite(arr)
+    any_missing = not valid.all()
+    weight = None
+    if any_missing:
+        work = np.where(valid, arr, 0.0).astype(dtype, copy=False)
+        weight = valid.astype(dtype)
+    else:
+        work = arr
+    # Y pass: one sigma; open edges normalised by the filtered weight
+    if plan["sig_y"] >= 0.05:
+        ndimage.gaussian_filter1d(
+            work, plan["sig_y"], axis=-2, output=tmp, mode="constant", truncate=3.5
+        )
+        if any_missing:
+            weight = _gauss_axis(weight, plan["sig_y"], -2, "constant")
+        else:
+            tmp /= plan["wy"]
+    else:
+        np.copyto(tmp, work)
+    # X pass: sigma per row so the width in km is the same at every latitude
+    nx = g.shape[1]
+    if g.periodic:
+        if cbuf is None:
+            cbuf = np.empty(arr.shape[:-1] + (nx // 2 + 1,), dtype=np.result_type(dtype, 1j))
+        np.fft.rfft(tmp, axis=-1, out=cbuf)
+        cbuf *= plan["transfer"]
+        np.fft.irfft(cbuf, n=nx, axis=-1, out=out)
+        if any_missing:
+            weight = np.fft.irfft(np.fft.rfft(weight, axis=-1) * plan["transfer"], n=nx, axis=-1)
+    else:
+        for sl, sg, wx in plan["groups"]:
+            sel = (Ellipsis, sl, slice(None))
+            if sg >= 0.05:
+                ndimage.gaussian_filter1d(
+                    tmp[sel], sg, axis=-1, output=out[sel], mode="constant", truncate=3.5
+                )
+                if any_missing:
+                    weight[sel] = _gauss_axis(weight[sel], sg, -1, "constant")
+                else:
+                    out[sel] /= wx
+            else:
+                out[sel] = tmp[sel]
+    if any_missing:
+        with np.errstate(invalid="ignore", divide="ignore"):
+            np.divide(out, weight, out=out)
+        out[~(valid & (weight > 1e-6))] = np.nan
+    return out
 
 
 def smooth(field, ds, scale_km):
@@ -485,63 +675,7 @@ def smooth(field, ds, scale_km):
         )
     units = field.attrs.get("units") if isinstance(field, xr.DataArray) else None
     name = field.name if isinstance(field, xr.DataArray) else None
-    valid = np.isfinite(arr)
-    any_missing = not valid.all()
-    dtype = arr.dtype
-    work = np.where(valid, arr, 0.0).astype(dtype, copy=False) if any_missing else arr
-    weight = valid.astype(dtype) if any_missing else None
-    scale_m = scale_km * 1000.0
-    ny, nx = g.shape
-    dy = np.abs(g.dy)
-    sig_y = scale_m / float(np.median(dy[dy > 0]))
-    # Y pass: one sigma; open edges normalised by the filtered weight
-    work = _gauss_axis(work, sig_y, -2, "constant")
-    if any_missing:
-        weight = _gauss_axis(weight, sig_y, -2, "constant")
-    else:
-        wy = _gauss_axis(np.ones(ny, dtype=dtype), sig_y, -1, "constant")
-        work = work / wy[:, None]
-    # X pass: sigma per row so the width in km is the same at every latitude
-    dx_row = np.abs(g.dx)
-    if g.kind == "latlon":
-        dx_row = dx_row[:, 0]
-        with np.errstate(divide="ignore"):
-            sig_x = np.where(dx_row > 0, scale_m / np.maximum(dx_row, 1e-300), np.inf)
-    else:
-        sig_x = np.full(ny, scale_m / float(np.median(dx_row)))
-    sig_x = np.minimum(sig_x, nx / 6.0)
-    if g.periodic:
-        # a periodic row: multiply by the Gaussian's transfer function (exact
-        # periodic kernel, any width, one FFT for all rows)
-        k = np.fft.rfftfreq(nx)
-        transfer = np.exp(-2.0 * np.pi**2 * (sig_x[:, None] * k[None, :]) ** 2)
-        work = np.fft.irfft(np.fft.rfft(work, axis=-1) * transfer, n=nx, axis=-1).astype(
-            dtype, copy=False
-        )
-        if any_missing:
-            weight = np.fft.irfft(np.fft.rfft(weight, axis=-1) * transfer, n=nx, axis=-1)
-    else:
-        work = np.array(work, dtype=dtype, copy=True)
-        # rows whose sigmas differ by less than 2 % share one filter call
-        key = np.round(np.log(np.maximum(sig_x, 1e-3)) / np.log(1.02)).astype(int)
-        for kk in np.unique(key):
-            rows = np.nonzero(key == kk)[0]
-            sg = float(np.mean(sig_x[rows]))
-            if rows[-1] - rows[0] + 1 == rows.size:
-                sel = (Ellipsis, slice(rows[0], rows[-1] + 1), slice(None))
-            else:
-                sel = (Ellipsis, rows, slice(None))
-            work[sel] = _gauss_axis(work[sel], sg, -1, "constant")
-            if any_missing:
-                weight[sel] = _gauss_axis(weight[sel], sg, -1, "constant")
-            else:
-                wx = _gauss_axis(np.ones(nx, dtype=dtype), sg, -1, "constant")
-                work[sel] = work[sel] / wx
-    if any_missing:
-        with np.errstate(invalid="ignore", divide="ignore"):
-            work = np.where(valid & (weight > 1e-6), work / weight, np.nan).astype(
-                dtype, copy=False
-            )
+    work = _smooth_np(arr, g, scale_km)
     return wrap(work, name, units)
 
 

@@ -323,8 +323,10 @@ def test_nan_patch_far_away_does_not_move_the_front_but_one_across_breaks_it():
     # 10 degrees of longitude (about 700 km, 7 smoothing scales) west of the front
     far["t"][..., 30:40, 10:20] = np.nan
     moved = longest(F.find_fronts(far, level=1000.0, settings=s))
-    np.testing.assert_allclose(moved.lon, base.lon, atol=1e-9)
-    np.testing.assert_allclose(moved.lat, base.lat, atol=1e-9)
+    # unchanged to float32 rounding of the field pipeline (1e-3 degree ~ 0.1 km)
+    assert moved.lon.shape == base.lon.shape
+    np.testing.assert_allclose(moved.lon, base.lon, atol=1e-3)
+    np.testing.assert_allclose(moved.lat, base.lat, atol=1e-3)
 
     across = ds.copy(deep=True)
     j = int(np.argmin(np.abs(ds.lon.values - float(np.mean(base.lon)))))
