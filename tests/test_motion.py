@@ -380,6 +380,35 @@ def test_speeds_three_ways_wind_and_rule(lat0, vg_pub, hemisphere):
     assert warm.props["speed_tracked_ms"] is None
 
 
+def test_rule_from_1000_hpa_heights_without_mslp():
+    # [pub] Vg = (g/f) |grad z|: with no MSLP in the run, the isobar rule reads
+    # the 1000 hPa height gradient along the front; 32.6 m per 200 km is the
+    # height equivalent of 4 hPa (dz = dp / (rho g), rho 1.25) -> 15.5 m/s at
+    # 45 N as the worked example (REFERENCES.md)
+    ds = speed_dataset(45.0).drop_vars("mslp")
+    lat, lon = ds["lat"].values, ds["lon"].values
+    x_km = R_KM * np.cos(np.deg2rad(lat))[:, None] * np.deg2rad(lon - lon.mean())[None, :]
+    dz = 400.0 / (1.25 * motion.G0) * x_km / 200.0
+    z = ds["z"].values.copy()
+    z[:, 0] = 110.0 + dz
+    ds["z"] = (ds["z"].dims, z)
+    lon_f = np.arange(-12.0, -7.99, 0.1)
+    fr = make_front(lon_f, np.full(lon_f.size, 45.0), 0.0, 1.0, T0, kind="cold")
+    speeds_three_ways([fr], ds)
+    assert fr.props["speed_rule_source"] == "z1000"
+    assert fr.props["speed_geostrophic_rule_ms"] == pytest.approx(15.5, abs=0.06)
+
+
+def test_missing_steering_level_is_one_line_input_error():
+    ds = speed_dataset(50.0)
+    lon_f = np.arange(-12.0, -7.99, 0.1)
+    fr = make_front(lon_f, np.full(lon_f.size, 50.0), 0.0, 1.0, T0)
+    with pytest.raises(motion.InputError) as err:
+        speeds_three_ways([fr], ds, steering_level_hpa=300.0)
+    msg = str(err.value)
+    assert "\n" not in msg and "300 hPa" in msg and "levels" in msg
+
+
 def test_speed_flags_in_plain_words():
     ds = speed_dataset(50.0, v=0.5, dpdx_pa_per_km=0.05)
     lon = np.arange(-12.0, -7.99, 0.1)
@@ -625,3 +654,49 @@ def test_tracked_speed_is_robust_to_a_stuck_end():
     assert a.props["speed_tracked_ms"] == pytest.approx(10.0, rel=0.01)
     vk = np.array([np.nan if v is None else v for v in a.props["vn_tracked"]])
     assert np.nanmin(vk) == pytest.approx(0.0, abs=0.05)
+
+
+# --------------------------------------------------------------------------
+# the invented demo scenario: regression against sample_grids/truth.json
+# (the scenario's own prescribed values, NOT a science check)
+# --------------------------------------------------------------------------
+SAMPLE = ROOT / "sample_grids"
+
+
+@pytest.fixture(scope="module")
+def sample_truth():
+    return json.loads((SAMPLE / "truth.json").read_text())
+
+
+@pytest.fixture(scope="module")
+def sample_run_fronts(sample_truth):
+    import kit
+    from kit.motion import analyse_run
+
+    run = sorted(sample_truth["timing_offsets_h"].keys() - {"analyses"})[-1]  # the newest run
+    ds = kit.open_run(SAMPLE / sample_truth["sets"][run]["folder"])
+    return run, analyse_run(ds)
+
+
+def test_sample_event_speeds_regression(sample_truth, sample_run_fronts):
+    # [regression] invented scenario: the fronts move at prescribed normal
+    # speeds (truth.json speed_earth_ms per valid time; the warm front toward
+    # its cold side, +, the cold front toward its warm side, -): tracked
+    # speed within 10 % at every valid time, one track per front
+    run, fronts = sample_run_fronts
+    times = sample_truth["sets"][run]["times"]
+    assert {f.kind for f in fronts} == {"warm", "cold"}
+    for kind, sign in (("warm", 1.0), ("cold", -1.0)):
+        mine = [f for f in fronts if f.kind == kind]
+        assert len(mine) == len(times)  # one line per valid time
+        assert len({f.track for f in mine}) == 1
+        for f in mine:
+            key = str(np.datetime_as_string(f.valid_time, unit="s")) + "Z"
+            expected = sign * times[key]["speed_earth_ms"][kind]
+            assert f.props["speed_tracked_ms"] == pytest.approx(expected, rel=0.10), key
+            # the 850 hPa wind pushes the same way as the front moves
+            assert np.sign(f.props["speed_wind_ms"]) == sign
+    # the fronts' own timing estimate in knots for the table
+    df = motion.motion_table(fronts)
+    assert set(df["kind"]) == {"warm", "cold"}
+    assert df["speed_tracked_kt"].notna().all()

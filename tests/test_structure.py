@@ -318,3 +318,32 @@ def test_slope_on_a_projected_grid():
     res = front_slope(fr, ds, settings=SETTINGS)
     assert res["slope_1_in"] == pytest.approx(150.0, rel=0.10)
     assert res["n_vertices"] >= 10
+
+
+# --------------------------------------------------------------------------
+# the invented demo scenario: regression against sample_grids/truth.json
+# (the scenario's own prescribed values, NOT a science check)
+# --------------------------------------------------------------------------
+def test_sample_event_slopes_regression():
+    # [regression] invented scenario: frontal surfaces prescribed at 1 in 150
+    # (warm) and 1 in 50 (cold) (truth.json slopes_1_in); the slope traced in
+    # the run's 3-D field within 25 % at three valid times of the older run
+    import json
+    from pathlib import Path
+
+    import kit
+    from kit.fronts import FrontSettings, find_fronts
+
+    sample = Path(__file__).resolve().parents[1] / "sample_grids"
+    truth = json.loads((sample / "truth.json").read_text())
+    run = sorted(truth["timing_offsets_h"].keys() - {"analyses"})[0]  # the older run
+    ds = kit.open_run(sample / truth["sets"][run]["folder"])
+    ds = ds.isel(time=[0, ds.sizes["time"] // 2, ds.sizes["time"] - 1]).load()
+    settings = FrontSettings()
+    fronts = find_fronts(ds, settings=settings)
+    add_slopes(fronts, ds, settings=settings)
+    assert {f.kind for f in fronts} == {"warm", "cold"}
+    for f in fronts:
+        expected = truth["slopes_1_in"][f.kind]
+        assert f.props["slope_1_in"] == pytest.approx(expected, rel=0.25), (f.kind, f.valid_time)
+        assert f.props["slope_typical_1_in"] == expected  # the scenario uses the trade values
