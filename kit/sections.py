@@ -693,6 +693,7 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
         "start_lat": float(lat[0]), "start_lon": float(lon[0]),
         "end_lat": float(lat[-1]), "end_lon": float(lon[-1]),
         "length_km": float(dist[-1]),
+        "points_outside_grid": int((~np.isfinite(sec["t"].values).any(axis=0)).sum()),
     }
     mid = len(lat) // 2
     back, _, _ = _geod().inv(lon[mid], lat[mid], lon[0], lat[0])

@@ -630,3 +630,19 @@ def test_section_for_site_without_a_front_runs_along_the_gradient():
     sub = next(t for t in fig.texts if t.get_gid() == "frontshift-subtitle").get_text()
     assert "through Orrin Cross" in sub and "no front" in sub
     assert "rule-zone" not in _gids(fig) and "site" in _gids(fig)
+
+
+def test_section_partly_outside_the_grid_is_marked(front_run):
+    from kit.charts.sections import section_figure
+
+    # grid spans 25 W .. 5 E; the section starts 10 deg west of it
+    sec = S.section_between(front_run, (50.0, -35.0), (50.0, -5.0), spacing_km=20.0,
+                            time=TIMES[0])
+    lon = sec["lon"].values
+    outside = lon < -25.0
+    assert sec.attrs["points_outside_grid"] == int(outside.sum()) > 0
+    assert np.isnan(sec["t"].values[:, outside]).all()
+    assert np.isfinite(sec["t"].values[:, ~outside]).all()
+    fig = section_figure(sec)
+    assert "outside-grid" in _gids(fig)
+    assert any(t.get_text() == "outside the model grid" for t in fig.axes[0].texts)

@@ -180,6 +180,19 @@ def draw_section(ax, strip, sec):
                     color=fcol, zorder=9, gid="slope-label",
                     bbox=dict(boxstyle="round,pad=0.2", fc="white", ec=fcol, lw=0.8))
 
+    outside = ~np.isfinite(t).any(axis=0)
+    if outside.any():  # mark where the section leaves the model grid
+        half = 0.5 * float(np.median(np.diff(dist)))
+        edges = np.flatnonzero(np.diff(np.concatenate([[0], outside.astype(int), [0]])))
+        for a0, b0 in zip(edges[::2], edges[1::2], strict=True):
+            for a in [ax] + ([strip] if strip is not None else []):
+                a.axvspan(dist[a0] - half, dist[b0 - 1] + half, facecolor="#f2f2f2",
+                          edgecolor="#b0b0b0", hatch="///", lw=0, zorder=0.5, gid="outside-grid")
+            ax.text(0.5 * (dist[a0] + dist[b0 - 1]), 0.5, "outside the model grid",
+                    transform=ax.get_xaxis_transform(), ha="center", va="center",
+                    fontsize=FONT["label"], color=BRIEFING_COLOURS["muted"], zorder=9,
+                    bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.9))
+
     ax.set_yscale("log")
     pmax = float(lev.max())
     ptop = float(max(lev.min(), 100.0))
