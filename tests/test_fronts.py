@@ -174,7 +174,9 @@ def test_smoothed_zone_matches_one_dimensional_reference():
     ds = zone_latlon(50.0, 0.0, 0.25)
     fronts = F.find_fronts(ds, level=1000.0, settings=settings())
     assert len(fronts) == 1
-    x_ref = reference_x_km(100.0)  # default smoothing 100 km [lib: scipy 1-D]
+    sm = F.effective_smoothing_km(ds, settings())
+    assert sm == pytest.approx(50.0)  # the default on a 0.25-degree grid
+    x_ref = reference_x_km(sm)  # [lib: scipy 1-D]
     x = line_x_km(fronts[0], 0.0, 50.0, 0.0)
     # within a quarter of the 0.25-degree grid length (~22 km at 50 N)
     assert abs(np.mean(x) - x_ref) < 0.25 * geo.grid_length_km(ds)
@@ -187,7 +189,8 @@ def test_rotated_zone_gives_the_same_line(angle):
     fronts = F.find_fronts(ds, level=1000.0, settings=settings())
     fr = longest(fronts)
     x = line_x_km(fr, 0.0, 50.0, angle)
-    assert abs(np.median(x) - reference_x_km(100.0)) < geo.grid_length_km(ds)
+    x_ref = reference_x_km(F.effective_smoothing_km(ds, settings()))
+    assert abs(np.median(x) - x_ref) < geo.grid_length_km(ds)
     assert fr.kind == "warm"
     # normals point to the cold side (-x): the (cos a, sin a) component is -1
     a = np.deg2rad(angle)
