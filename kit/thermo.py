@@ -7,6 +7,23 @@ backed by dask stay lazy (the work runs block by block through
 kelvin, pressure in hectopascals, relative humidity as a fraction 0..1,
 specific humidity in kg kg-1, heights in metres.
 
+Choices and accuracy (checked in tests/test_thermo.py):
+
+- theta-e is Bolton's Eq. 39 with his own constants (Eq. 10 saturation
+  vapour pressure, kappa = 0.2854). Against a numerical integration of the
+  pseudo-adiabatic equation, theta-w from it is within 0.04 K over
+  1000-300 hPa and -40..35 C. ``kappa=2/7`` reproduces libraries that take
+  c_pd = 3.5 R_d (MetPy) to 0.001 K.
+- theta-w and the wet-bulb temperature are exact inverses of that theta-e
+  (Newton steps after [DaviesJones2008]; residual below 1e-6 K), so the
+  remaining error is Bolton's formula itself.
+- Freezing levels are heights [m] interpolated linearly between levels.
+
+Speed: large numpy inputs are evaluated in cache-sized blocks on a few
+threads; float32 inputs are computed in float32 (about twice as fast, within
+0.02 K of float64). One 0.25-degree global level of theta-w takes well under
+0.1 s (``python -m benchmarks``).
+
 Computation only: this module never imports graphics libraries.
 
 References

@@ -9,7 +9,11 @@ Where each expected value comes from is written beside it:
 No value from the invented demo scenario is used as a reference here.
 """
 
+import json
+from pathlib import Path
+
 import numpy as np
+import pandas as pd
 import pytest
 import xarray as xr
 from scipy.integrate import solve_ivp
@@ -685,3 +689,76 @@ def test_profiles_accept_plain_level_arrays_beside_xarray():
     assert wb.dims == ("x",) and np.all(wb.values < fl.values)
     with pytest.raises(InputError, match="1-D array of 3 values along 'level'"):
         thermo.freezing_level(t, z[:2])
+
+
+# ---------------------------------------------------------------------------
+# The invented demo event (sample_grids/): scenario regression checks, not
+# science references. The scenario prescribes a cold pool under warm air ahead
+# of the warm front at one site (truth.json "freezing_rain_site").
+# ---------------------------------------------------------------------------
+SAMPLE = Path(__file__).resolve().parents[1] / "sample_grids"
+needs_sample = pytest.mark.skipif(
+    not (SAMPLE / "truth.json").exists(), reason="sample_grids not written (python -m kit.scenario)"
+)
+
+
+@pytest.fixture(scope="module")
+def sample_truth():
+    return json.loads((SAMPLE / "truth.json").read_text())
+
+
+@pytest.fixture(scope="module")
+def sample_run():
+    import kit
+
+    opened = {}
+
+    def get(folder):
+        if folder not in opened:
+            opened[folder] = kit.open_run(str(SAMPLE / folder))
+        return opened[folder]
+
+    return get
+
+
+@needs_sample
+@pytest.mark.parametrize("set_name", ["analyses", "2027-01-13T12Z"])
+def test_sample_event_freezing_rain_window(sample_truth, sample_run, set_name):
+    info = sample_truth["sets"][set_name]
+    ds = sample_run(info["folder"])
+    sites = pd.read_csv(SAMPLE / "sites.csv").set_index("name")
+    name = sample_truth["freezing_rain_site"]
+    site = sites.loc[name]
+    col = ds.sel(lat=site.lat, lon=site.lon, method="nearest")
+    top, base, tmax = thermo.warm_layer_aloft(
+        col["t"], col["z"], t_surface=col["t2m"], z_surface=float(site.elevation_m)
+    )
+    found = np.isfinite(tmax.values)
+    # [scenario] a warm layer over sub-zero air is found at this site...
+    assert found.any(), f"no warm layer aloft at {name} in {set_name}"
+    assert np.all(tmax.values[found] > T0) and np.all(base.values[found] < top.values[found])
+    assert np.all(base.values[found] >= float(site.elevation_m))
+    # ...only in the hours before the warm front passes it
+    passage = np.datetime64(info["passages"][name]["warm"].rstrip("Z"))
+    times = col["time"].values[found]
+    assert np.all(times <= passage)
+    assert np.all(times >= passage - np.timedelta64(12, "h"))
+    # [def] the wet-bulb 0 C level is never above the 0 C level (T_W <= T)
+    fl = thermo.freezing_level(col["t"], col["z"]).values
+    wb = thermo.wet_bulb_freezing_level(col["t"], col["td"], col["z"], col["level"]).values
+    both = np.isfinite(fl) & np.isfinite(wb)
+    assert both.any() and np.all(wb[both] <= fl[both] + 1e-6)
+
+
+@needs_sample
+def test_sample_event_theta_w_lazy_and_consistent(sample_run):
+    ds = sample_run("analyses")
+    thw = thermo.theta_w_of(ds, level=850)
+    assert thw.chunks is not None  # stays lazy on dask-backed runs
+    one = thw.isel(time=3).values
+    t = ds["t"].sel(level=850).isel(time=3).values
+    td = ds["td"].sel(level=850).isel(time=3).values
+    np.testing.assert_allclose(one, thermo.wet_bulb_potential_temperature(t, td, 850.0), rtol=1e-12)
+    # [def] the wet-bulb temperature lies between the dew point and the temperature
+    tw = thermo.wet_bulb_temperature(t, td, 850.0)
+    assert np.all(tw <= t + 1e-9) and np.all(tw >= td - 1e-9)
