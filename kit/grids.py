@@ -269,6 +269,11 @@ _PLAUSIBLE = {
     "precip": (0.0, 500.0, "mm h-1 (or mm per step)"),
 }
 _REQUIRED = ("t", "u", "v", "z")
+_NOT_PRESSURE_STD = (
+    "atmosphere_hybrid_sigma_pressure_coordinate", "model_level_number",
+    "atmosphere_sigma_coordinate", "atmosphere_hybrid_height_coordinate", "altitude",
+    "atmosphere_sleve_coordinate", "air_potential_temperature",
+)
 
 
 # --------------------------------------------------------------------------- small helpers
@@ -707,6 +712,12 @@ def _level_dims(ds, where):
             except InputError:
                 pressure_units = False
         named = dim in _LEVEL_DIM_NAMES or dim.lower() in {n.lower() for n in _LEVEL_DIM_NAMES}
+        if std in _NOT_PRESSURE_STD:
+            raise _err(
+                where,
+                f"vertical coordinate '{dim}' is {std}, not pressure; expected pressure levels "
+                "(standard_name air_pressure, in hPa or Pa): interpolate to pressure levels first",
+            )
         if std == "air_pressure" or pressure_units or (named and units is None):
             if units is not None and not pressure_units:
                 raise _err(where, f"level coordinate '{dim}' has unit '{units}'; expected Pa or hPa")
@@ -719,11 +730,7 @@ def _level_dims(ds, where):
                 )
                 hpa = vals * scale
             found[dim] = hpa
-        elif named or std in (
-            "atmosphere_hybrid_sigma_pressure_coordinate", "model_level_number",
-            "atmosphere_sigma_coordinate", "height", "altitude",
-            "atmosphere_hybrid_height_coordinate",
-        ) or (c.attrs.get("axis") == "Z" and dim not in ("height", "heightAboveGround")):
+        elif named or (c.attrs.get("axis") == "Z" and dim not in ("height", "heightAboveGround")):
             if std in ("height",) or dim in ("height", "heightAboveGround", "height2m", "height10m"):
                 continue
             what = std or c.attrs.get("long_name") or f"unit '{units}'"
