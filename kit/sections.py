@@ -306,6 +306,7 @@ def _at_time(ds, time, member):
     keep += sorted({ds[n].attrs["grid_mapping"] for n in _REQUIRED
                     if ds[n].attrs.get("grid_mapping") in ds.variables})
     one = ds[keep].sel(time=t) if "time" in ds.dims else ds[keep]
+    one = one.sortby("level", ascending=False)  # 1000 hPa first, as the canonical Dataset
     if "time" in one.coords:
         one = one.drop_vars("time")
     return one.load(), t

@@ -646,3 +646,32 @@ def test_section_partly_outside_the_grid_is_marked(front_run):
     fig = section_figure(sec)
     assert "outside-grid" in _gids(fig)
     assert any(t.get_text() == "outside the model grid" for t in fig.axes[0].texts)
+
+
+def test_section_across_front_southern_hemisphere_and_dateline():
+    # a zonal front at 50 S on a grid contiguous across the dateline (160 E .. 150 W as
+    # 160..210), cold air to the south; the front's vertices run past 180
+    ds = make_run(sloping_front_fields(100.0, south=True), np.arange(-62.0, -37.99, 0.25),
+                  np.arange(160.0, 210.01, 0.5))
+    lon = np.arange(170.0, 200.01, 1.0)
+    n = lon.size
+    front = Front(lon=lon, lat=np.full(n, -50.0), kind="cold", valid_time=TIMES[0],
+                  level_hpa=850.0, tfp=np.zeros(n), grad=np.zeros(n), normal_east=np.zeros(n),
+                  normal_north=np.full(n, -1.0), vn=np.zeros(n), speed_ms=8.0, length_km=2100.0)
+    site = {"name": "Wirrandel", "lat": -49.0, "lon": -175.0}  # 185 E written as -175
+    sec = S.section_across_front(ds, front, site, length_km=1000.0)
+    # [derived] cold side south: the section runs S -> N through the site
+    np.testing.assert_allclose((sec.attrs["section_bearing_deg"] + 180.0) % 360.0 - 180.0, 0.0,
+                               atol=0.5)
+    assert (sec.attrs["compass_start"], sec.attrs["compass_end"]) == ("S", "N")
+    assert np.isfinite(sec["t"].values).all()
+    from pyproj import Geod
+
+    _, _, d = Geod(ellps="WGS84").inv(sec.attrs["start_lon"], sec.attrs["start_lat"], -175.0,
+                                      -49.0)
+    np.testing.assert_allclose(sec.attrs["site_km"], d / 1000.0, atol=1.0)  # [lib] pyproj
+    # PV is negative in the southern hemisphere; the tropopause is found at -2 PVU
+    assert np.nanmedian(sec["pv"].sel(level=250.0)) < -2.0
+    assert np.isfinite(sec["dynamic_tropopause_hpa"].values).all()
+    # zone built at 1:100 (invented field), recovered within 10 %
+    np.testing.assert_allclose(sec.attrs["frontal_slope_1_in"], 100.0, rtol=0.10)
