@@ -483,6 +483,9 @@ def test_figure_content(figure_and_section):
     assert "Run 2027-01-13T18Z" in title and "14 Jan 2027 03:00 UTC" in title and "T+9 h" in title
     assert kit.CAUTION in texts
     assert any(t.startswith("slope 1:") for t in texts)
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert "2 PVU (dynamic tropopause)" in legend and "0 °C isotherm" in legend
+    assert "wet-bulb 0 °C" in legend and "frontal surface" in legend
     assert {"N", "S"} <= set(texts)
     assert any("Harrowmere" in t for t in texts)
     assert any("Source: synthetic test fields" == t for t in texts)
@@ -675,3 +678,8 @@ def test_section_across_front_southern_hemisphere_and_dateline():
     assert np.isfinite(sec["dynamic_tropopause_hpa"].values).all()
     # zone built at 1:100 (invented field), recovered within 10 %
     np.testing.assert_allclose(sec.attrs["frontal_slope_1_in"], 100.0, rtol=0.10)
+    from kit.charts.sections import section_figure
+
+    fig = section_figure(sec)
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert "-2 PVU (dynamic tropopause)" in legend  # [pub] Hoskins et al. (1985), south

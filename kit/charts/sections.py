@@ -304,7 +304,17 @@ def draw_section(ax, strip, sec):
     return art
 
 
-def _legend_handles(art):
+def _pv_words(sec):
+    """Legend text of the dynamic tropopause line: +2 PVU north, -2 PVU south."""
+    lat = np.asarray(sec["lat"].values, float)
+    if (lat >= 0).all():
+        return "2 PVU (dynamic tropopause)"
+    if (lat < 0).all():
+        return "-2 PVU (dynamic tropopause)"
+    return "\u00b12 PVU (dynamic tropopause, sign of latitude)"
+
+
+def _legend_handles(art, sec):
     h = [Line2D([], [], color=SECTION_COLOURS["theta_w"], lw=0.8,
                 label="theta-w [°C], every 2 K")]
     if "isotachs" in art:
@@ -316,8 +326,7 @@ def _legend_handles(art):
         h.append(Line2D([], [], color=SECTION_COLOURS["zero"], lw=1.4, ls=(0, (1.5, 1.5)),
                         label="wet-bulb 0 °C"))
     if "pv2" in art:
-        h.append(Line2D([], [], color=SECTION_COLOURS["pv2"], lw=2.2,
-                        label="2 PVU (dynamic tropopause)"))
+        h.append(Line2D([], [], color=SECTION_COLOURS["pv2"], lw=2.2, label=_pv_words(sec)))
     if "frontal-surface" in art:
         h.append(Line2D([], [], color=art["frontal-surface"].get_color(), lw=2.6, marker="o",
                         ms=3.5, label="frontal surface"))
@@ -361,7 +370,7 @@ def section_figure(sec, *, figsize=(11.0, 7.6)):
         cb.set_label("Relative humidity [%] (cloud proxy)", fontsize=FONT["small"])
         cb.ax.tick_params(labelsize=FONT["tick"] - 0.5)
         cb.ax.set_gid("rh-colourbar")
-        fig.legend(handles=_legend_handles(art), loc="lower center", ncol=4,
+        fig.legend(handles=_legend_handles(art, sec), loc="lower center", ncol=4,
                    bbox_to_anchor=(0.5, 0.45 / figsize[1]), fontsize=FONT["small"],
                    frameon=False, columnspacing=1.4, handlelength=2.6)
     a = sec.attrs
