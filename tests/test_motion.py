@@ -701,3 +701,11 @@ def test_sample_event_speeds_regression(sample_truth, sample_run_fronts):
     df = motion.motion_table(fronts)
     assert set(df["kind"]) == {"warm", "cold"}
     assert df["speed_tracked_kt"].notna().all()
+
+
+def test_empty_inputs():
+    assert track_fronts([]) == []
+    assert speeds_three_ways([], speed_dataset(50.0)) == []
+    from kit.structure import add_slopes
+
+    assert add_slopes([], speed_dataset(50.0)) == []
