@@ -1131,6 +1131,16 @@ def warm_layer_aloft(t, z, *, dim="level", t_surface=None, z_surface=None):
         and the warmest level temperature inside it [K]. NaN where the air
         at the ground is not below 0 C, where no warm layer lies above it,
         or where the warm layer reaches the top of the data.
+
+    Examples
+    --------
+    -3 C at the ground, +3 C at 1000 m, -10 C at 3000 m:
+
+    >>> top, base, tmax = warm_layer_aloft(
+    ...     273.15 + np.array([-3.0, 3.0, -10.0]), np.array([0.0, 1000.0, 3000.0])
+    ... )
+    >>> round(float(base)), round(float(top)), round(float(tmax) - 273.15, 1)
+    (500, 1462, 3.0)
     """
     z = _profile_like(z, t, dim, "heights")
     arrays = [t, z]

@@ -762,3 +762,10 @@ def test_sample_event_theta_w_lazy_and_consistent(sample_run):
     # [def] the wet-bulb temperature lies between the dew point and the temperature
     tw = thermo.wet_bulb_temperature(t, td, 850.0)
     assert np.all(tw <= t + 1e-9) and np.all(tw >= td - 1e-9)
+
+
+def test_docstring_examples_run():
+    import doctest
+
+    result = doctest.testmod(thermo, optionflags=doctest.ELLIPSIS)
+    assert result.attempted >= 10 and result.failed == 0
