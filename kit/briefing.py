@@ -49,7 +49,11 @@ TABLE_COLUMNS = {
     "temp_change_c": "\u0394T [\u00b0C]",
     "freezing_level_before_m": "0\u00b0C before [m]",
     "freezing_level_after_m": "0\u00b0C after [m]",
+    "note": "Note",
 }
+
+#: longest note shown in a table cell [characters]
+NOTE_CHARS = 34
 
 #: extra cautions printed on the cover (the kit's own wording)
 COVER_NOTES = (
@@ -74,6 +78,11 @@ def _short_time(text):
 def _cell(value):
     if value is None:
         return ""
+    if isinstance(value, str):
+        try:  # numbers read back from CSV
+            value = float(value) if value.strip() and not value.endswith("Z") else value
+        except ValueError:
+            pass
     if isinstance(value, float):
         if np.isnan(value):
             return ""
@@ -190,6 +199,11 @@ def table_figures(frame, *, title, run, valid_time=None, source="", columns=None
                  if isinstance(t, str) and t]
         valid_time = (min(times), max(times)) if times else pd.Timestamp.now("UTC").floor("h")
     body = [[_cell(v) for v in row] for row in frame[list(columns)].itertuples(index=False)]
+    if "note" in columns:
+        k = list(columns).index("note")
+        for row in body:
+            if len(row[k]) > NOTE_CHARS:
+                row[k] = row[k][: NOTE_CHARS - 3] + "..."
     pages = max(1, int(np.ceil(len(body) / rows_per_page)))
     figs = []
     for page in range(pages):
@@ -201,6 +215,7 @@ def table_figures(frame, *, title, run, valid_time=None, source="", columns=None
                              cellLoc="center", colLoc="center")
             table.auto_set_font_size(False)
             table.set_fontsize(7.5)
+            table.auto_set_column_width(list(range(len(columns))))
             table.scale(1.0, 1.35)
             for (r, _c), cell in table.get_celld().items():
                 cell.set_edgecolor("#c5ccd1")
