@@ -11,8 +11,18 @@ line is carried on at the tracked speed for at most ``horizon_h`` hours and the
 row is flagged ``extrapolated``. When the crossing happens beyond an end of the
 line (farther than ``along_tolerance_km``) the front misses the site: the row
 has an empty ``passage_utc`` and a ``note`` such as "cold front passes 240 km
-N of site (line ends there)". A site with no passage in the window gets one row
-with an empty ``front_kind`` and a note.
+N of site (line ends there)" (one such row per front that never crosses the
+site, and only when its end comes within ``miss_report_km``). A site with no
+passage in the window gets one row with an empty ``front_kind`` and a note.
+
+The locating line of the thermal front parameter lies on the warm edge of the
+frontal zone (Hewson 1998). With ``zone_centre=True`` (default) the passage is
+that of the zone's centre, the middle of the temperature change, which is also
+where a station series shows the thermal step: the line is moved toward the
+cold side by ``0.760 |grad tau| / TFP`` (exact for a tanh-shaped zone; see
+:data:`ZONE_CENTRE_FACTOR`), given as ``zone_centre_offset_km``. At 8 m/s a
+100 km offset is 3.5 h, so the choice matters; ``zone_centre=False`` times the
+warm edge.
 
 Fronts found on a pressure level (850 hPa by default) lie ahead of or behind
 the surface front because frontal surfaces slope: the surface front lies on the
@@ -20,7 +30,8 @@ warm side of the elevated line by ``h * N`` where ``h`` is the level's height
 above the site and ``1:N`` the front's slope (``front.props["slope_1_in"]``,
 else the typical 1:150 warm and 1:50 cold, common practice, no source). With
 ``surface=True`` (default) the passage is that of the surface front so
-estimated; ``surface_offset_km`` says how far the line was moved.
+estimated; ``surface_offset_km`` says how far the line was moved toward the
+warm side.
 
 The weather sequence comes from the model fields interpolated bilinearly to the
 site (:func:`site_series`): precipitation start and end (rate at or above
@@ -51,7 +62,7 @@ import xarray as xr
 
 from kit import CAUTION
 from kit.errors import InputError
-from kit.sites import _extent_text, _local_en, grid_position, read_sites
+from kit.sites import _extent_text, _local_en, grid_position, grid_positions, read_sites
 
 __all__ = [
     "CONTRACT_COLUMNS",
@@ -93,6 +104,7 @@ EXTRA_COLUMNS = [
     "level_hpa",
     "extrapolated",
     "surface_offset_km",
+    "zone_centre_offset_km",
     "passage_earliest_utc",
     "passage_median_utc",
     "passage_latest_utc",
@@ -127,6 +139,11 @@ CLOUD_RH = 0.95
 SNOW_WBFL_M = 300.0
 #: typical slopes 1:N when the front has none (REFERENCES.md, [trade])
 TYPICAL_SLOPE_1_IN = {"warm": 150.0, "cold": 50.0}
+#: distance from the locating line to the zone centre per |grad tau| / TFP [1]. For a
+#: tanh zone the TFP peaks at x = atanh(1/sqrt 3) L = 0.658 L (REFERENCES.md, analytic
+#: check) where |grad tau| / TFP = 0.5 / tanh(x / L) = (sqrt 3 / 2) L; ratio 0.7603
+ZONE_CENTRE_FACTOR = math.atanh(1.0 / math.sqrt(3.0)) / (math.sqrt(3.0) / 2.0)
+_MAX_CENTRE_KM = 300.0
 #: rule of thumb distances [nautical miles] (REFERENCES.md, [trade])
 WARM_RAIN_AHEAD_NM = (200.0, 300.0)
 COLD_HEAVY_BEHIND_NM = (50.0, 100.0)
@@ -642,7 +659,119 @@ def _slope_1_in(front):
     return (typ, "typical") if typ else (np.nan, "none")
 
 
-def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_tolerance_km=100.0):
+def _zone_centre_km(front):
+    """Distance from the locating line to the frontal zone's centre, toward the cold side [km].
+
+    The locating line lies on the warm edge of the frontal zone (Hewson 1998).
+    For a tanh zone of half-width L the line is at 0.658 L from the centre,
+    where |grad tau| / TFP = 0.866 L; so the centre lies
+    :data:`ZONE_CENTRE_FACTOR` |grad tau| / TFP = 0.760 |grad tau| / TFP on the
+    cold side (derived from the analytic zone of REFERENCES.md). The median over the vertices is used; NaN when the
+    front carries no usable ``grad``/``tfp``.
+    """
+    grad = np.asarray(front.grad, dtype=float)
+    tfp = np.asarray(front.tfp, dtype=float)
+    ok = np.isfinite(grad) & np.isfinite(tfp) & (tfp > 0) & (grad > 0)
+    if not ok.any():
+        return np.nan
+    km = ZONE_CENTRE_FACTOR * float(np.median(grad[ok] / tfp[ok])) / 1000.0
+    return km if 0.0 < km <= _MAX_CENTRE_KM else np.nan
+
+
+class _ZoneCentre:
+    """Distance from a locating line to the frontal zone's centre, from the run's field.
+
+    The centre is the maximum of the smoothed thermal gradient along the front
+    normal on the cold side of the line (where the thermal front parameter
+    changes sign), sampled with cubic interpolation every 2 km out to
+    ``max_km``; the smoothing and thermal field are those of the front finder
+    (kit.fronts.FrontSettings). Falls back to the tanh estimate
+    (:func:`_zone_centre_km`) where no maximum is found.
+    """
+
+    def __init__(self, ds, settings=None, max_km=_MAX_CENTRE_KM, step_km=2.0):
+        from kit import fronts as kf
+
+        self.ds = ds
+        self.settings = settings if settings is not None else kf.FrontSettings()
+        self.max_km, self.step_km = max_km, step_km
+        self._cache = {}
+
+    def _grad(self, level, time):
+        key = (float(level), np.datetime64(time, "ns"))
+        if key not in self._cache:
+            from scipy.ndimage import spline_filter
+
+            from kit import fronts as kf
+            from kit import geometry as geo
+            from kit import thermo
+
+            one = self.ds.sel(time=[key[1]])
+            if getattr(self.settings, "field", "theta_w") == "theta":
+                tau = thermo.level_field(one, "theta", key[0])
+            else:
+                tau = thermo.theta_w_of(one, key[0])
+            tau = tau.isel(time=0) if "time" in getattr(tau, "dims", ()) else tau
+            tau = geo.smooth(tau, one, kf.effective_smoothing_km(one, self.settings))
+            gx, gy = geo.gradient(tau, one)
+            g = np.hypot(np.asarray(gx, dtype=float), np.asarray(gy, dtype=float))
+            self._cache[key] = spline_filter(np.nan_to_num(g, nan=0.0), order=3)
+        return self._cache[key]
+
+    def offset_km(self, front, lat, lon):
+        """Offset [km] toward the cold side at the vertex nearest to (lat, lon); NaN if none."""
+        from scipy.ndimage import map_coordinates
+
+        from kit import geometry as geo
+
+        if front.level_hpa is None:
+            return np.nan
+        lon_v = np.asarray(front.lon, dtype=float)
+        lat_v = np.asarray(front.lat, dtype=float)
+        x, y = _local_en(lon_v, lat_v, float(lon), float(lat))
+        k = int(np.nanargmin(x * x + y * y))
+        ne, nn = float(front.normal_east[k]), float(front.normal_north[k])
+        if not (np.isfinite(ne) and np.isfinite(nn)) or ne == nn == 0:
+            return np.nan
+        bearing = math.degrees(math.atan2(ne, nn))
+        dist = np.arange(0.0, self.max_km + self.step_km / 2, self.step_km)
+        plon, plat = geo.destination(
+            np.full(dist.size, lon_v[k]),
+            np.full(dist.size, lat_v[k]),
+            np.full(dist.size, bearing),
+            dist,
+        )
+        pos = grid_positions(self.ds, plat, plon)
+        ok = np.all(np.isfinite(pos), axis=1)
+        if ok.sum() < 5 or not ok[0]:
+            return np.nan
+        coeffs = self._grad(front.level_hpa, front.valid_time)
+        vals = np.full(dist.size, np.nan)
+        vals[ok] = map_coordinates(coeffs, pos[ok].T, order=3, prefilter=False, mode="nearest")
+        last = int(np.nonzero(~ok)[0][0]) if (~ok).any() else dist.size
+        vals = vals[:last]
+        j = int(np.nanargmax(vals))
+        if j == vals.size - 1:  # still rising at the end: no centre found
+            return np.nan
+        if 0 < j:  # parabolic refinement of the maximum
+            a, b, c = vals[j - 1], vals[j], vals[j + 1]
+            den = a - 2 * b + c
+            frac = 0.5 * (a - c) / den if den < 0 else 0.0
+            return float(dist[j] + frac * self.step_km)
+        return 0.0
+
+
+def find_passages(
+    fronts,
+    series,
+    *,
+    surface=True,
+    zone_centre=True,
+    horizon_h=12.0,
+    along_tolerance_km=100.0,
+    miss_report_km=500.0,
+    centre_finder=None,
+):
     """Passages of tracked fronts over one site.
 
     Parameters
@@ -654,10 +783,21 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
         site position, elevation and the height of the front's level.
     surface : bool
         Estimate the surface front's passage from the slope (module notes).
+    zone_centre : bool
+        Time the passage of the frontal zone's centre (the middle of the
+        temperature change) rather than of its warm edge, where the locating
+        line lies (module notes).
     horizon_h : float
         Longest extrapolation past the last step at the tracked speed [h].
     along_tolerance_km : float
         How far beyond an end of the line a crossing still counts [km].
+    miss_report_km : float
+        A front whose end passes farther from the site than this is not
+        reported as a miss [km].
+    centre_finder : object with ``offset_km(front, lat, lon)``, optional
+        Measures the line-to-centre distance in the run's own field (as
+        :func:`arrival_table` does); without it the tanh estimate from the
+        front's ``grad`` and ``tfp`` is used.
 
     Returns
     -------
@@ -665,7 +805,9 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
         One per passage or miss: ``track``, ``front_kind``, ``passage`` (float
         hours since 1970, NaN for a miss), ``speed_kt`` (tracked speed of the
         line over the site [kt]), ``extrapolated`` (bool), ``surface_offset_km``
-        [km], ``level_hpa``, ``note``.
+        (slope shift toward the warm side [km]), ``zone_centre_offset_km``
+        (shift toward the cold side [km]), ``level_hpa``, ``note``. A track that
+        passes the site gives no miss; a track that does not gives at most one.
     """
     lat, lon = series.attrs["lat"], series.attrs["lon"]
     elev = float(series.attrs.get("elevation_m", 0.0))
@@ -696,8 +838,17 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
                     )
                     if np.isfinite(zl):
                         shift = max(zl - elev, 0.0) * n / 1000.0
-            g["d_km"] += shift
-            g["shift"] = shift
+            centre = np.nan
+            near = abs(g["d_km"] + shift) < 3.0 * _MAX_CENTRE_KM and g["overshoot_km"] < 1000.0
+            if zone_centre and centre_finder is not None and near:
+                centre = centre_finder.offset_km(f, lat, lon)
+            if zone_centre and not np.isfinite(centre):
+                centre = _zone_centre_km(f)
+            centre = 0.0 if not np.isfinite(centre) else centre
+            # d is positive on the cold side: moving the line toward the warm side
+            # by `shift` puts the site farther on its cold side, and vice versa
+            g["d_km"] += shift - centre
+            g["shift"], g["centre"] = shift, centre
             # a split track may hold several lines at one time: keep the nearest
             if (
                 h not in by_time
@@ -707,7 +858,7 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
                 by_time[h] = (f, g)
         times = sorted(by_time)
         steps = [(h, *by_time[h]) for h in times]
-        found = False
+        hits, misses = [], []
         for (h0, f0, g0), (h1, f1, g1) in zip(steps[:-1], steps[1:], strict=True):
             d0, d1 = g0["d_km"], g1["d_km"]
             if d0 == d1 or d0 * d1 > 0 or (d0 == 0 and h0 != times[0]):
@@ -720,15 +871,15 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
             kind = f0.kind if w < 0.5 else f1.kind
             over = (1 - w) * g0["overshoot_km"] + w * g1["overshoot_km"]
             shift = (1 - w) * g0["shift"] + w * g1["shift"]
-            found = True
+            centre = (1 - w) * g0["centre"] + w * g1["centre"]
             if over > along_tolerance_km:
                 g = g0 if w < 0.5 else g1
-                out.append(_miss(tid, kind, f0, g, tp, shift))
+                misses.append(_miss(tid, kind, f0, g, tp, shift, centre))
                 continue
             note = "quasi-stationary: timing uncertain" if kind == "quasi-stationary" else ""
             if f0.kind != f1.kind:
                 note = (note + "; " if note else "") + f"type changes {f0.kind} -> {f1.kind}"
-            out.append(
+            hits.append(
                 {
                     "track": tid,
                     "front_kind": kind,
@@ -736,11 +887,12 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
                     "speed_kt": rate / _KMH_PER_KT,
                     "extrapolated": False,
                     "surface_offset_km": shift,
+                    "zone_centre_offset_km": centre,
                     "level_hpa": f0.level_hpa,
                     "note": note,
                 }
             )
-        if steps and not found:
+        if steps and not hits and not misses:
             hK, fK, gK = steps[-1]
             if len(steps) >= 2:
                 hJ, _, gJ = steps[-2]
@@ -754,9 +906,11 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
                 if dt <= horizon_h:
                     tp = hK + dt
                     if gK["overshoot_km"] > along_tolerance_km:
-                        out.append(_miss(tid, fK.kind, fK, gK, tp, gK["shift"], extrap=True))
+                        misses.append(
+                            _miss(tid, fK.kind, fK, gK, tp, gK["shift"], gK["centre"], True)
+                        )
                     else:
-                        out.append(
+                        hits.append(
                             {
                                 "track": tid,
                                 "front_kind": fK.kind,
@@ -764,16 +918,23 @@ def find_passages(fronts, series, *, surface=True, horizon_h=12.0, along_toleran
                                 "speed_kt": abs(rate) / _KMH_PER_KT,
                                 "extrapolated": True,
                                 "surface_offset_km": gK["shift"],
+                                "zone_centre_offset_km": gK["centre"],
                                 "level_hpa": fK.level_hpa,
                                 "note": f"extrapolated {dt:.1f} h past the last step "
                                 "at the tracked speed",
                             }
                         )
+        out.extend(hits)
+        if not hits:
+            near = [m for m in misses if m["_end_km"] <= miss_report_km]
+            out.extend(near[:1])
+    for r in out:
+        r.pop("_end_km", None)
     out.sort(key=lambda r: (np.nan_to_num(r["passage"], nan=1e18), r["track"]))
     return out
 
 
-def _miss(tid, kind, front, g, tp, shift, extrap=False):
+def _miss(tid, kind, front, g, tp, shift, centre, extrap=False):
     side = _compass(g["bearing_deg"])
     note = (
         f"{kind} front passes {g['end_distance_km']:.0f} km {side} of site "
@@ -788,8 +949,10 @@ def _miss(tid, kind, front, g, tp, shift, extrap=False):
         "speed_kt": np.nan,
         "extrapolated": extrap,
         "surface_offset_km": shift,
+        "zone_centre_offset_km": centre,
         "level_hpa": front.level_hpa,
         "note": note,
+        "_end_km": g["end_distance_km"],
     }
 
 
@@ -1099,9 +1262,11 @@ def arrival_table(
     *,
     level=850.0,
     surface=True,
+    zone_centre=True,
     horizon_h=12.0,
     window_h=3.0,
     along_tolerance_km=100.0,
+    miss_report_km=500.0,
     precip_threshold_mmh=PRECIP_THRESHOLD_MMH,
     settings=None,
     max_match_h=24.0,
@@ -1122,12 +1287,17 @@ def arrival_table(
         Pressure level the fronts are located on [hPa].
     surface : bool
         Move the level's line to the surface front by the slope (module notes).
+    zone_centre : bool
+        Time the frontal zone's centre (middle of the temperature change)
+        rather than its warm edge, where the locating line lies (module notes).
     horizon_h : float
         Longest extrapolation past a run's last step [h].
     window_h : float
         Before/after offset of wind, temperature and freezing level [h].
     along_tolerance_km : float
         A crossing beyond a line's end by more than this is a miss [km].
+    miss_report_km : float
+        Misses whose line end stays farther from the site are left out [km].
     precip_threshold_mmh : float
         Precipitation rate counted as wet [mm h-1].
     settings : kit.fronts.FrontSettings, optional
@@ -1164,6 +1334,7 @@ def arrival_table(
                 f for f in fronts if member is None or f.member is None or int(f.member) == member
             ]
             dsm = ds.sel(member=member) if member is not None else ds
+            finder = _ZoneCentre(dsm, settings) if zone_centre else None
             for _, site in sites.iterrows():
                 series = site_series(dsm, site)
                 store[(run, member, site["name"])] = series
@@ -1171,8 +1342,11 @@ def arrival_table(
                     mfronts,
                     series,
                     surface=surface,
+                    zone_centre=zone_centre,
                     horizon_h=horizon_h,
                     along_tolerance_km=along_tolerance_km,
+                    miss_report_km=miss_report_km,
+                    centre_finder=finder,
                 )
                 base = {"site": site["name"], "run": run, "member": member}
                 if not found:
@@ -1194,6 +1368,7 @@ def arrival_table(
                         "level_hpa": p["level_hpa"],
                         "extrapolated": bool(p["extrapolated"]),
                         "surface_offset_km": _round(p["surface_offset_km"]),
+                        "zone_centre_offset_km": _round(p["zone_centre_offset_km"]),
                         "_passage_h": p["passage"],
                         "note": p["note"],
                     }

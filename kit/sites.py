@@ -22,7 +22,7 @@ import pandas as pd
 
 from kit.errors import InputError
 
-__all__ = ["read_sites", "check_sites_on_grid", "grid_position", "SITE_COLUMNS"]
+__all__ = ["read_sites", "check_sites_on_grid", "grid_position", "grid_positions", "SITE_COLUMNS"]
 
 #: columns of the DataFrame :func:`read_sites` returns
 SITE_COLUMNS = ["name", "lat", "lon", "elevation_m"]
@@ -245,32 +245,57 @@ def grid_position(ds, lat, lon):
         the point lies outside the grid. On a global latitude/longitude grid
         the column may lie in ``(n - 1, n)``: the cell that wraps to column 0.
     """
-    kind = _grid_kind(ds)
-    if kind == "latlon":
-        lats = np.asarray(ds["lat"].values, dtype=float)
-        lons = np.asarray(ds["lon"].values, dtype=float)
-        row = _fractional_index(lats, float(lat))
-        lo, hi = np.nanmin(lons), np.nanmax(lons)
-        if _is_global_lon(lons):
-            x = lo + (float(lon) - lo) % 360.0
-            if x <= hi:
-                col = _fractional_index(lons, x)
-            else:  # the cell between the last column and the first (wraps)
-                col = (lons.size - 1) + (x - hi) / (360.0 - (hi - lo))
-        else:
-            col = np.nan
-            for x in (float(lon), float(lon) + 360.0, float(lon) - 360.0):
-                if lo - 1e-9 <= x <= hi + 1e-9:
-                    col = _fractional_index(lons, x)
-                    break
-        return row, col
+    return tuple(float(v) for v in grid_positions(ds, [lat], [lon])[0])
+
+
+def grid_positions(ds, lats, lons):
+    """Fractional grid positions of many points (see :func:`grid_position`).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical dataset.
+    lats, lons : array_like (n,)
+        Points [degrees].
+
+    Returns
+    -------
+    ndarray (n, 2)
+        ``(row, col)`` per point, NaN outside the grid.
+    """
+    lats = np.atleast_1d(np.asarray(lats, dtype=float))
+    lons = np.atleast_1d(np.asarray(lons, dtype=float))
+    out = np.full((lats.size, 2), np.nan)
+    if _grid_kind(ds) == "latlon":
+        glat = np.asarray(ds["lat"].values, dtype=float)
+        glon = np.asarray(ds["lon"].values, dtype=float)
+        lo, hi = np.nanmin(glon), np.nanmax(glon)
+        glob = _is_global_lon(glon)
+        for n, (lat, lon) in enumerate(zip(lats, lons, strict=True)):
+            row = _fractional_index(glat, lat)
+            if glob:
+                x = lo + (lon - lo) % 360.0
+                if x <= hi:
+                    col = _fractional_index(glon, x)
+                else:  # the cell between the last column and the first (wraps)
+                    col = (glon.size - 1) + (x - hi) / (360.0 - (hi - lo))
+            else:
+                col = np.nan
+                for x in (lon, lon + 360.0, lon - 360.0):
+                    if lo - 1e-9 <= x <= hi + 1e-9:
+                        col = _fractional_index(glon, x)
+                        break
+            out[n] = row, col
+        return out
     lat2d = np.asarray(ds["lat"].values, dtype=float)
     lon2d = np.asarray(ds["lon"].values, dtype=float)
     if lat2d.ndim != 2:
         raise InputError(
             "dataset: projected grid without 2-D lat/lon coordinates; expected lat(y, x), lon(y, x)"
         )
-    return _position_projected(lat2d, lon2d, float(lat), float(lon))
+    for n, (lat, lon) in enumerate(zip(lats, lons, strict=True)):
+        out[n] = _position_projected(lat2d, lon2d, lat, lon)
+    return out
 
 
 def _extent_text(ds):

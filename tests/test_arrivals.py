@@ -31,6 +31,9 @@ from kit.fronts import Front
 R_KM = 6371.0088
 T0 = np.datetime64("2027-01-14T00:00", "ns")
 LEVELS = np.array([1000.0, 925.0, 850.0, 700.0, 500.0])
+ZONE_L_KM = 60.0  # half-width L of the synthetic tanh zone [km]
+DT_K = 6.0  # temperature contrast across it [K]
+EDGE_X = math.atanh(1 / math.sqrt(3))  # TFP peak at 0.658 L (REFERENCES.md, analytic)
 
 
 def std_height(p_hpa):
@@ -91,7 +94,7 @@ def make_run(
             )
             x = np.radians(lon[None, :] - lf) * R_KM * coslat  # km east of the front
             warm_side = x > 0 if kind == "cold" else x < 0
-            s = np.tanh(x / 60.0) * (1 if kind == "cold" else -1)  # +1 on the warm side
+            s = np.tanh(x / ZONE_L_KM) * (1 if kind == "cold" else -1)  # +1 on the warm side
             tsfc = 278.0 + 3.0 * s  # 6 K contrast
             if winter:
                 tsfc = tsfc - 9.0
@@ -100,8 +103,7 @@ def make_run(
                 t[m, k, j] = tsfc - lapse
                 if winter and p in (925.0, 850.0):  # warm layer aloft over sub-zero ground air
                     t[m, k, j] = 276.5 - (0 if p == 925.0 else 2.0)
-                rhf = np.where(np.abs(x) < 250, 0.98, 0.6)
-                td[m, k, j] = t[m, k, j] - np.where(rhf > 0.9, 0.3, 7.0)
+                td[m, k, j] = t[m, k, j] - 0.3  # near-saturated: theta-w follows t
             t2m[m, k] = tsfc
             td2m[m, k] = tsfc - 2.0
             # ahead (warm side for a cold front): SW 15 m/s; behind: NW 12 m/s (NH)
@@ -123,17 +125,21 @@ def make_run(
             pr[m, k] = np.where(band, 3.0, 0.0)
             mslp[m, k] = 100500.0
             flat = np.linspace(lat[0] + 1, lat[-1] - 1, 25)
-            flon = np.array(
-                [
-                    front_lon(
-                        h,
-                        lon_site=lon_site,
-                        lat_site=lat_site,
-                        speed_ms=speed_ms,
-                        passage_h=passage_h + off,
-                    )
-                ]
-                * flat.size
+            # the locating line lies 0.658 L on the warm side of the zone centre
+            # (REFERENCES.md analytic check); warm side east of a cold front
+            edge_deg = math.degrees(
+                EDGE_X * ZONE_L_KM / (R_KM * math.cos(math.radians(lat_site)))
+            ) * (1 if kind == "cold" else -1)
+            flon = np.full(
+                flat.size,
+                front_lon(
+                    h,
+                    lon_site=lon_site,
+                    lat_site=lat_site,
+                    speed_ms=speed_ms,
+                    passage_h=passage_h + off,
+                )
+                + edge_deg,
             )
             ncold = -1.0 if kind == "cold" else 1.0
             sp = speed_ms * (-1 if kind == "cold" else 1)  # positive toward the cold side
@@ -144,8 +150,9 @@ def make_run(
                     kind=kind,
                     valid_time=times[k],
                     level_hpa=850.0,
-                    tfp=np.full(flat.size, 1e-10),
-                    grad=np.full(flat.size, 3e-5),
+                    # analytic tanh zone at the locating line [K m-2], [K m-1]
+                    tfp=np.full(flat.size, 2 / (3 * math.sqrt(3)) * DT_K / (ZONE_L_KM * 1e3) ** 2),
+                    grad=np.full(flat.size, DT_K / (3 * ZONE_L_KM * 1e3)),
                     normal_east=np.full(flat.size, ncold),
                     normal_north=np.zeros(flat.size),
                     vn=np.full(flat.size, sp),
@@ -227,6 +234,41 @@ def test_surface_projection_from_slope():
     assert hours_of(row["passage_utc"]) == pytest.approx(12.0 - shift_km / 36.0, abs=10 / 60)
 
 
+def test_zone_centre_factor_against_tanh_zone():
+    """[pub, derived] REFERENCES.md: for tau = (dT/2) tanh(x/L) the TFP peaks at
+    0.385 dT/L^2 at x = 0.658 L. Found here numerically with scipy [lib]; the
+    line-to-centre factor x / (|grad tau| / TFP) must equal ZONE_CENTRE_FACTOR."""
+    from scipy.optimize import minimize_scalar
+
+    from kit.arrivals import ZONE_CENTRE_FACTOR
+
+    def tfp(x):  # dT = L = 1; -d|grad tau|/dx on the warm side
+        return np.tanh(x) / np.cosh(x) ** 2
+
+    best = minimize_scalar(
+        lambda x: -tfp(x), bounds=(0, 3), method="bounded", options={"xatol": 1e-10}
+    )
+    assert best.x == pytest.approx(0.658, abs=5e-4)
+    assert tfp(best.x) == pytest.approx(0.385, abs=5e-4)
+    grad = 0.5 / np.cosh(best.x) ** 2
+    assert best.x / (grad / tfp(best.x)) == pytest.approx(ZONE_CENTRE_FACTOR, rel=1e-6)
+
+
+@pytest.mark.parametrize("kind", ["cold", "warm"])
+def test_warm_edge_versus_zone_centre(kind):
+    """[analytic] the locating line runs 0.658 L = 39.5 km on the warm side of the
+    zone centre: at 10 m/s its passage is 1.10 h earlier (cold front, warm side
+    ahead) or later (warm front, warm side behind) than the centre's."""
+    ds, fronts = make_run(kind=kind, passage_h=12.0)
+    centre = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    edge = arrival_table([ds], site_frame(), [fronts], surface=False, zone_centre=False).iloc[0]
+    lag = EDGE_X * ZONE_L_KM / 36.0
+    assert abs(hours_of(centre["passage_utc"]) - 12.0) <= 10 / 60
+    assert centre["zone_centre_offset_km"] == pytest.approx(EDGE_X * ZONE_L_KM, abs=1.0)
+    sign = -1 if kind == "cold" else 1
+    assert hours_of(edge["passage_utc"]) == pytest.approx(12.0 + sign * lag, abs=10 / 60)
+
+
 def test_extrapolation_flagged_and_limited():
     """[analytic] passage 4 h after the last step is extrapolated; 20 h after is not."""
     hours = np.arange(0, 25, 3)
@@ -241,15 +283,26 @@ def test_extrapolation_flagged_and_limited():
 
 
 def test_front_misses_site():
-    """A line ending 5 degrees north of the site passes north of it: no passage, a note."""
+    """A line ending 3 degrees north of the site passes north of it: no passage, one
+    note row; a line ending 6 degrees north (> miss_report_km) is not worth a row."""
+
+    def cut(fronts, lat_min):
+        for f in fronts:
+            keep = f.lat > lat_min
+            for a in ("lon", "lat", "tfp", "grad", "normal_east", "normal_north", "vn"):
+                setattr(f, a, getattr(f, a)[keep])
+
     ds, fronts = make_run(kind="cold", passage_h=10.0)
-    for f in fronts:
-        keep = f.lat > 55.0
-        for a in ("lon", "lat", "tfp", "grad", "normal_east", "normal_north", "vn"):
-            setattr(f, a, getattr(f, a)[keep])
+    cut(fronts, 53.0)
+    table = arrival_table([ds], site_frame(), [fronts], surface=False)
+    assert len(table) == 1
+    row = table.iloc[0]
+    assert row["passage_utc"] == "" and row["front_kind"] == "cold"
+    assert "cold front passes" in row["note"] and " N of site" in row["note"]
+    ds, fronts = make_run(kind="cold", passage_h=10.0)
+    cut(fronts, 56.0)
     row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
-    assert row["passage_utc"] == ""
-    assert "passes" in row["note"] and " N of site" in row["note"]
+    assert row["front_kind"] == "" and "no front passage" in row["note"]
 
 
 def test_signed_distance_sign_and_size():
@@ -312,17 +365,20 @@ def test_precip_start_end_total():
     assert row["precip_total_mm"] == pytest.approx(3.0 * (end - start), abs=0.01)
     # rule of thumb for cold fronts: heaviest 50-100 nm behind at 19.4 kt [trade]
     kt = 10 * 3600 / 1852
-    assert hours_of(row["rule_rain_from_utc"]) == pytest.approx(12.0 + 50 / kt, abs=2 / 60)
-    assert hours_of(row["rule_rain_to_utc"]) == pytest.approx(12.0 + 100 / kt, abs=2 / 60)
+    tp = hours_of(row["passage_utc"])
+    assert hours_of(row["rule_rain_from_utc"]) == pytest.approx(tp + 50 / kt, abs=3 / 60)
+    assert hours_of(row["rule_rain_to_utc"]) == pytest.approx(tp + 100 / kt, abs=3 / 60)
 
 
 def test_warm_front_rule_of_thumb_onset():
     """[trade] warm front rain onset 200-300 nm ahead: onset = passage - distance/speed."""
     ds, fronts = make_run(kind="warm", passage_h=24.0, speed_ms=8.0)
     row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
-    kt = 8 * 3600 / 1852
-    assert hours_of(row["rule_rain_from_utc"]) == pytest.approx(24.0 - 300 / kt, abs=2 / 60)
-    assert hours_of(row["rule_rain_to_utc"]) == pytest.approx(24.0 - 200 / kt, abs=2 / 60)
+    kt = 8 * 3600 / 1852  # the prescribed speed [analytic]
+    tp = hours_of(row["passage_utc"])
+    assert abs(tp - 24.0) <= 10 / 60
+    assert hours_of(row["rule_rain_from_utc"]) == pytest.approx(tp - 300 / kt, abs=3 / 60)
+    assert hours_of(row["rule_rain_to_utc"]) == pytest.approx(tp - 200 / kt, abs=3 / 60)
     assert row["rule_rain_what"].startswith("rain onset")
 
 
@@ -465,15 +521,26 @@ def test_timeline_figure_content():
     from kit.charts.timelines import timeline_figure
 
     a, fa = make_run(kind="warm", passage_h=12.0, speed_ms=8.0, winter=True, grid_step=1.0)
-    b, fb = make_run(kind="warm", passage_h=14.5, speed_ms=8.0, winter=True, grid_step=1.0,
-                     run="2027-01-13T12Z")
-    table, store = arrival_table([a, b], site_frame(name="Harrowdene"), [fa, fb], surface=False,
-                                 return_series=True)
+    b, fb = make_run(
+        kind="warm", passage_h=14.5, speed_ms=8.0, winter=True, grid_step=1.0, run="2027-01-13T12Z"
+    )
+    table, store = arrival_table(
+        [a, b], site_frame(name="Harrowdene"), [fa, fb], surface=False, return_series=True
+    )
     fig = timeline_figure(store[("2027-01-14T00Z", None, "Harrowdene")], table)
     texts = " | ".join(stamp_texts(fig))
-    for want in ("Run 2027-01-14T00Z", "Valid Thu 14 Jan 2027 00:00 UTC", "T+0 h to +36 h",
-                 "Source: synthetic test field", CAUTION, "Harrowdene", "[mm/h]",
-                 "[ft above site]", "valid time [UTC]", "warm front 12:00Z"):
+    for want in (
+        "Run 2027-01-14T00Z",
+        "Valid Thu 14 Jan 2027 00:00 UTC",
+        "T+0 h to +36 h",
+        "Source: synthetic test field",
+        CAUTION,
+        "Harrowdene",
+        "[mm/h]",
+        "[ft above site]",
+        "valid time [UTC]",
+        "warm front 12:00Z",
+    ):
         assert want in texts, want
     ax_t = fig.axes[0]
     vlines = [ln for ln in ax_t.get_lines() if len(set(ln.get_xdata())) == 1]
