@@ -252,7 +252,7 @@ class ScenarioSpec:
     l_cold_km: float = 50.0
     warm_slope_1_in: float = 150.0
     cold_slope_1_in: float = 50.0
-    dt_warm_k: float = 6.5
+    dt_warm_k: float = 7.0
     low_level_reduction: float = 0.2
     t_sfc_50n_k: float = 278.5
     t_sfc_gradient_k_per_deg: float = 0.35
@@ -261,9 +261,9 @@ class ScenarioSpec:
     lapse_k_per_km: float = 6.5
     tropopause_38n_m: float = 11500.0
     tropopause_drop_m_per_deg: float = 150.0
-    fold_depth_m: float = 2000.0
+    fold_depth_m: float = 3000.0
     fold_behind_km: float = 400.0
-    fold_width_km: float = 150.0
+    fold_width_km: float = 200.0
     fold_compensation_m: float = 1500.0
     strat_cooling_k: float = 4.0
     p_centre_hpa: tuple = (998.0, 974.0)
@@ -399,7 +399,10 @@ class Scenario:
         # shallow cold pool ahead of the warm front (scoured out in the warm sector)
         r2 = (x - self.cold_pool_xy[0]) ** 2 + (y - self.cold_pool_xy[1]) ** 2
         pool = np.exp(-r2 / (2 * (s.cold_pool_radius_km * 1e3) ** 2))
-        ahead = _s(d_w / 60e3) * _s(-d_c / 100e3)  # cold side of the warm front only
+        # cold side of the warm front only, with the warm front's own zone
+        # shape, so the zone stays an exact tanh profile (a larger contrast)
+        ahead = (_s((d_w - s.warm_slope_1_in * h) / (s.l_warm_km * 1e3))
+                 * _s(-(d_c - s.cold_slope_1_in * h) / (s.l_cold_km * 1e3)))
         t = t - s.cold_pool_k * pool * _s((s.cold_pool_depth_m - h) / 150.0) * ahead
         return t
 
@@ -462,11 +465,13 @@ class Scenario:
         under = _s(d_w / 40e3) * _s((lead - d_w) / 60e3) * _s((2000.0 - h) / 400.0) * ahead
         rh = blend(rh, 90.0, under)
         rh = blend(rh, 98.0, wedge)
-        band = (_s((d_c + 60e3) / 25e3) * _s((220e3 - d_c) / 40e3)
-                * _s((s.cold_slope_1_in * h + 40e3 - d_c) / 20e3) * _s((6500.0 - h) / 600.0)
+        # cloud band over the cold frontal surface, reaching back over the
+        # heavy rain band 50-100 nm behind the surface front
+        band = (_s((d_c + 60e3) / 25e3) * _s((300e3 - d_c) / 150e3)
+                * _s((s.cold_slope_1_in * h + 200e3 - d_c) / 150e3) * _s((6500.0 - h) / 600.0)
                 * _s((150e3 - d_w) / 80e3))
         rh = blend(rh, 97.0, band)
-        dry = (_s((d_c - s.cold_slope_1_in * h - 80e3) / 50e3) * _s((h - 2000.0) / 500.0)
+        dry = (_s((d_c - s.cold_slope_1_in * h - 150e3) / 50e3) * _s((h - 2000.0) / 500.0)
                * _s((200e3 - d_w) / 100e3))
         rh = blend(rh, 12.0, dry)
         if rate is not None:
