@@ -24,6 +24,9 @@ return the same kind they were given. Missing values (NaN) stay missing and do
 not spread further than one grid length.
 """
 
+import collections
+import threading
+
 import numpy as np
 import xarray as xr
 from scipy import ndimage
@@ -262,8 +265,44 @@ def _diff_axis(a, axis, periodic):
     return np.moveaxis(out, -1, axis)
 
 
+_GRID_CACHE = collections.OrderedDict()
+_GRID_LOCK = threading.Lock()
+
+
+def _grid_key(ds):
+    """Key telling grids apart by their coordinates (hashes of the values)."""
+    try:
+        parts = [ds.attrs.get("grid"), ds.attrs.get("dx_m"), ds.attrs.get("dy_m")]
+        for name in ("lat", "lon", "x", "y", "map_factor", "map_factor_x", "map_factor_y"):
+            present = name in ds.coords or (isinstance(ds, xr.Dataset) and name in ds.variables)
+            if present:
+                v = np.ascontiguousarray(ds[name].values)
+                parts.append((name, v.shape, v.dtype.str, hash(v.tobytes())))
+        return tuple(parts)
+    except (TypeError, ValueError):
+        return None
+
+
 def _grid(ds, map_factor=None):
-    return _Grid(ds, map_factor)
+    """Return the grid of ``ds`` (a _Grid), from a small cache of recent grids."""
+    if isinstance(ds, _Grid):
+        return ds
+    key = (
+        _grid_key(ds) if map_factor is None and isinstance(ds, (xr.Dataset, xr.DataArray)) else None
+    )
+    if key is not None:
+        with _GRID_LOCK:
+            g = _GRID_CACHE.get(key)
+            if g is not None:
+                _GRID_CACHE.move_to_end(key)
+                return g
+    g = _Grid(ds, map_factor)
+    if key is not None:
+        with _GRID_LOCK:
+            _GRID_CACHE[key] = g
+            while len(_GRID_CACHE) > 6:
+                _GRID_CACHE.popitem(last=False)
+    return g
 
 
 def _values(field):
