@@ -109,6 +109,7 @@ file holds one member); files on different grids, levels or members raise an
 InputError naming both files and what differs.
 """
 
+import functools
 import glob
 import os
 import warnings
@@ -318,45 +319,62 @@ def run_label(reference_time):
     return ts.strftime("%Y-%m-%dT%HZ" if ts.minute == 0 else "%Y-%m-%dT%H%MZ")
 
 
-def _parse_units(units_str, where, name, expected):
-    """Pint quantity of a units string, or InputError naming what was found."""
+@functools.lru_cache(maxsize=256)
+def _pint_quantity(text):
     from metpy.units import units as ureg
 
+    parsed = ureg(text)
+    return ureg.Quantity(1.0, parsed.units) * float(parsed.magnitude)
+
+
+@functools.lru_cache(maxsize=256)
+def _pint_scale_offset(text, target):
+    from metpy.units import units as ureg
+
+    q = _pint_quantity(text)
+    zero = ureg.Quantity(0.0, q.units).to(target).magnitude
+    one = ureg.Quantity(float(q.magnitude), q.units).to(target).magnitude
+    return float(one - zero), float(zero)
+
+
+def _unit_text(units_str):
     raw = str(units_str).strip()
-    key = raw.lower()
-    text = _UNIT_ALIASES.get(key, _UNIT_ALIASES.get(raw, raw))
-    text = text.replace("^", "**")
+    text = _UNIT_ALIASES.get(raw.lower(), _UNIT_ALIASES.get(raw, raw))
+    return text.replace("^", "**")
+
+
+def _parse_units(units_str, where, name, expected):
+    """Pint quantity of a units string, or InputError naming what was found."""
     try:
-        q = ureg.Quantity(1.0, ureg(text).units) * ureg(text).magnitude
+        return _pint_quantity(_unit_text(units_str))
     except Exception:  # pint raises several types for unreadable strings
         raise _err(
-            where, f"variable '{name}' has unit '{raw}' which is not understood; expected {expected}"
+            where,
+            f"variable '{name}' has unit '{str(units_str).strip()}' which is not understood; "
+            f"expected {expected}",
         ) from None
-    return q
 
 
 def _linear_conversion(q_from, target, where, name, expected):
     """(scale, offset) so that value_in_target = scale * value + offset."""
-    from metpy.units import units as ureg
-
+    text = q_from if isinstance(q_from, str) else f"{q_from.units}"
     try:
-        unit_from = q_from.units
-        mag = float(q_from.magnitude)
-        zero = ureg.Quantity(0.0, unit_from).to(target).magnitude
-        one = ureg.Quantity(mag, unit_from).to(target).magnitude
+        if isinstance(q_from, str):
+            return _pint_scale_offset(_unit_text(q_from), target)
+        scale, offset = _pint_scale_offset(text, target)
+        return scale * float(q_from.magnitude), offset
     except Exception:
         raise _err(
             where,
-            f"variable '{name}' has unit '{q_from.units:~}' which cannot be converted to "
+            f"variable '{name}' has unit '{text}' which cannot be converted to "
             f"{target}; expected {expected}",
         ) from None
-    return float(one - zero), float(zero)
 
 
 def _convert(da, target, where, name, expected, units_str):
     """Lazily convert a DataArray from ``units_str`` into ``target``."""
-    q = _parse_units(units_str, where, name, expected)
-    scale, offset = _linear_conversion(q, target, where, name, expected)
+    _parse_units(units_str, where, name, expected)
+    scale, offset = _linear_conversion(str(units_str), target, where, name, expected)
     if scale == 1.0 and offset == 0.0:
         return da
     out = da * scale + offset if offset else da * scale
@@ -478,23 +496,24 @@ def _check_netcdf_file(path):
 
 def _check_classic_complete(path):
     """Truncated NetCDF-3 files open without error; map them to find out."""
+    import gc
+
     from scipy.io import netcdf_file
 
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
+    failure = None
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            # mapping the variables fails when the file is shorter than its header says
             nc = netcdf_file(path, "r", mmap=True)
-            try:
-                for var in nc.variables.values():
-                    _ = var.data.shape
-            finally:
-                nc.close()
-    except Exception as exc:
-        raise _err(
-            path,
-            f"truncated or corrupt NetCDF-3 file ({type(exc).__name__}: {exc}); "
-            "expected a complete file",
-        ) from None
+            nc.variables.clear()
+            nc.close()
+        except Exception as exc:  # scipy raises ValueError/TypeError/IndexError here
+            failure = f"{type(exc).__name__}: {exc}"
+        if failure is not None:
+            gc.collect()  # release the half-built file object while warnings are silenced
+    if failure is not None:
+        raise _err(path, f"truncated or corrupt NetCDF-3 file ({failure}); expected a complete file")
 
 
 def _open_file(path, chunks):
@@ -1316,6 +1335,22 @@ def _canonical_one(raw, where, member):
     if np.unique(levels).size != levels.size:
         raise _err(where, f"duplicate pressure levels in '{main_level_dim}' ({_join(levels)} hPa); "
                    "expected distinct levels")
+    if main_level_dim is not None:
+        # one rename for the whole file; variables on it need no per-variable work
+        lev_order = np.argsort(-levels, kind="stable")
+        if main_level_dim in ds.coords:
+            ds = ds.drop_vars(main_level_dim)
+        if main_level_dim != "level":
+            if "level" in ds.variables:
+                ds = ds.drop_vars("level")
+            ds = ds.rename({main_level_dim: "level"})
+        levels = levels[lev_order]
+        if not np.array_equal(lev_order, np.arange(levels.size)):
+            ds = ds.isel(level=lev_order)
+        ds = ds.assign_coords(level=("level", levels))
+        level_dims = {("level" if k == main_level_dim else k): v for k, v in level_dims.items()}
+        level_dims["level"] = levels
+        main_level_dim = "level"
     # horizontal grid
     lat_name, lon_name = _find_latlon(ds, where)
     angle = None
@@ -1464,8 +1499,11 @@ def _canonical_one(raw, where, member):
             out[k] = da.transpose(*order)
     res = xr.Dataset(out)
     # level coordinate
-    res = res.assign_coords(level=("level", np.asarray(levels, dtype=np.float64)))
-    res = res.sortby("level", ascending=False)
+    if "level" not in res.coords:
+        res = res.assign_coords(level=("level", np.asarray(levels, dtype=np.float64)))
+    lv = res["level"].values
+    if lv.size > 1 and np.any(np.diff(lv) >= 0):
+        res = res.isel(level=np.argsort(-lv, kind="stable"))
     res.attrs = {k: v for k, v in ds.attrs.items() if k in ("grid", "dx_m", "dy_m", "grid_mapping_name", "native_grid_unit")}
     return res, info
 
@@ -1473,6 +1511,8 @@ def _canonical_one(raw, where, member):
 def _onto_levels(da, name, levels, main_dim, level_dims, where):
     """Put an upper-air variable on the ``level`` dimension with t's levels [hPa]."""
     dims = [d for d in da.dims if d in level_dims]
+    if dims == [main_dim] and main_dim == "level":
+        return da
     if not dims:
         p = _scalar_pressure(da, where)
         if p is None:
