@@ -42,6 +42,23 @@ def _check_rows(modname, rows):
     return rows
 
 
+def _normalise(r):
+    """One figure with plain types: value float (NaN when missing), target text, met bool/None."""
+    value = r["value"]
+    try:
+        value = math.nan if value is None else float(value)
+    except (TypeError, ValueError):
+        value = math.nan
+    met = r["met"]
+    return {
+        "name": str(r["name"]),
+        "value": value,
+        "unit": "" if r["unit"] is None else str(r["unit"]),
+        "target": "" if r["target"] is None else str(r["target"]),
+        "met": None if met is None else bool(met),
+    }
+
+
 def run_all(only=None, stream=sys.stdout):
     """Run the bench modules; return (rows, failures)."""
     rows, failures = [], []
@@ -53,7 +70,7 @@ def run_all(only=None, stream=sys.stdout):
         try:
             mod = importlib.import_module(modname)
             for r in _check_rows(modname, mod.run()):
-                rows.append({"module": short, **{k: r[k] for k in COLUMNS[1:]}})
+                rows.append({"module": short, **_normalise(r)})
         except Exception as exc:  # one broken bench must not hide the others
             failures.append(short)
             print(f"error: {short}: {type(exc).__name__}: {exc}", file=sys.stderr)

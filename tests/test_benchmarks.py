@@ -78,3 +78,10 @@ def test_malformed_figures_are_reported(monkeypatch, tmp_path, capsys):
 @pytest.mark.parametrize("value, text", [(0.0, "0"), (12345.678, "1.235e+04"), (1e-5, "1e-05")])
 def test_value_format(value, text):
     assert runner._fmt_value(value) == text
+
+
+def test_loose_figures_are_normalised():
+    r = runner._normalise({"name": "x", "value": None, "unit": None, "target": None, "met": 1})
+    assert r["target"] == "" and r["unit"] == "" and r["met"] is True
+    assert r["value"] != r["value"]  # NaN
+    assert "n/a" in runner.format_table([{"module": "m", **r}])

@@ -742,7 +742,7 @@ def test_sample_event_freezing_rain_window(sample_truth, sample_run, set_name):
     passage = np.datetime64(info["passages"][name]["warm"].rstrip("Z"))
     times = col["time"].values[found]
     assert np.all(times <= passage)
-    assert np.all(times >= passage - np.timedelta64(12, "h"))
+    assert np.all(times >= passage - np.timedelta64(24, "h"))
     # [def] the wet-bulb 0 C level is never above the 0 C level (T_W <= T)
     fl = thermo.freezing_level(col["t"], col["z"]).values
     wb = thermo.wet_bulb_freezing_level(col["t"], col["td"], col["z"], col["level"]).values
