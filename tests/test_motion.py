@@ -709,3 +709,25 @@ def test_empty_inputs():
     from kit.structure import add_slopes
 
     assert add_slopes([], speed_dataset(50.0)) == []
+
+
+def test_speeds_across_the_dateline():
+    # a grid contiguous across 180 (150..210 E) and a front given in
+    # -180..180 longitudes: the steering wind is sampled on both sides [derived]
+    lat = np.arange(40.0, 60.01, 0.5)
+    lon = np.arange(150.0, 210.01, 0.5)
+    ds = grid_dataset(lat, lon, [T0], levels=(1000.0, 850.0))
+    shape = (1, 2, lat.size, lon.size)
+    dims = ("time", "level", "lat", "lon")
+    # the wind's poleward component grows eastward: 10 m/s at 170 E, 12 at 190 E
+    v = np.broadcast_to(10.0 + (lon - 170.0) / 10.0, shape).copy()
+    ds["u"] = (dims, np.zeros(shape))
+    ds["v"] = (dims, v)
+    ds["z"] = (dims, np.zeros(shape))
+    ds["mslp"] = (("time", "lat", "lon"), np.full((1, lat.size, lon.size), 101000.0))
+    flon = np.concatenate([np.arange(170.0, 180.0, 0.25), np.arange(-180.0, -169.99, 0.25)])
+    fr = make_front(flon, np.full(flon.size, 50.0), 0.0, 1.0, T0)
+    speeds_three_ways([fr], ds)
+    # mean over the line 170 E..170 W of a wind linear in longitude: 11 m/s
+    assert fr.props["speed_wind_ms"] == pytest.approx(11.0, abs=0.01)
+    assert fr.props["speed_geostrophic_normal_ms"] == pytest.approx(0.0, abs=1e-9)
