@@ -134,6 +134,29 @@ def test_reference_integration_is_sane():
         assert thermo.lcl_temperature(t, td) == pytest.approx(tl, abs=0.1)
 
 
+def test_reference_pseudo_adiabat_limits():
+    # [def] with no vapour to condense the pseudo-adiabat is the dry adiabat:
+    # dlnT/dlnp = R_d / c_pd (very cold air, e_s ~ 1e-3 hPa)
+    t, p = 190.0, 500.0
+    dlnt_dlnp = _pseudo_adiabat_dtdp(p, [t])[0] * p / t
+    assert dlnt_dlnp == pytest.approx(RD / CPD, rel=2e-3)
+
+
+def test_reference_integration_against_metpy_theta_w(integrated):
+    # [lib] MetPy's wet_bulb_potential_temperature (Bolton theta-e with its
+    # own constants, then the Davies-Jones 2008 Eq. 3.8 fit) shares no code
+    # with the integration above: the two agree within 0.1 K. (MetPy's
+    # moist_lapse is no reference here: it integrates the simplified lapse
+    # rate with constant L_v, 0.1-0.5 K off the full pseudo-adiabat.)
+    mpcalc, units = _metpy()
+    ref = np.asarray(
+        mpcalc.wet_bulb_potential_temperature(
+            integrated["p"] * units.hPa, integrated["t"] * units.K, integrated["td"] * units.K
+        ).m_as("K")
+    )
+    np.testing.assert_allclose(integrated["theta_w"], ref, rtol=0, atol=0.1)
+
+
 def test_theta_w_against_pseudo_adiabat_integration(integrated):
     # Brief requirement: within 0.05 K of the numerical pseudo-adiabat over
     # 1000-300 hPa and -40..35 C. [pub] Davies-Jones (2008) bounds the error
