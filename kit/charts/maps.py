@@ -398,7 +398,12 @@ def draw_fronts(ax, fronts, *, size=7.0, linewidth=2.2, labels=True):
         if lon.size < 2:
             continue
         colour = style.FRONT_COLOURS["cold" if front.kind == "quasi-stationary" else front.kind]
-        (line,) = ax.plot(lon, lat, color=colour, linewidth=linewidth, transform=_pc(),
+        # project once here: the symbol path effects would re-project the line at every pass
+        pts = ax.projection.transform_points(_pc(), np.asarray(lon), np.asarray(lat))
+        ok = np.isfinite(pts[:, 0]) & np.isfinite(pts[:, 1])
+        if ok.sum() < 2:
+            continue
+        (line,) = ax.plot(pts[ok, 0], pts[ok, 1], color=colour, linewidth=linewidth,
                           path_effects=[_front_effect(front.kind, size)], zorder=6,
                           solid_capstyle="round")
         line.set_gid(f"frontshift-front-{front.kind}")
@@ -406,8 +411,8 @@ def draw_fronts(ax, fronts, *, size=7.0, linewidth=2.2, labels=True):
         if labels:
             kt = _speed_kt(front)
             if kt is not None:
-                mid = lon.size // 2
-                ax.text(lon[mid], lat[mid], f"{kt:.0f} kt", transform=_pc(),
+                mid = int(np.flatnonzero(ok)[ok.sum() // 2])
+                ax.text(pts[mid, 0], pts[mid, 1], f"{kt:.0f} kt",
                         fontsize=style.FONT["small"], color=colour, fontweight="bold",
                         ha="left", va="bottom", path_effects=_HALO, zorder=7,
                         clip_on=True)
