@@ -13,7 +13,8 @@ forecaster trusts a timing only when independent estimates agree:
 ``speed_tracked_ms``
     Displacement of the line itself between valid times, measured along the
     front normal at each vertex (centred difference where the track has a
-    neighbour on both sides, one-sided at its ends).
+    neighbour on both sides, one-sided at its ends); the front's value is the
+    length-weighted median over its vertices.
 ``speed_wind_ms``
     The wind component normal to the front at the steering level (850 hPa by
     default), length-weighted along the line, the speed used by Berry, Reeder
@@ -23,6 +24,9 @@ forecaster trusts a timing only when independent estimates agree:
     pressure gradient, measured over a forecaster-like distance (250 km) along
     the front, its component normal to the front, times 2/3 for a warm front
     and 1 for a cold front (common practice, no source).
+
+Where the three disagree by more than a stated fraction (35 % by default)
+``speed_flag`` says so in plain words, with the likely reason.
 
 Decision support only: the official forecast, local regulations and licensed
 or authorised practice take precedence.
@@ -403,7 +407,7 @@ class _PointSampler:
             jj = np.clip(np.round(j).astype(int), 0, ny - 2)
             ii = np.clip(np.round(i).astype(int), 0, nx - 2)
             la0 = self._bilin(self.lat2, j, i)
-            lo0 = self._bilin(self.lon2, j, i)
+            lo0 = self._bilin(self.lon2, j, i, wrap_ref=lon)
             # local Jacobian of (east, north) km with respect to (i, j)
             ex, ny_ = _aeqd_km(self.lon2[jj, ii + 1], self.lat2[jj, ii + 1], lo0, la0)
             ey, ny2 = _aeqd_km(self.lon2[jj + 1, ii], self.lat2[jj + 1, ii], lo0, la0)
@@ -423,8 +427,13 @@ class _PointSampler:
         return j, i
 
     @staticmethod
-    def _bilin(field, j, i):
-        """Bilinear value of a 2-D array at fractional (j, i); NaN where j or i is NaN."""
+    def _bilin(field, j, i, wrap_ref=None):
+        """Bilinear value of a 2-D array at fractional (j, i); NaN where j or i is NaN.
+
+        With ``wrap_ref`` (longitudes [degrees], one per point) the corner
+        values are longitudes taken within 180 degrees of it, so a cell that
+        straddles the antimeridian interpolates across it, not around the globe.
+        """
         ny, nx = field.shape
         bad = ~(np.isfinite(j) & np.isfinite(i))
         jj = np.where(bad, 0.0, j)
@@ -435,12 +444,13 @@ class _PointSampler:
         fi = ii - i0
         j1 = np.minimum(j0 + 1, ny - 1)
         i1 = np.minimum(i0 + 1, nx - 1)
-        v = (
-            field[j0, i0] * (1 - fj) * (1 - fi)
-            + field[j0, i1] * (1 - fj) * fi
-            + field[j1, i0] * fj * (1 - fi)
-            + field[j1, i1] * fj * fi
-        )
+        c00, c01, c10, c11 = field[j0, i0], field[j0, i1], field[j1, i0], field[j1, i1]
+        if wrap_ref is not None:
+            ref = np.asarray(wrap_ref, float)
+            c00, c01, c10, c11 = (
+                ref + np.mod(c - ref + 180.0, 360.0) - 180.0 for c in (c00, c01, c10, c11)
+            )
+        v = c00 * (1 - fj) * (1 - fi) + c01 * (1 - fj) * fi + c10 * fj * (1 - fi) + c11 * fj * fi
         return np.where(bad, np.nan, v)
 
     def sample(self, field, lon, lat):

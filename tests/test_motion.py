@@ -484,6 +484,28 @@ def test_point_sampler_projected_grid_inverts_coordinates():
     assert np.isnan(smp.sample(xx, np.array([100.0]), np.array([10.0])))[0]
 
 
+def test_point_sampler_polar_grid_across_the_antimeridian():
+    # a polar stereographic grid centred on the North Pole, whose 2-D
+    # longitudes jump from 180 to -180: points on both sides of the jump and
+    # near the pole are located as pyproj puts them [lib]
+    pyproj = pytest.importorskip("pyproj")
+    crs = pyproj.CRS.from_proj4("+proj=stere +lat_0=90 +lat_ts=60 +lon_0=0 +R=6371008.8")
+    tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
+    x = np.arange(-2500e3, 2500.1e3, 50e3)
+    xx, yy = np.meshgrid(x, x)
+    lon2, lat2 = tr.transform(xx, yy)
+    ds = xr.Dataset(
+        coords={"y": x, "x": x, "lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)},
+        attrs={"grid": "projected"},
+    )
+    smp = motion._PointSampler(ds)
+    plon = np.array([179.7, -179.7, 180.0, 90.0, -45.0])
+    plat = np.array([72.0, 72.0, 80.0, 88.5, 65.0])
+    px, py = tr.transform(plon, plat, direction="INVERSE")
+    np.testing.assert_allclose(smp.sample(xx, plon, plat), px, atol=100.0)
+    np.testing.assert_allclose(smp.sample(yy, plon, plat), py, atol=100.0)
+
+
 def test_point_sampler_periodic_global_grid():
     lat = np.arange(-90.0, 90.01, 1.0)
     lon = np.arange(0.0, 360.0, 1.0)
