@@ -5,10 +5,10 @@ values:
 
 ``slope_1_in``
     From the 3-D model field: the front is located on several pressure levels
-    along each vertex's normal (the warm edge of the frontal zone, where the
-    thermal front parameter of Renard & Clarke (1965) peaks, as in Hewson
-    (1998)), and the horizontal offset of those positions is regressed against
-    their geopotential height. ``N`` of "1 in N" is the horizontal distance per
+    along each vertex's normal (the warm edge of the frontal zone in potential
+    temperature, where the thermal front parameter of Renard & Clarke (1965)
+    peaks, as in Hewson (1998)), and the horizontal offset of those positions
+    is regressed against their geopotential height. ``N`` of "1 in N" is the horizontal distance per
     unit rise; the frontal surface rises over the cold air, so offsets grow
     toward the cold side (the front normal).
 ``slope_margules_1_in``
