@@ -1,0 +1,70 @@
+"""The sample event rerun end to end (regression against the invented scenario).
+
+These are not science checks: the scenario is invented. They check that the
+rerun recovers what the scenario generator built in (truth.json): the station
+passages at the analysis passage times and each run's timing offset.
+"""
+
+import json
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from kit.verify import rerun_event, summarise_position, summarise_timing
+
+EVENT = Path(__file__).resolve().parents[1] / "sample_grids"
+
+
+@pytest.fixture(scope="module")
+def rerun():
+    return rerun_event(EVENT)
+
+
+@pytest.fixture(scope="module")
+def truth():
+    return json.loads((EVENT / "truth.json").read_text())
+
+
+@pytest.mark.slow
+def test_observed_passages_match_the_analysis_truth(rerun, truth):
+    obs = rerun["observed"]
+    expected = truth["sets"]["analyses"]["passages"]
+    n = 0
+    for site, kinds in expected.items():
+        for kind, when in kinds.items():
+            if when is None:
+                continue
+            got = obs[(obs["site"] == site) & (obs["front_kind"] == kind)]
+            assert len(got) == 1, f"{site} {kind}: {len(got)} observed passages"
+            err = pd.Timestamp(got.iloc[0]["passage_utc"]) - pd.Timestamp(when)
+            # station noise and 10-min sampling: within 45 minutes
+            assert abs(err / pd.Timedelta(minutes=1)) <= 45, (site, kind, err)
+            n += 1
+    assert n >= 8
+
+
+@pytest.mark.slow
+def test_timing_errors_reproduce_the_built_in_offsets(rerun, truth):
+    pairs = rerun["timing"]
+    assert (pairs["outcome"] == "hit").all()
+    for run, spec in truth["sets"].items():
+        if run == "analyses":
+            continue
+        # truth.json: a positive offset means the run's fronts come early, so
+        # forecast minus observed is minus the offset
+        mean_err = pairs.loc[pairs["run"] == run, "error_h"].mean()
+        assert mean_err == pytest.approx(-spec["timing_offset_h"], abs=1.0), run
+
+
+@pytest.mark.slow
+def test_position_errors_and_summaries(rerun):
+    pos = rerun["position"]
+    hits = pos[pos["outcome"] == "hit"]
+    assert len(hits) >= 0.8 * len(pos)
+    # a 2 h timing offset at ~10-15 m/s is 70-110 km of displacement
+    assert hits["mean_distance_km"].median() < 200
+    ts, ps = summarise_timing(rerun["timing"]), summarise_position(pos)
+    assert set(ts["front_kind"]) >= {"warm", "cold"}
+    assert (ps["n"].fillna(0) > 0).any()
+    assert rerun["station_problems"]["problem"].str.contains("garbage|gap").any()
