@@ -347,3 +347,59 @@ def test_sample_event_slopes_regression():
         expected = truth["slopes_1_in"][f.kind]
         assert f.props["slope_1_in"] == pytest.approx(expected, rel=0.25), (f.kind, f.valid_time)
         assert f.props["slope_typical_1_in"] == expected  # the scenario uses the trade values
+
+
+@pytest.mark.parametrize("hemisphere", [1, -1])
+def test_two_air_mass_atmosphere_slope_and_margules_agree(hemisphere):
+    # [pub] Margules (1906): two isothermal air masses, each in hydrostatic and
+    # geostrophic balance with a uniform along-front wind, meet on a surface
+    # where their pressures are equal; that surface has the Margules slope.
+    # Built here exactly on the sphere: p_i = P exp(-g z/(R T_i) - F(y) u_i/(R T_i)),
+    # F(y) = integral of f dy, cold air (T1, u1) poleward. The slope traced in
+    # the 3-D field and the Margules slope read from T and z must both match
+    # the interface [derived: secant between its 925 and 600 hPa crossings].
+    # Mirrored into the southern hemisphere (f < 0, cold air to the south,
+    # same u) the answers are the same.
+    r_d, g = 287.04, G0
+    t1, t2, u1, u2 = 270.0, 280.0, -8.0, 12.0
+    phi_s = 47.0 * hemisphere
+    lat = np.sort(hemisphere * np.arange(40.0, 62.0001, 0.05))
+    lon = np.arange(-10.0, 0.001, 0.25)
+    omega = 7.292115e-5
+    big_f = 2 * omega * R_KM * 1e3 * (np.cos(np.deg2rad(phi_s)) - np.cos(np.deg2rad(lat)))
+    z_int = -(big_f / r_d) * (u2 / t2 - u1 / t1) / ((g / r_d) * (1 / t2 - 1 / t1))
+    p_int = 1e5 * np.exp(-g * z_int / (r_d * t2) - big_f * u2 / (r_d * t2))
+    levels = np.array([1000.0, 925.0, 850.0, 700.0, 600.0, 500.0])
+    t = np.empty((1, levels.size, lat.size, lon.size))
+    z = np.empty_like(t)
+    for k, lv in enumerate(levels):
+        p = lv * 100.0
+        cold = p > p_int
+        z1 = (r_d * t1 / g) * (np.log(1e5 / p) - big_f * u1 / (r_d * t1))
+        z2 = (r_d * t2 / g) * (np.log(1e5 / p) - big_f * u2 / (r_d * t2))
+        t[0, k] = np.where(cold, t1, t2)[:, None]
+        z[0, k] = np.where(cold, z1, z2)[:, None]
+    ds = xr.Dataset(
+        coords={"time": [T0], "level": levels, "lat": lat, "lon": lon}, attrs={"grid": "latlon"}
+    )
+    dims = ("time", "level", "lat", "lon")
+    ds["t"] = (dims, t)
+    ds["td"] = (dims, t - 8.0)
+    ds["z"] = (dims, z)
+
+    def crossing(lv):  # latitude [deg] and height [m] of the interface on a level
+        j = int(np.argmin(np.abs(p_int - lv * 100.0)))
+        return lat[j], z_int[j]
+
+    lat_850, _ = crossing(850.0)
+    (la_lo, z_lo), (la_hi, z_hi) = crossing(925.0), crossing(600.0)
+    secant = R_KM * np.deg2rad(abs(la_hi - la_lo)) / ((z_hi - z_lo) / 1e3)
+    # the Margules along-front wind is 90 deg left of the cold-to-warm axis:
+    # east (u) in the north, west (-u) in the south
+    tan = margules_slope(t1, t2, hemisphere * u1, hemisphere * u2, lat_850)
+    assert secant == pytest.approx(1 / tan, rel=0.05)  # the construction holds
+    fr = make_front(np.arange(-8.0, -2.0, 0.25), lat_850, 0.0, hemisphere, kind="warm")
+    res = front_slope(fr, ds, levels=(925.0, 850.0, 700.0, 600.0), settings=SETTINGS)
+    assert res["slope_1_in"] == pytest.approx(secant, rel=0.10)
+    n_m = front_margules_slope(fr, ds, offset_km=250.0)
+    assert n_m == pytest.approx(1 / tan, rel=0.05)
