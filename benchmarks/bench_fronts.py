@@ -17,7 +17,7 @@ Figures:
   float64), and our time in multiples of it, target within 15x.
 
 The fields are synthetic (a smooth global temperature with wavy frontal
-zones), used for timing only. The machine is shared: the runner's load
+zones) stored as float32 like most model output, used for timing only. The machine is shared: the runner's load
 average is printed with the figures; the best of several calls is reported.
 """
 
@@ -36,7 +36,7 @@ from kit import geometry as geo
 RES = (0.5, 0.25, 0.1)
 
 
-def synthetic_level(res, dtype=np.float64):
+def synthetic_level(res, dtype=np.float32):
     """Canonical Dataset of one time and the 850 hPa level on a global grid."""
     lat = np.linspace(-90.0, 90.0, int(round(180 / res)) + 1)
     lon = np.arange(-180.0, 180.0, res)

@@ -30,12 +30,12 @@ References (full entries in the references page): [RenardClarke1965],
 """
 
 import math
+import threading
 from dataclasses import dataclass, field, fields
 
 import numpy as np
 import pandas as pd
 import xarray as xr
-from scipy import ndimage
 
 from kit import CAUTION
 from kit import geometry as geo
@@ -460,6 +460,20 @@ def _seam_shift(z_valid):
     return int(np.argmin(counts)), int(counts.min())
 
 
+_F64 = threading.local()
+
+
+def _as_float64(z):
+    """Copy into a reused float64 buffer (contourpy works in float64)."""
+    buf = getattr(_F64, "buf", None)
+    if buf is None or buf.size < z.size:
+        buf = np.empty(max(z.size, 1), dtype=np.float64)
+        _F64.buf = buf
+    out = buf[: z.size].reshape(z.shape)
+    np.copyto(out, z)
+    return out
+
+
 def _trace_zero_lines(loc_masked, periodic):
     """Zero lines of a masked locating field in (fractional) index space.
 
@@ -489,7 +503,7 @@ def _trace_zero_lines(loc_masked, periodic):
     if z.shape[0] < 2 or z.shape[1] < 2:
         return []
     gen = contourpy.contour_generator(
-        z=np.asarray(z, dtype=np.float64),
+        z=_as_float64(z),
         line_type="Separate",
         corner_mask=False,
         name="serial",
@@ -551,13 +565,37 @@ def _masked_zero_lines(f, grid, k1, k2):
 
 
 def _sample(arrays, xi, yi, periodic):
-    """Bilinear values of 2-D arrays at fractional indices."""
-    coords = np.vstack([yi, xi])
-    mode = "grid-wrap" if periodic else "nearest"
-    return [
-        ndimage.map_coordinates(a, coords, output=np.float64, order=1, mode=mode, prefilter=False)
-        for a in arrays
-    ]
+    """Bilinear values [float64] of 2-D arrays at fractional indices (x, y).
+
+    Corners with zero weight are ignored, so a vertex on a cell edge next to
+    a missing value still gets the value interpolated along that edge.
+    """
+    ny, nx = arrays[0].shape
+    x = np.asarray(xi, dtype=np.float64)
+    y = np.asarray(yi, dtype=np.float64)
+    if periodic:
+        x = np.mod(x, nx)
+        j0 = np.minimum(np.floor(x).astype(np.intp), nx - 1)
+        j1 = (j0 + 1) % nx
+    else:
+        x = np.clip(x, 0, nx - 1)
+        j0 = np.clip(np.floor(x).astype(np.intp), 0, max(nx - 2, 0))
+        j1 = np.minimum(j0 + 1, nx - 1)
+    y = np.clip(y, 0, ny - 1)
+    i0 = np.clip(np.floor(y).astype(np.intp), 0, max(ny - 2, 0))
+    i1 = np.minimum(i0 + 1, ny - 1)
+    fx = np.clip(x - j0, 0.0, 1.0)
+    fy = np.clip(y - i0, 0.0, 1.0)
+    weights = ((1 - fx) * (1 - fy), fx * (1 - fy), (1 - fx) * fy, fx * fy)
+    corners = ((i0, j0), (i0, j1), (i1, j0), (i1, j1))
+    out = []
+    for a in arrays:
+        acc = np.zeros(x.shape)
+        for w, (ii, jj) in zip(weights, corners, strict=True):
+            v = a[ii, jj].astype(np.float64)
+            acc += np.where(w > 0, v, 0.0) * w
+        out.append(acc)
+    return out
 
 
 def _line_lonlat(grid, xi, yi):

@@ -29,6 +29,7 @@ import threading
 
 import numpy as np
 import xarray as xr
+from scipy import fft as sp_fft
 from scipy import ndimage
 
 from kit.errors import InputError
@@ -604,7 +605,7 @@ def _smooth_np(arr, g, scale_km, out=None, tmp=None, cbuf=None):
     """Smooth a float ndarray (..., Y, X) on a _Grid; optional work buffers.
 
     ``out`` receives the result (may not be ``arr``); ``tmp`` is a buffer
-    like ``arr``; ``cbuf`` a complex buffer of shape (..., Y, X // 2 + 1).
+    like ``arr``; ``cbuf`` is accepted for compatibility and not used.
     """
     dtype = arr.dtype
     if out is None:
@@ -634,9 +635,9 @@ def _smooth_np(arr, g, scale_km, out=None, tmp=None, cbuf=None):
     # X pass: sigma per row so the width in km is the same at every latitude
     nx = g.shape[1]
     if g.periodic:
-        if cbuf is None:
-            cbuf = np.empty(arr.shape[:-1] + (nx // 2 + 1,), dtype=np.result_type(dtype, 1j))
-        np.fft.rfft(tmp, axis=-1, out=cbuf)
+        # scipy's forward real FFT is the faster one here; numpy's inverse
+        # writes straight into the output buffer
+        cbuf = sp_fft.rfft(tmp, axis=-1)
         cbuf *= plan["transfer"]
         np.fft.irfft(cbuf, n=nx, axis=-1, out=out)
         if any_missing:
