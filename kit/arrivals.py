@@ -352,8 +352,8 @@ def _dims(ds):
     )
 
 
-def _bilinear(ds, row, col):
-    """Bilinear interpolation of every horizontal field to fractional (row, col); NaN-aware."""
+def _corners(ds, row, col):
+    """Grid indices and weights of the four nodes around fractional (row, col)."""
     ydim, xdim = _dims(ds)
     ny, nx = ds.sizes[ydim], ds.sizes[xdim]
     j0 = min(int(math.floor(row)), ny - 2) if ny > 1 else 0
@@ -366,32 +366,44 @@ def _bilinear(ds, row, col):
         i0 = min(i0, nx - 2) if nx > 1 else 0
         i1, wx = (i0 + 1 if nx > 1 else 0), (col - i0 if nx > 1 else 0.0)
     j1 = j0 + 1 if ny > 1 else 0
-    corners = [
+    return [
         (j0, i0, (1 - wy) * (1 - wx)),
         (j0, i1, (1 - wy) * wx),
         (j1, i0, wy * (1 - wx)),
         (j1, i1, wy * wx),
     ]
+
+
+def _bilinear_many(ds, positions):
+    """Bilinear interpolation of every horizontal field to fractional positions; NaN-aware.
+
+    One read of the four corner columns of every site for every field (a single
+    dask compute on lazily loaded runs). Returns one Dataset per position.
+    """
+    ydim, xdim = _dims(ds)
+    corners = [_corners(ds, r, c) for r, c in positions]
     drop = [c for c in ds.coords if ydim in ds[c].dims or xdim in ds[c].dims]
-    out = {}
-    for name, da in ds.data_vars.items():
-        if ydim not in da.dims or xdim not in da.dims:
-            continue
-        acc = wsum = None
-        for j, i, w in corners:
-            if w <= 0.0:
-                continue
-            v = da.isel({ydim: j, xdim: i}).drop_vars(drop, errors="ignore").astype(float).load()
+    names = [n for n, da in ds.data_vars.items() if ydim in da.dims and xdim in da.dims]
+    jj = xr.DataArray([[c[0] for c in cs] for cs in corners], dims=("_site", "_corner"))
+    ii = xr.DataArray([[c[1] for c in cs] for cs in corners], dims=("_site", "_corner"))
+    w = xr.DataArray([[c[2] for c in cs] for cs in corners], dims=("_site", "_corner"))
+    sub = ds[names].isel({ydim: jj, xdim: ii}).drop_vars(drop, errors="ignore").load()
+    out = []
+    for k in range(len(positions)):
+        one = {}
+        for name in names:
+            v = sub[name].isel(_site=k).astype(float)
             ok = np.isfinite(v)
-            term, wt = v.where(ok, 0.0) * w, ok * w
-            acc = term if acc is None else acc + term
-            wsum = wt if wsum is None else wsum + wt
-        out[name] = (acc / wsum.where(wsum > 0)).assign_attrs(da.attrs)
-    res = xr.Dataset(out)
-    for c in ("time", "level", "member", "reference_time"):
-        if c in ds.coords and c not in res.coords:
-            res = res.assign_coords({c: ds[c]})
-    return res
+            wk = w.isel(_site=k)
+            wsum = (ok * wk).sum("_corner")
+            acc = (v.where(ok, 0.0) * wk).sum("_corner")
+            one[name] = (acc / wsum.where(wsum > 0)).assign_attrs(ds[name].attrs)
+        res = xr.Dataset(one)
+        for c in ("time", "level", "member", "reference_time"):
+            if c in ds.coords and c not in res.coords:
+                res = res.assign_coords({c: ds[c]})
+        out.append(res)
+    return out
 
 
 def _wind_dir(u, v):
@@ -406,9 +418,11 @@ def site_series(ds, site):
     ----------
     ds : xarray.Dataset
         Canonical dataset of one run (kit.open_run), with or without ``member``.
-    site : mapping or pandas.Series
+    site : mapping or pandas.Series or pandas.DataFrame
         ``name``, ``lat``, ``lon`` [degrees] and optionally ``elevation_m`` [m
         above mean sea level; taken as 0 m when missing, noted in the attrs].
+        A DataFrame of sites (kit.sites.read_sites) gives a dict
+        ``{name: Dataset}``, read from the files in one pass.
 
     Returns
     -------
@@ -432,21 +446,38 @@ def site_series(ds, site):
     kit.errors.InputError
         The site is off the grid or the dataset lacks ``t``, ``td`` or ``z``.
     """
-    name, lat, lon, elev = _site_fields(site)
-    row, col = grid_position(ds, lat, lon)
-    if not (np.isfinite(row) and np.isfinite(col)):
-        raise InputError(
-            f"site '{name}' ({lat:.3f}, {lon:.3f}) lies off the grid of "
-            f"{ds.attrs.get('run', 'the run')} ({_extent_text(ds)}); "
-            "expected a site inside the model domain"
-        )
+    if isinstance(site, pd.DataFrame):
+        return _series_many(ds, site)
+    name = _site_fields(site)[0]
+    return _series_many(ds, pd.DataFrame([dict(site)]))[name]
+
+
+def _series_many(ds, sites):
+    """Site series of every row of ``sites``: {name: Dataset}."""
     for var in ("t", "td", "z"):
         if var not in ds:
             raise InputError(
                 f"run {ds.attrs.get('run', '?')}: no variable '{var}'; "
                 "expected the canonical dataset (DEVELOPERS.md)"
             )
-    s = _bilinear(ds, row, col)
+    fields = [_site_fields(row) for _, row in sites.iterrows()]
+    positions = grid_positions(ds, [f[1] for f in fields], [f[2] for f in fields])
+    for (name, lat, lon, _), (row, col) in zip(fields, positions, strict=True):
+        if not (np.isfinite(row) and np.isfinite(col)):
+            raise InputError(
+                f"site '{name}' ({lat:.3f}, {lon:.3f}) lies off the grid of "
+                f"{ds.attrs.get('run', 'the run')} ({_extent_text(ds)}); "
+                "expected a site inside the model domain"
+            )
+    interpolated = _bilinear_many(ds, [tuple(p) for p in positions])
+    return {
+        f[0]: _derive(ds, s, *f, *pos)
+        for f, pos, s in zip(fields, positions, interpolated, strict=True)
+    }
+
+
+def _derive(ds, s, name, lat, lon, elev, row, col):
+    """Add the derived site fields to the interpolated series ``s``."""
     assumed = not np.isfinite(elev)
     z_sfc = 0.0 if assumed else elev
     th = _thermo()
@@ -666,8 +697,9 @@ def _zone_centre_km(front):
     For a tanh zone of half-width L the line is at 0.658 L from the centre,
     where |grad tau| / TFP = 0.866 L; so the centre lies
     :data:`ZONE_CENTRE_FACTOR` |grad tau| / TFP = 0.760 |grad tau| / TFP on the
-    cold side (derived from the analytic zone of REFERENCES.md). The median over the vertices is used; NaN when the
-    front carries no usable ``grad``/``tfp``.
+    cold side (derived from the analytic zone of REFERENCES.md). The median
+    over the vertices is used; NaN when the front carries no usable
+    ``grad``/``tfp``.
     """
     grad = np.asarray(front.grad, dtype=float)
     tfp = np.asarray(front.tfp, dtype=float)
@@ -695,7 +727,7 @@ class _ZoneCentre:
         self.ds = ds
         self.settings = settings if settings is not None else kf.FrontSettings()
         self.max_km, self.step_km = max_km, step_km
-        self._cache = {}
+        self._cache, self._levels = {}, {}
 
     def _grad(self, level, time):
         key = (float(level), np.datetime64(time, "ns"))
@@ -706,7 +738,10 @@ class _ZoneCentre:
             from kit import geometry as geo
             from kit import thermo
 
-            one = self.ds.sel(time=[key[1]])
+            if key[0] not in self._levels:  # read the level once for every time
+                keep = [v for v in ("t", "td") if v in self.ds]
+                self._levels[key[0]] = self.ds[keep].sel(level=[key[0]]).load()
+            one = self._levels[key[0]].sel(time=[key[1]])
             if getattr(self.settings, "field", "theta_w") == "theta":
                 tau = thermo.level_field(one, "theta", key[0])
             else:
@@ -759,6 +794,15 @@ class _ZoneCentre:
             frac = 0.5 * (a - c) / den if den < 0 else 0.0
             return float(dist[j] + frac * self.step_km)
         return 0.0
+
+
+def _level_height(zlev, level, time):
+    """Height of ``level`` at the site at ``time`` [m] (linear in time; NaN outside)."""
+    zl = zlev.sel(level=level, method="nearest")
+    vals = np.asarray(zl.values, dtype=float).ravel()
+    if "time" not in zl.dims or vals.size == 1:
+        return float(vals[0])
+    return _interp(_hours(zl["time"].values), vals, float(_hours(time)))
 
 
 def find_passages(
@@ -830,12 +874,7 @@ def find_passages(
             if surface and zlev is not None and f.level_hpa is not None:
                 n, _ = _slope_1_in(f)
                 if np.isfinite(n):
-                    zl = zlev.sel(level=float(f.level_hpa), method="nearest")
-                    zl = (
-                        float(zl.interp(time=np.datetime64(f.valid_time, "ns")).values)
-                        if zl.sizes.get("time", 1) > 1
-                        else float(zl.values.ravel()[0])
-                    )
+                    zl = _level_height(zlev, float(f.level_hpa), f.valid_time)
                     if np.isfinite(zl):
                         shift = max(zl - elev, 0.0) * n / 1000.0
             centre = np.nan
@@ -1335,8 +1374,9 @@ def arrival_table(
             ]
             dsm = ds.sel(member=member) if member is not None else ds
             finder = _ZoneCentre(dsm, settings) if zone_centre else None
+            all_series = site_series(dsm, sites)
             for _, site in sites.iterrows():
-                series = site_series(dsm, site)
+                series = all_series[site["name"]]
                 store[(run, member, site["name"])] = series
                 found = find_passages(
                     mfronts,
