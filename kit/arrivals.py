@@ -62,7 +62,7 @@ import xarray as xr
 
 from kit import CAUTION
 from kit.errors import InputError
-from kit.sites import _extent_text, _local_en, grid_position, grid_positions, read_sites
+from kit.sites import _extent_text, _local_en, grid_positions, read_sites
 
 __all__ = [
     "CONTRACT_COLUMNS",
