@@ -219,36 +219,116 @@ _SURFACE_OF = {"t": "t2m", "td": "td2m", "rh": "rh2m", "q": "q2m", "u": "u10", "
 _GRID_RELATIVE_STD = {"x_wind", "y_wind", "grid_eastward_wind", "grid_northward_wind"}
 
 _LEVEL_DIM_NAMES = (
-    "level", "isobaricInhPa", "isobaricInPa", "pressure", "plev", "lev", "pressure_level",
-    "pressure_levels", "isobaric", "lv_ISBL0", "lv_ISBL1", "air_pressure", "p", "levels",
-    "plevel", "pres",
+    "level",
+    "isobaricInhPa",
+    "isobaricInPa",
+    "pressure",
+    "plev",
+    "lev",
+    "pressure_level",
+    "pressure_levels",
+    "isobaric",
+    "lv_ISBL0",
+    "lv_ISBL1",
+    "air_pressure",
+    "p",
+    "levels",
+    "plevel",
+    "pres",
 )
 _MEMBER_NAMES = (
-    "member", "number", "realization", "ens", "ensemble", "ensemble_member", "realisation", "mem",
+    "member",
+    "number",
+    "realization",
+    "ens",
+    "ensemble",
+    "ensemble_member",
+    "realisation",
+    "mem",
 )
 _REF_NAMES = (
-    "reference_time", "forecast_reference_time", "analysis_time", "init_time", "run_time",
-    "initial_time", "initialization_time",
+    "reference_time",
+    "forecast_reference_time",
+    "analysis_time",
+    "init_time",
+    "run_time",
+    "initial_time",
+    "initialization_time",
 )
 _LEAD_NAMES = ("step", "forecast_period", "lead_time", "leadtime", "forecast_hour")
-_LAT_NAMES = ("lat", "latitude", "nav_lat", "XLAT", "LAT", "Latitude", "g0_lat_0", "gridlat_0", "y_lat")
-_LON_NAMES = ("lon", "longitude", "nav_lon", "XLONG", "LON", "Longitude", "g0_lon_1", "gridlon_0", "x_lon")
+_LAT_NAMES = (
+    "lat",
+    "latitude",
+    "nav_lat",
+    "XLAT",
+    "LAT",
+    "Latitude",
+    "g0_lat_0",
+    "gridlat_0",
+    "y_lat",
+)
+_LON_NAMES = (
+    "lon",
+    "longitude",
+    "nav_lon",
+    "XLONG",
+    "LON",
+    "Longitude",
+    "g0_lon_1",
+    "gridlon_0",
+    "x_lon",
+)
 _LAT_UNITS = {"degrees_north", "degree_north", "degree_N", "degrees_N", "degreeN", "degreesN"}
 _LON_UNITS = {"degrees_east", "degree_east", "degree_E", "degrees_E", "degreeE", "degreesE"}
 
 # unit spellings pint does not read the CF/GRIB way
 _UNIT_ALIASES = {
-    "c": "degC", "deg c": "degC", "degc": "degC", "deg_c": "degC", "degrees c": "degC",
-    "degrees_celsius": "degC", "degree_celsius": "degC", "celsius": "degC", "°c": "degC",
-    "degrees celsius": "degC", "f": "degF", "degrees_fahrenheit": "degF",
-    "(0 - 1)": "1", "0-1": "1", "(0-1)": "1", "fraction": "1", "proportion": "1", "1": "1",
-    "dimensionless": "1", "-": "1", "none": "1",
-    "mb": "mbar", "millibars": "mbar", "gp m": "m", "gpm": "m", "m gp": "m", "gpdm": "dam",
-    "dagpm": "dam", "gp dam": "dam", "m of water equivalent": "m", "mm of water equivalent": "mm",
-    "kg m**-2": "kg m-2", "kg/m^2": "kg m-2", "kg/m2": "kg m-2", "kg m^-2": "kg m-2",
-    "kg/m^2/s": "kg m-2 s-1", "kg m^-2 s^-1": "kg m-2 s-1", "kg/m2/s": "kg m-2 s-1",
-    "mm/h": "mm h-1", "mm/hr": "mm h-1", "mm hr-1": "mm h-1", "mm/hour": "mm h-1",
-    "kt": "knot", "kts": "knot", "knots": "knot", "m2/s2": "m2 s-2",
+    "c": "degC",
+    "deg c": "degC",
+    "degc": "degC",
+    "deg_c": "degC",
+    "degrees c": "degC",
+    "degrees_celsius": "degC",
+    "degree_celsius": "degC",
+    "celsius": "degC",
+    "°c": "degC",
+    "degrees celsius": "degC",
+    "f": "degF",
+    "degrees_fahrenheit": "degF",
+    "(0 - 1)": "1",
+    "0-1": "1",
+    "(0-1)": "1",
+    "fraction": "1",
+    "proportion": "1",
+    "1": "1",
+    "dimensionless": "1",
+    "-": "1",
+    "none": "1",
+    "mb": "mbar",
+    "millibars": "mbar",
+    "gp m": "m",
+    "gpm": "m",
+    "m gp": "m",
+    "gpdm": "dam",
+    "dagpm": "dam",
+    "gp dam": "dam",
+    "m of water equivalent": "m",
+    "mm of water equivalent": "mm",
+    "kg m**-2": "kg m-2",
+    "kg/m^2": "kg m-2",
+    "kg/m2": "kg m-2",
+    "kg m^-2": "kg m-2",
+    "kg/m^2/s": "kg m-2 s-1",
+    "kg m^-2 s^-1": "kg m-2 s-1",
+    "kg/m2/s": "kg m-2 s-1",
+    "mm/h": "mm h-1",
+    "mm/hr": "mm h-1",
+    "mm hr-1": "mm h-1",
+    "mm/hour": "mm h-1",
+    "kt": "knot",
+    "kts": "knot",
+    "knots": "knot",
+    "m2/s2": "m2 s-2",
 }
 
 # physical ranges used to check a sample after conversion (median of the sample)
@@ -271,9 +351,13 @@ _PLAUSIBLE = {
 }
 _REQUIRED = ("t", "u", "v", "z")
 _NOT_PRESSURE_STD = (
-    "atmosphere_hybrid_sigma_pressure_coordinate", "model_level_number",
-    "atmosphere_sigma_coordinate", "atmosphere_hybrid_height_coordinate", "altitude",
-    "atmosphere_sleve_coordinate", "air_potential_temperature",
+    "atmosphere_hybrid_sigma_pressure_coordinate",
+    "model_level_number",
+    "atmosphere_sigma_coordinate",
+    "atmosphere_hybrid_height_coordinate",
+    "altitude",
+    "atmosphere_sleve_coordinate",
+    "air_potential_temperature",
 )
 
 
@@ -495,7 +579,7 @@ def _check_netcdf_file(path):
 
 
 def _check_classic_complete(path):
-    """Truncated NetCDF-3 files open without error; map them to find out."""
+    """Raise unless a NetCDF-3 file is as long as its header says (truncation check)."""
     import gc
 
     from scipy.io import netcdf_file
@@ -513,11 +597,20 @@ def _check_classic_complete(path):
         if failure is not None:
             gc.collect()  # release the half-built file object while warnings are silenced
     if failure is not None:
-        raise _err(path, f"truncated or corrupt NetCDF-3 file ({failure}); expected a complete file")
+        raise _err(
+            path, f"truncated or corrupt NetCDF-3 file ({failure}); expected a complete file"
+        )
+
+
+#: files smaller than this [bytes] are chunked as stored (one dask chunk per
+#: variable and file) when chunks="auto": cheaper to set up, same laziness
+_SMALL_FILE_BYTES = 64 * 2**20
 
 
 def _open_file(path, chunks):
     _check_netcdf_file(path)
+    if isinstance(chunks, str) and chunks == "auto" and path.stat().st_size < _SMALL_FILE_BYTES:
+        chunks = {}
     kwargs = dict(engine="netcdf4", decode_timedelta=True, mask_and_scale=True)
     try:
         with warnings.catch_warnings():
@@ -577,8 +670,14 @@ def _find_named(ds, names=(), standard_names=(), kinds=("coords", "data_vars")):
 
 
 def _attr_time(ds, where):
-    for key in ("forecast_reference_time", "reference_time", "run_reference_time",
-                "analysis_time", "initialization_time", "init_time"):
+    for key in (
+        "forecast_reference_time",
+        "reference_time",
+        "run_reference_time",
+        "analysis_time",
+        "initialization_time",
+        "init_time",
+    ):
         if key in ds.attrs:
             try:
                 ts = pd.Timestamp(str(ds.attrs[key]))
@@ -604,10 +703,19 @@ def _canonical_time(ds, where):
         if lead_name is not None or ds["time"].ndim == 0:
             ref_name = "time"
     if valid_name is None:
-        cand = [n for n in ds.variables
-                if n != ref_name and (n == "time" or ds[n].attrs.get("standard_name") == "time"
-                                      or ds[n].attrs.get("axis") == "T")]
-        cand += [n for n in ds.variables if n not in cand and n != ref_name and n in ("Time", "t_valid")]
+        cand = [
+            n
+            for n in ds.variables
+            if n != ref_name
+            and (
+                n == "time"
+                or ds[n].attrs.get("standard_name") == "time"
+                or ds[n].attrs.get("axis") == "T"
+            )
+        ]
+        cand += [
+            n for n in ds.variables if n not in cand and n != ref_name and n in ("Time", "t_valid")
+        ]
         valid_name = cand[0] if cand else None
 
     ref = None
@@ -642,14 +750,24 @@ def _canonical_time(ds, where):
                 "no valid time: expected a CF time coordinate 'time' or 'valid_time', or a "
                 "reference time with a lead 'step'/'forecast_period'",
             )
-        base = ref_values if ref_values is not None else (
-            np.array(attr_ref) if attr_ref is not None else None)
+        base = (
+            ref_values
+            if ref_values is not None
+            else (np.array(attr_ref) if attr_ref is not None else None)
+        )
         if base is None:
-            raise _err(where, f"lead '{lead_name}' without a reference time; expected "
-                       "forecast_reference_time")
+            raise _err(
+                where,
+                f"lead '{lead_name}' without a reference time; expected forecast_reference_time",
+            )
         lead = ds[lead_name]
-        vda = xr.DataArray(np.asarray(base).reshape(()) if np.ndim(base) == 0 else base,
-                           dims=ds[ref_name].dims if ref_name else ()) + lead
+        vda = (
+            xr.DataArray(
+                np.asarray(base).reshape(()) if np.ndim(base) == 0 else base,
+                dims=ds[ref_name].dims if ref_name else (),
+            )
+            + lead
+        )
         valid = np.asarray(vda.values, dtype="datetime64[ns]")
         vdims = vda.dims
         ds = ds.assign_coords(_valid=(vdims, valid))
@@ -690,8 +808,11 @@ def _canonical_time(ds, where):
             ref = _to_datetime64(rda.values, where, ref_name).reshape(())
         elif rda is not None:
             ref = _to_datetime64(rda.values, where, ref_name).ravel()[0]
-    drop_vars = [n for n in (ref_name, lead_name, "valid_time", "time", "step")
-                 if n and n in ds.variables and n != tdim]
+    drop_vars = [
+        n
+        for n in (ref_name, lead_name, "valid_time", "time", "step")
+        if n and n in ds.variables and n != tdim
+    ]
     ds = ds.drop_vars(drop_vars)
     if tdim != "_valid":
         ds = ds.swap_dims({tdim: "_valid"})
@@ -727,7 +848,11 @@ def _level_dims(ds, where):
         if units is not None:
             try:
                 q = _parse_units(units, where, dim, "Pa or hPa")
-                pressure_units = dict(q.dimensionality) == {"[mass]": 1, "[length]": -1, "[time]": -2}
+                pressure_units = dict(q.dimensionality) == {
+                    "[mass]": 1,
+                    "[length]": -1,
+                    "[time]": -2,
+                }
             except InputError:
                 pressure_units = False
         named = dim in _LEVEL_DIM_NAMES or dim.lower() in {n.lower() for n in _LEVEL_DIM_NAMES}
@@ -739,7 +864,9 @@ def _level_dims(ds, where):
             )
         if std == "air_pressure" or pressure_units or (named and units is None):
             if units is not None and not pressure_units:
-                raise _err(where, f"level coordinate '{dim}' has unit '{units}'; expected Pa or hPa")
+                raise _err(
+                    where, f"level coordinate '{dim}' has unit '{units}'; expected Pa or hPa"
+                )
             vals = np.asarray(c.values, dtype=np.float64)
             if units is None:
                 hpa = vals / 100.0 if np.nanmax(vals) > 1100.0 else vals
@@ -750,7 +877,12 @@ def _level_dims(ds, where):
                 hpa = vals * scale
             found[dim] = hpa
         elif named or (c.attrs.get("axis") == "Z" and dim not in ("height", "heightAboveGround")):
-            if std in ("height",) or dim in ("height", "heightAboveGround", "height2m", "height10m"):
+            if std in ("height",) or dim in (
+                "height",
+                "heightAboveGround",
+                "height2m",
+                "height10m",
+            ):
                 continue
             what = std or c.attrs.get("long_name") or f"unit '{units}'"
             raise _err(
@@ -762,7 +894,7 @@ def _level_dims(ds, where):
 
 
 def _scalar_pressure(da, where):
-    """hPa value of a scalar pressure coordinate of a variable, or None."""
+    """HPa value of a scalar pressure coordinate of a variable, or None."""
     for name, c in da.coords.items():
         if c.ndim != 0 or name in da.dims:
             continue
@@ -786,7 +918,11 @@ def _surface_height(da):
     """Height above ground of a near-surface variable [m] from its coordinates, or None."""
     for name, c in da.coords.items():
         if c.attrs.get("standard_name") == "height" or name in (
-            "height", "heightAboveGround", "height2m", "height10m", "height_above_ground"
+            "height",
+            "heightAboveGround",
+            "height2m",
+            "height10m",
+            "height_above_ground",
         ):
             vals = np.atleast_1d(np.asarray(c.values, dtype=np.float64))
             if vals.size == 1:
@@ -832,11 +968,15 @@ def _regular_grid(ds, lat_name, lon_name, where):
     if not (np.all(np.isfinite(lat)) and np.all(np.isfinite(lon))):
         raise _err(where, "latitude/longitude contain missing values; expected finite degrees")
     if np.any(np.abs(lat) > 90.0 + 1e-6):
-        raise _err(where, f"latitude '{lat_name}' reaches {np.max(np.abs(lat)):.3f}; expected -90..90")
+        raise _err(
+            where, f"latitude '{lat_name}' reaches {np.max(np.abs(lat)):.3f}; expected -90..90"
+        )
     dlat = np.diff(lat)
     if lat.size > 1 and np.any(dlat == 0):
         i = int(np.nonzero(dlat == 0)[0][0])
-        raise _err(where, f"duplicate latitude {lat[i]:g} in '{lat_name}'; expected distinct values")
+        raise _err(
+            where, f"duplicate latitude {lat[i]:g} in '{lat_name}'; expected distinct values"
+        )
     if lat.size > 1 and not (np.all(dlat > 0) or np.all(dlat < 0)):
         raise _err(where, f"latitude '{lat_name}' is not monotonic; expected sorted values")
     # longitudes: unwrap the stored order, then require one direction
@@ -844,7 +984,9 @@ def _regular_grid(ds, lat_name, lon_name, where):
     dl = np.diff(lon_u)
     if lon.size > 1 and np.any(np.abs(dl) < 1e-9):
         i = int(np.nonzero(np.abs(dl) < 1e-9)[0][0])
-        raise _err(where, f"duplicate longitude {lon[i]:g} in '{lon_name}'; expected distinct values")
+        raise _err(
+            where, f"duplicate longitude {lon[i]:g} in '{lon_name}'; expected distinct values"
+        )
     if lon.size > 1 and not (np.all(dl > 0) or np.all(dl < 0)):
         raise _err(where, f"longitude '{lon_name}' is not monotonic; expected sorted values")
     lon_order = np.arange(lon.size)
@@ -891,7 +1033,7 @@ def _regular_grid(ds, lat_name, lon_name, where):
 def _grid_mapping_of(ds, where):
     """Name of the CF grid-mapping variable the data variables point to, or None."""
     names = set()
-    for n, v in ds.data_vars.items():
+    for v in ds.data_vars.values():
         gm = v.attrs.get("grid_mapping", v.encoding.get("grid_mapping"))
         if gm:
             names.add(str(gm).split(":")[0].strip())
@@ -911,7 +1053,9 @@ def _geographic_of(crs):
     ell = crs.ellipsoid
     if ell is None:
         return CRS.from_proj4("+proj=longlat +R=6371229 +no_defs")
-    return CRS.from_proj4(f"+proj=longlat +a={ell.semi_major_metre!r} +b={ell.semi_minor_metre!r} +no_defs")
+    return CRS.from_proj4(
+        f"+proj=longlat +a={ell.semi_major_metre!r} +b={ell.semi_minor_metre!r} +no_defs"
+    )
 
 
 def _axis_geometry(crs, xn, yn, unit_m, step):
@@ -940,7 +1084,11 @@ def _axis_geometry(crs, xn, yn, unit_m, step):
     geo = _geographic_of(crs)
     tr = Transformer.from_crs(crs, geo, always_xy=True)
     ell = crs.ellipsoid
-    geod = Geod(a=ell.semi_major_metre, b=ell.semi_minor_metre) if ell else Geod(a=6371229.0, b=6371229.0)
+    geod = (
+        Geod(a=ell.semi_major_metre, b=ell.semi_minor_metre)
+        if ell
+        else Geod(a=6371229.0, b=6371229.0)
+    )
     # finite step: 1e-4 of the grid length (native units), small against curvature,
     # large against the rounding of degrees in double precision
     h = 1e-4 * step
@@ -980,22 +1128,32 @@ def _projected_grid(ds, lat_name, lon_name, where):
     except (CRSError, Exception) as exc:
         raise _err(
             where,
-            f"grid mapping '{gm_name}' ({gm_attrs.get('grid_mapping_name', 'no grid_mapping_name')}) "
+            f"grid mapping '{gm_name}' "
+            f"({gm_attrs.get('grid_mapping_name', 'no grid_mapping_name')}) "
             f"is not understood by pyproj ({exc}); expected CF grid-mapping attributes",
         ) from None
     rotated = gm_attrs.get("grid_mapping_name") == "rotated_latitude_longitude"
     radius = crs.ellipsoid.semi_major_metre if crs.ellipsoid else 6371229.0
     # the two grid dimensions: those of the first data variable with a grid mapping
     ref_var = next(
-        (v for v in ds.data_vars.values() if v.attrs.get("grid_mapping", v.encoding.get("grid_mapping"))
-         and v.ndim >= 2), None)
+        (
+            v
+            for v in ds.data_vars.values()
+            if v.attrs.get("grid_mapping", v.encoding.get("grid_mapping")) and v.ndim >= 2
+        ),
+        None,
+    )
     if lat_name is not None and ds[lat_name].ndim == 2:
         ydim, xdim = ds[lat_name].dims
     elif ref_var is not None:
         ydim, xdim = ref_var.dims[-2:]
     else:
         raise _err(where, "projected grid without data on it; expected (y, x) fields")
-    if ref_var is not None and tuple(ref_var.dims[-2:]) != (ydim, xdim) and set(ref_var.dims[-2:]) == {ydim, xdim}:
+    if (
+        ref_var is not None
+        and tuple(ref_var.dims[-2:]) != (ydim, xdim)
+        and set(ref_var.dims[-2:]) == {ydim, xdim}
+    ):
         pass  # transposed; fixed later by the final transpose
 
     def native(dim, std_want, rot_std):
@@ -1021,7 +1179,8 @@ def _projected_grid(ds, lat_name, lon_name, where):
             for nm, arr in (("x", xname), ("y", yname)):
                 u = _units_of(ds[arr]) or "m"
                 scale, _ = _linear_conversion(
-                    _parse_units(u, where, arr, "m or km"), "m", where, arr, "m or km")
+                    _parse_units(u, where, arr, "m or km"), "m", where, arr, "m or km"
+                )
                 if nm == "x":
                     xv = xv * scale
                 else:
@@ -1033,8 +1192,11 @@ def _projected_grid(ds, lat_name, lon_name, where):
         xx, yy = tr.transform(np.asarray(ds[lon_name].values), np.asarray(ds[lat_name].values))
         xv = np.nanmean(xx, axis=0)
         yv = np.nanmean(yy, axis=1)
-        if np.nanmax(np.abs(xx - xv[None, :])) > 1e-3 * max(np.nanmax(np.abs(np.diff(xv))), 1e-12) or \
-                np.nanmax(np.abs(yy - yv[:, None])) > 1e-3 * max(np.nanmax(np.abs(np.diff(yv))), 1e-12):
+        if np.nanmax(np.abs(xx - xv[None, :])) > 1e-3 * max(
+            np.nanmax(np.abs(np.diff(xv))), 1e-12
+        ) or np.nanmax(np.abs(yy - yv[:, None])) > 1e-3 * max(
+            np.nanmax(np.abs(np.diff(yv))), 1e-12
+        ):
             raise _err(
                 where,
                 f"2-D latitude/longitude do not lie on a regular grid of '{gm_name}'; "
@@ -1073,8 +1235,16 @@ def _projected_grid(ds, lat_name, lon_name, where):
     coords = {
         "x": ("x", x_m, {"standard_name": "projection_x_coordinate", "units": "m"}),
         "y": ("y", y_m, {"standard_name": "projection_y_coordinate", "units": "m"}),
-        "lat": (("y", "x"), np.asarray(lat2), {"standard_name": "latitude", "units": "degrees_north"}),
-        "lon": (("y", "x"), np.asarray(lon2), {"standard_name": "longitude", "units": "degrees_east"}),
+        "lat": (
+            ("y", "x"),
+            np.asarray(lat2),
+            {"standard_name": "latitude", "units": "degrees_north"},
+        ),
+        "lon": (
+            ("y", "x"),
+            np.asarray(lon2),
+            {"standard_name": "longitude", "units": "degrees_east"},
+        ),
         "crs": ((), 0, gm_attrs),
     }
     if rotated:
@@ -1082,11 +1252,22 @@ def _projected_grid(ds, lat_name, lon_name, where):
         coords["rlat"] = ("y", yv, {"standard_name": "grid_latitude", "units": "degrees"})
     fin = np.isfinite(mx) & np.isfinite(my)
     if np.max(np.abs(mx - my)[fin], initial=0.0) < 1e-3 * np.max(np.abs(mx)[fin], initial=1.0):
-        coords["map_factor"] = (("y", "x"), 0.5 * (mx + my),
-                                {"long_name": "map scale factor (grid length / true length)", "units": "1"})
+        coords["map_factor"] = (
+            ("y", "x"),
+            0.5 * (mx + my),
+            {"long_name": "map scale factor (grid length / true length)", "units": "1"},
+        )
     else:
-        coords["map_factor_x"] = (("y", "x"), mx, {"long_name": "map scale factor along x", "units": "1"})
-        coords["map_factor_y"] = (("y", "x"), my, {"long_name": "map scale factor along y", "units": "1"})
+        coords["map_factor_x"] = (
+            ("y", "x"),
+            mx,
+            {"long_name": "map scale factor along x", "units": "1"},
+        )
+        coords["map_factor_y"] = (
+            ("y", "x"),
+            my,
+            {"long_name": "map scale factor along y", "units": "1"},
+        )
     ds = ds.assign_coords({k: xr.Variable(v[0], v[1], v[2]) for k, v in coords.items()})
     ds.attrs["grid"] = "projected"
     ds.attrs["dx_m"] = float(np.median(np.diff(x_m))) if x_m.size > 1 else float("nan")
@@ -1160,7 +1341,12 @@ def _classify(ds, level_dims, where):
 def _is_grid_relative(da):
     if da.attrs.get("standard_name") in _GRID_RELATIVE_STD:
         return True
-    for key in ("GRIB_uvRelativeToGrid", "uv_relative_to_grid", "grid_relative", "uvRelativeToGrid"):
+    for key in (
+        "GRIB_uvRelativeToGrid",
+        "uv_relative_to_grid",
+        "grid_relative",
+        "uvRelativeToGrid",
+    ):
         val = da.attrs.get(key)
         if val is not None:
             if isinstance(val, str):
@@ -1217,7 +1403,9 @@ def _height(da, where, name, level_hpa):
         std = da.attrs.get("standard_name")
         s = _sample(da)
         if "level" in da.dims and level_hpa is not None:
-            lev_axis = da.dims.index("level") - sum(d in ("time", "member") for d in da.dims[: da.dims.index("level")])
+            lev_axis = da.dims.index("level") - sum(
+                d in ("time", "member") for d in da.dims[: da.dims.index("level")]
+            )
             isa = _isa_height_m(level_hpa)
             use = isa > 700.0
             if np.any(use) and np.any(np.isfinite(s)):
@@ -1333,8 +1521,11 @@ def _canonical_one(raw, where, member):
         main_level_dim = None
         levels = np.array([_scalar_pressure(t_var, where)])
     if np.unique(levels).size != levels.size:
-        raise _err(where, f"duplicate pressure levels in '{main_level_dim}' ({_join(levels)} hPa); "
-                   "expected distinct levels")
+        raise _err(
+            where,
+            f"duplicate pressure levels in '{main_level_dim}' ({_join(levels)} hPa); "
+            "expected distinct levels",
+        )
     if main_level_dim is not None:
         # one rename for the whole file; variables on it need no per-variable work
         lev_order = np.argsort(-levels, kind="stable")
@@ -1354,7 +1545,12 @@ def _canonical_one(raw, where, member):
     # horizontal grid
     lat_name, lon_name = _find_latlon(ds, where)
     angle = None
-    if lat_name is not None and ds[lat_name].ndim == 1 and lon_name is not None and ds[lon_name].ndim == 1:
+    if (
+        lat_name is not None
+        and ds[lat_name].ndim == 1
+        and lon_name is not None
+        and ds[lon_name].ndim == 1
+    ):
         ds = _regular_grid(ds, lat_name, lon_name, where)
         ydim, xdim = "lat", "lon"
     elif (lat_name is not None and ds[lat_name].ndim == 2) or _grid_mapping_of(ds, where):
@@ -1364,7 +1560,8 @@ def _canonical_one(raw, where, member):
             if np.allclose(lat2, lat2[:, :1]) and np.allclose(lon2, lon2[:1, :]):
                 ydim, xdim = ds[lat_name].dims
                 ds = ds.drop_vars([lat_name, lon_name]).assign_coords(
-                    {"_lat1": (ydim, lat2[:, 0]), "_lon1": (xdim, lon2[0, :])})
+                    {"_lat1": (ydim, lat2[:, 0]), "_lon1": (xdim, lon2[0, :])}
+                )
                 ds = _regular_grid(ds, "_lat1", "_lon1", where)
                 ydim, xdim = "lat", "lon"
             else:
@@ -1385,7 +1582,9 @@ def _canonical_one(raw, where, member):
     # member dimension
     mem_name = None
     for n in list(ds.dims) + [c for c in ds.coords if ds[c].ndim == 0]:
-        if n in _MEMBER_NAMES or (n in ds.variables and ds[n].attrs.get("standard_name") == "realization"):
+        if n in _MEMBER_NAMES or (
+            n in ds.variables and ds[n].attrs.get("standard_name") == "realization"
+        ):
             mem_name = n
             break
     member_scalar = None
@@ -1398,7 +1597,9 @@ def _canonical_one(raw, where, member):
         except (TypeError, ValueError):
             mvi = np.arange(ds.sizes[mem_name])
         if np.unique(mvi).size != mvi.size:
-            raise _err(where, f"duplicate ensemble members in '{mem_name}'; expected distinct numbers")
+            raise _err(
+                where, f"duplicate ensemble members in '{mem_name}'; expected distinct numbers"
+            )
         if mem_name in ds.coords:
             ds = ds.drop_vars(mem_name)
         ds = ds.rename({mem_name: "member"}).assign_coords(member=("member", mvi))
@@ -1432,8 +1633,24 @@ def _canonical_one(raw, where, member):
                 )
         if role in ("t", "td", "rh", "q", "u", "v", "z"):
             da = _onto_levels(da, name, levels, main_level_dim, level_dims, where_t)
-        drop = [c for c in da.coords if c not in da.dims and c not in (
-            "lat", "lon", "x", "y", "crs", "rlon", "rlat", "map_factor", "map_factor_x", "map_factor_y")]
+        drop = [
+            c
+            for c in da.coords
+            if c not in da.dims
+            and c
+            not in (
+                "lat",
+                "lon",
+                "x",
+                "y",
+                "crs",
+                "rlon",
+                "rlat",
+                "map_factor",
+                "map_factor_x",
+                "map_factor_y",
+            )
+        ]
         return da.drop_vars(drop), name
 
     for role in ("t", "td", "t2m", "td2m"):
@@ -1478,8 +1695,11 @@ def _canonical_one(raw, where, member):
             if uu in out and vv in out:
                 gu, gv = _is_grid_relative(ds[roles[uu][0]]), _is_grid_relative(ds[roles[vv][0]])
                 if gu != gv:
-                    raise _err(where, f"'{roles[uu][0]}' and '{roles[vv][0]}' disagree on grid-relative "
-                               "winds; expected both grid-relative or both earth-relative")
+                    raise _err(
+                        where,
+                        f"'{roles[uu][0]}' and '{roles[vv][0]}' disagree on grid-relative "
+                        "winds; expected both grid-relative or both earth-relative",
+                    )
                 if gu:
                     ca = xr.DataArray(np.cos(angle), dims=("y", "x"))
                     sa = xr.DataArray(np.sin(angle), dims=("y", "x"))
@@ -1487,11 +1707,16 @@ def _canonical_one(raw, where, member):
                     out[uu] = ug * ca - vg * sa
                     out[vv] = ug * sa + vg * ca
                     rotation = "grid-relative winds rotated to earth-relative"
-    info = {"ref": ref, "precip_kind": precip_kind, "member_scalar": member_scalar,
-            "rotation": rotation, "roles": {k: v[0] for k, v in roles.items()}}
+    info = {
+        "ref": ref,
+        "precip_kind": precip_kind,
+        "member_scalar": member_scalar,
+        "rotation": rotation,
+        "roles": {k: v[0] for k, v in roles.items()},
+    }
     if precip_kind == "amount":
         info["precip_lower"] = _time_bounds_lower(raw, ds, where)
-    for k, (da, name) in extra.items():
+    for k, (da, _name) in extra.items():
         out[f"_{k}"] = da
     for k, da in out.items():
         order = [d for d in ("member", "time", "level", ydim, xdim) if d in da.dims]
@@ -1504,7 +1729,11 @@ def _canonical_one(raw, where, member):
     lv = res["level"].values
     if lv.size > 1 and np.any(np.diff(lv) >= 0):
         res = res.isel(level=np.argsort(-lv, kind="stable"))
-    res.attrs = {k: v for k, v in ds.attrs.items() if k in ("grid", "dx_m", "dy_m", "grid_mapping_name", "native_grid_unit")}
+    res.attrs = {
+        k: v
+        for k, v in ds.attrs.items()
+        if k in ("grid", "dx_m", "dy_m", "grid_mapping_name", "native_grid_unit")
+    }
     return res, info
 
 
@@ -1516,7 +1745,9 @@ def _onto_levels(da, name, levels, main_dim, level_dims, where):
     if not dims:
         p = _scalar_pressure(da, where)
         if p is None:
-            raise _err(where, f"variable '{name}' has no pressure level; expected it on pressure levels")
+            raise _err(
+                where, f"variable '{name}' has no pressure level; expected it on pressure levels"
+            )
         da = da.expand_dims(level=[p])
         own = np.array([p])
         dim = "level"
@@ -1537,7 +1768,8 @@ def _onto_levels(da, name, levels, main_dim, level_dims, where):
     if common.size == 0:
         raise _err(
             where,
-            f"variable '{name}' is on levels {_join(own)} hPa and temperature on {_join(levels)} hPa; "
+            f"variable '{name}' is on levels {_join(own)} hPa and temperature on "
+            f"{_join(levels)} hPa; "
             "expected shared pressure levels",
         )
     da = da.assign_coords(level=np.round(own, 6))
@@ -1555,8 +1787,8 @@ def _check_values(ds, where):
             if key in ("t", "u", "v", "z", "rh", "q", "td"):
                 raise _err(
                     where,
-                    f"field '{key}' is missing everywhere (all NaN / fill value) at the first valid "
-                    "time; expected data",
+                    f"field '{key}' is missing everywhere (all NaN / fill value) at the first "
+                    "valid time; expected data",
                 )
             warnings.warn(
                 f"{where}: optional field '{key}' is all NaN at the first valid time; dropped",
@@ -1570,7 +1802,9 @@ def _check_values(ds, where):
             isa = _isa_height_m(levels)
             use = isa > 700.0
             if np.any(use):
-                lev_axis = list(ds[role].dims[-3:]).index("level") if "level" in ds[role].dims else None
+                lev_axis = (
+                    list(ds[role].dims[-3:]).index("level") if "level" in ds[role].dims else None
+                )
                 if lev_axis is not None:
                     prof = np.nanmedian(np.moveaxis(s, 0, 0).reshape(levels.size, -1), axis=1)
                     ratio = np.nanmedian(prof[use] / isa[use])
@@ -1589,8 +1823,11 @@ def _check_values(ds, where):
         if key == "precip":
             med = float(np.max(finite))
             if med < -0.5 or med > 2000.0:
-                raise _err(where, f"precipitation reaches {med:g} after unit conversion; expected "
-                           "0..2000 (mm per hour or per step): check the units attribute")
+                raise _err(
+                    where,
+                    f"precipitation reaches {med:g} after unit conversion; expected "
+                    "0..2000 (mm per hour or per step): check the units attribute",
+                )
             continue
         if not rng[0] <= med <= rng[1]:
             raise _err(
@@ -1621,13 +1858,18 @@ def _describe(name, arr):
 def _compare_grids(a, fa, b, fb):
     sa, sb = _grid_signature(a), _grid_signature(b)
     if a.attrs.get("grid") != b.attrs.get("grid"):
-        raise _err(f"{fa} vs {fb}", f"different grid types ({a.attrs.get('grid')} vs "
-                   f"{b.attrs.get('grid')}); expected files of one run on one grid")
+        raise _err(
+            f"{fa} vs {fb}",
+            f"different grid types ({a.attrs.get('grid')} vs "
+            f"{b.attrs.get('grid')}); expected files of one run on one grid",
+        )
     for key in sorted(set(sa) | set(sb)):
         va, vb = sa.get(key), sb.get(key)
         if va is None or vb is None:
             raise _err(f"{fa} vs {fb}", f"'{key}' present in only one file; expected the same grid")
-        if va.shape != vb.shape or not np.allclose(va, vb, rtol=0, atol=1e-6 * max(1.0, np.nanmax(np.abs(va)))):
+        if va.shape != vb.shape or not np.allclose(
+            va, vb, rtol=0, atol=1e-6 * max(1.0, np.nanmax(np.abs(va)))
+        ):
             what = "levels" if key == "level" else ("members" if key == "member" else "grid")
             unit = " hPa" if key == "level" else ""
             raise _err(
@@ -1640,7 +1882,8 @@ def _compare_grids(a, fa, b, fb):
         only_b = sorted(set(b.data_vars) - set(a.data_vars))
         raise _err(
             f"{fa} vs {fb}",
-            f"different variables (only in first: {_join(only_a)}; only in second: {_join(only_b)}); "
+            f"different variables (only in first: {_join(only_a)}; "
+            f"only in second: {_join(only_b)}); "
             "expected the same variables in every file of a run",
         )
 
@@ -1658,10 +1901,13 @@ def _precip_rate(acc, times, ref, lower, where):
             scale = float(abs(acc).max().values) if acc.size else 0.0
             since_start = mind >= -max(1e-3, 1e-4 * scale)
         if since_start:
-            starts = np.full(n, ref if ref is not None else np.datetime64("NaT"), dtype="datetime64[ns]")
+            starts = np.full(
+                n, ref if ref is not None else np.datetime64("NaT"), dtype="datetime64[ns]"
+            )
         else:
-            starts = np.concatenate([[ref if ref is not None else np.datetime64("NaT")], times[:-1]]).astype(
-                "datetime64[ns]")
+            starts = np.concatenate(
+                [[ref if ref is not None else np.datetime64("NaT")], times[:-1]]
+            ).astype("datetime64[ns]")
     hours = (times - starts) / np.timedelta64(1, "h")
     same = np.zeros(n, dtype=bool)
     same[1:] = (starts[1:] == starts[:-1]) & ~np.isnat(starts[1:])
@@ -1671,7 +1917,9 @@ def _precip_rate(acc, times, ref, lower, where):
         div = np.where(same, dt, np.where(np.isfinite(hours) & (hours > 0), hours, np.nan))
     prev = acc.isel(time=np.r_[0, np.arange(n - 1)]).assign_coords(time=acc["time"])
     base = prev * xr.DataArray(same.astype(np.float64), dims="time", coords={"time": acc["time"]})
-    out = ((acc - base) / xr.DataArray(div, dims="time", coords={"time": acc["time"]})).clip(min=0.0)
+    out = ((acc - base) / xr.DataArray(div, dims="time", coords={"time": acc["time"]})).clip(
+        min=0.0
+    )
     return out.assign_coords(time=times)
 
 
@@ -1682,7 +1930,7 @@ def _finish(parts, ref, where_all, member, chunks):
     for ds, info, path in parts:
         groups.setdefault(info["member_scalar"], []).append((ds, info, path))
     first_ds, first_info, first_path = parts[0]
-    for ds, info, path in parts[1:]:
+    for ds, _info, path in parts[1:]:
         _compare_grids(first_ds, first_path, ds, path)
     combined = []
     for mkey, items in groups.items():
@@ -1692,29 +1940,49 @@ def _finish(parts, ref, where_all, member, chunks):
                 if t in seen:
                     other = seen[t]
                     where = f"{other} vs {path}" if other != path else str(path)
-                    raise _err(where, f"duplicate valid time {_fmt_time(t)}; expected each valid "
-                               "time once per run")
+                    raise _err(
+                        where,
+                        f"duplicate valid time {_fmt_time(t)}; expected each valid "
+                        "time once per run",
+                    )
                 seen[t] = path
         if len(items) == 1:
             merged = items[0][0]
         else:
-            merged = xr.concat([it[0] for it in items], dim="time", data_vars="all",
-                               coords="minimal", compat="override", join="override")
+            merged = xr.concat(
+                [it[0] for it in items],
+                dim="time",
+                data_vars="all",
+                coords="minimal",
+                compat="override",
+                join="override",
+            )
         merged = merged.sortby("time")
         combined.append((mkey, merged))
     if len(combined) > 1:
         keys = [k for k, _ in combined]
         if any(k is None for k in keys):
-            raise _err(where_all, "files disagree on ensemble member (some have none); expected one member "
-                       "per file or none")
+            raise _err(
+                where_all,
+                "files disagree on ensemble member (some have none); expected one member "
+                "per file or none",
+            )
         t0 = combined[0][1]["time"].values
         for k, d in combined[1:]:
             if not np.array_equal(d["time"].values, t0):
-                raise _err(where_all, f"member {k} has other valid times than member {combined[0][0]}; "
-                           "expected the same steps for every member")
+                raise _err(
+                    where_all,
+                    f"member {k} has other valid times than member {combined[0][0]}; "
+                    "expected the same steps for every member",
+                )
         order = sorted(combined, key=lambda kv: kv[0])
-        ds = xr.concat([d for _, d in order], dim="member", coords="minimal", compat="override",
-                       join="override")
+        ds = xr.concat(
+            [d for _, d in order],
+            dim="member",
+            coords="minimal",
+            compat="override",
+            join="override",
+        )
         ds = ds.assign_coords(member=("member", np.array([k for k, _ in order], dtype=np.int64)))
         mscalar = None
     else:
@@ -1727,7 +1995,9 @@ def _finish(parts, ref, where_all, member, chunks):
         lower = None
         if all(lw is not None for lw in lowers):
             cat = np.concatenate(lowers) if len(groups) == 1 else lowers[0]
-            ptimes = np.concatenate([p[0]["time"].values for p in parts]) if len(groups) == 1 else times
+            ptimes = (
+                np.concatenate([p[0]["time"].values for p in parts]) if len(groups) == 1 else times
+            )
             order = np.argsort(ptimes)
             cat = cat[order] if cat.size == order.size else None
             lower = cat
@@ -1745,10 +2015,14 @@ def _finish(parts, ref, where_all, member, chunks):
         ds["td"] = thermo.dewpoint_from_specific_humidity(q, ds["level"])
         ds = ds.drop_vars("_q")
     if "_rh2m" in ds:
-        ds["td2m"] = thermo.dewpoint_from_relative_humidity(ds["t2m"], ds["_rh2m"].clip(min=0.001, max=1.0))
+        ds["td2m"] = thermo.dewpoint_from_relative_humidity(
+            ds["t2m"], ds["_rh2m"].clip(min=0.001, max=1.0)
+        )
         ds = ds.drop_vars("_rh2m")
     elif "_q2m" in ds:
-        ds["td2m"] = thermo.dewpoint_from_specific_humidity(ds["_q2m"].clip(min=1e-7), ds["_ps"] / 100.0)
+        ds["td2m"] = thermo.dewpoint_from_specific_humidity(
+            ds["_q2m"].clip(min=1e-7), ds["_ps"] / 100.0
+        )
         ds = ds.drop_vars(["_q2m", "_ps"])
     # member selection
     if member is not None:
@@ -1760,8 +2034,11 @@ def _finish(parts, ref, where_all, member, chunks):
         elif mscalar is not None and int(mscalar) == int(member):
             ds = ds.assign_coords(member=int(member))
         else:
-            raise _err(where_all, f"member={member} asked for but the run has no ensemble member "
-                       "dimension; expected member=None")
+            raise _err(
+                where_all,
+                f"member={member} asked for but the run has no ensemble member "
+                "dimension; expected member=None",
+            )
     elif mscalar is not None:
         ds = ds.assign_coords(member=int(mscalar))
     return ds, times
@@ -1806,16 +2083,20 @@ def _assemble(parts, where_all, member, chunks):
         else:
             # a folder of analyses: each file's reference equals its valid time
             each = all(
-                r is not None and not isinstance(r, tuple) and ds["time"].size == 1
+                r is not None
+                and not isinstance(r, tuple)
+                and ds["time"].size == 1
                 and np.datetime64(r, "ns") == ds["time"].values[0]
-                for ds, info, _ in parts for r in [info["ref"]]
+                for ds, info, _ in parts
+                for r in [info["ref"]]
             )
             if not each:
                 a = next(p for p in parts if p[1]["ref"] == uniq[0])[2]
                 b = next(p for p in parts if p[1]["ref"] == uniq[1])[2]
                 raise _err(
                     f"{a} vs {b}",
-                    f"different runs (reference times {_fmt_time(uniq[0])} and {_fmt_time(uniq[1])}); "
+                    f"different runs (reference times {_fmt_time(uniq[0])} and "
+                    f"{_fmt_time(uniq[1])}); "
                     "expected the files of one run",
                 )
             analyses = True
@@ -1824,12 +2105,22 @@ def _assemble(parts, where_all, member, chunks):
         ref = times[0]
     ref = np.datetime64(ref, "ns")
     if not analyses and times[0] < ref:
-        raise _err(where_all, f"first valid time {_fmt_time(times[0])} is before the reference time "
-                   f"{_fmt_time(ref)}; expected valid times at or after the run start")
+        raise _err(
+            where_all,
+            f"first valid time {_fmt_time(times[0])} is before the reference time "
+            f"{_fmt_time(ref)}; expected valid times at or after the run start",
+        )
     ds = ds.assign_coords(reference_time=ref)
-    ds["reference_time"].attrs = {"standard_name": "forecast_reference_time", "long_name": "run start"}
+    ds["reference_time"].attrs = {
+        "standard_name": "forecast_reference_time",
+        "long_name": "run start",
+    }
     ds["time"].attrs = {"standard_name": "time", "long_name": "valid time (UTC)"}
-    ds["level"].attrs = {"standard_name": "air_pressure", "units": "hPa", "long_name": "pressure level"}
+    ds["level"].attrs = {
+        "standard_name": "air_pressure",
+        "units": "hPa",
+        "long_name": "pressure level",
+    }
     # order of dimensions and attributes
     ydim, xdim = ("y", "x") if ds.attrs.get("grid") == "projected" else ("lat", "lon")
     for name in list(ds.data_vars):
@@ -1849,7 +2140,9 @@ def _assemble(parts, where_all, member, chunks):
     sources = [os.path.basename(str(p)) for _, _, p in parts]
     ds.attrs.update(
         run=run_label(ref),
-        source=", ".join(sources) if len(sources) <= 6 else f"{sources[0]} .. {sources[-1]} ({len(sources)} files)",
+        source=", ".join(sources)
+        if len(sources) <= 6
+        else f"{sources[0]} .. {sources[-1]} ({len(sources)} files)",
         wind_rotation=first_info["rotation"],
         variables_from=", ".join(f"{k}<-{v}" for k, v in first_info["roles"].items()),
     )
@@ -1871,8 +2164,10 @@ def open_run(paths, *, member=None, chunks="auto"):
         Ensemble member to select (the ``member`` dimension is then dropped
         and ``member`` kept as a scalar coordinate). Default: keep all.
     chunks : "auto", dict or None, optional
-        dask chunking passed to :func:`xarray.open_dataset`; ``None`` reads
-        the data into memory (numpy).
+        dask chunking passed to :func:`xarray.open_dataset`; ``"auto"`` lets
+        dask split files of 64 MiB or more and keeps smaller files as stored
+        (one chunk per variable and file); ``None`` reads the data into
+        memory (numpy).
 
     Returns
     -------
@@ -1942,4 +2237,3 @@ def open_runs(args, *, member=None, chunks="auto"):
     if not args:
         raise _err("open_runs", "no runs given; expected at least one RUN (file, glob or folder)")
     return [open_run(a, member=member, chunks=chunks) for a in args]
-

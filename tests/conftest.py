@@ -34,8 +34,8 @@ def _isa_temperature_k(p_hpa):
 
 def synthetic_fields(
     *,
-    lat=np.arange(40.0, 60.01, 2.0),
-    lon=np.arange(-20.0, 10.01, 2.0),
+    lat=None,
+    lon=None,
     levels=LEVELS_HPA,
     times=None,
     reference_time="2027-01-14T00:00",
@@ -48,8 +48,9 @@ def synthetic_fields(
 
     Parameters
     ----------
-    lat, lon : 1-D array_like
-        Grid [degrees]; lon may run past 180 (a contiguous dateline domain).
+    lat, lon : 1-D array_like, optional
+        Grid [degrees] (default 40..60 N, 20 W..10 E every 2 degrees); lon may
+        run past 180 (a contiguous dateline domain).
     levels : sequence of float
         Pressure levels [hPa].
     times : sequence of datetime-like, optional
@@ -63,8 +64,8 @@ def synthetic_fields(
     seed : int, optional
         Add small reproducible noise (0.1 K) so fields are not exactly smooth.
     """
-    lat = np.asarray(lat, dtype=np.float64)
-    lon = np.asarray(lon, dtype=np.float64)
+    lat = np.arange(40.0, 60.01, 2.0) if lat is None else np.asarray(lat, dtype=np.float64)
+    lon = np.arange(-20.0, 10.01, 2.0) if lon is None else np.asarray(lon, dtype=np.float64)
     lev = np.asarray(levels, dtype=np.float64)
     ref = np.datetime64(pd.Timestamp(reference_time).to_datetime64(), "ns")
     if times is None:
@@ -85,7 +86,7 @@ def synthetic_fields(
     v = 2.0 + 0.5 * np.cos(np.deg2rad(lo)) + 0.0 * la + 0.0 * pl + 0.0 * hh
     sfc = (times.size, lat.size, lon.size)
     mslp = 101000.0 + 150.0 * np.sin(np.deg2rad(lo[:, 0] * 4)) + 0.0 * la[:, 0] + np.zeros(sfc)
-    precip = np.maximum(0.0, 2.0 * np.exp(-((lo[:, 0] - lon.mean()) / 4.0) ** 2)) + np.zeros(sfc)
+    precip = np.maximum(0.0, 2.0 * np.exp(-(((lo[:, 0] - lon.mean()) / 4.0) ** 2))) + np.zeros(sfc)
     rng = np.random.default_rng(seed) if seed is not None else None
     if rng is not None:
         t = t + rng.normal(0.0, 0.1, t.shape)
@@ -115,8 +116,19 @@ def synthetic_fields(
         order = ["member", "time", "level", "lat", "lon"]
         for n in ds.data_vars:
             ds[n] = ds[n].transpose(*[d for d in order if d in ds[n].dims])
-    units = {"t": "K", "td": "K", "u": "m s-1", "v": "m s-1", "z": "m", "mslp": "Pa",
-             "t2m": "K", "td2m": "K", "u10": "m s-1", "v10": "m s-1", "precip": "mm h-1"}
+    units = {
+        "t": "K",
+        "td": "K",
+        "u": "m s-1",
+        "v": "m s-1",
+        "z": "m",
+        "mslp": "Pa",
+        "t2m": "K",
+        "td2m": "K",
+        "u10": "m s-1",
+        "v10": "m s-1",
+        "precip": "mm h-1",
+    }
     for n, u in units.items():
         ds[n].attrs["units"] = u
     ds.attrs["run"] = pd.Timestamp(ref).strftime("%Y-%m-%dT%HZ")
@@ -163,8 +175,11 @@ def to_cf(ds, *, accumulate_precip=True):
             steps = xr.DataArray(steps, dims="time", coords={"time": times})
             amount = (out["precip"] * steps).cumsum("time")
             out["precip"] = amount.transpose(*out["precip"].dims)
-            out["precip"].attrs = {"standard_name": "precipitation_amount", "units": "kg m-2",
-                                   "cell_methods": "time: sum"}
+            out["precip"].attrs = {
+                "standard_name": "precipitation_amount",
+                "units": "kg m-2",
+                "cell_methods": "time: sum",
+            }
         else:
             out["precip"].attrs = {"standard_name": "lwe_precipitation_rate", "units": "mm h-1"}
     out["level"].attrs = {"standard_name": "air_pressure", "units": "hPa", "positive": "down"}
@@ -183,13 +198,18 @@ def write_cf(ds, folder, *, one_file=False, fmt="NETCDF4"):
     enc_time = {"units": f"hours since {ref:%Y-%m-%d %H:%M:%S}", "calendar": "proleptic_gregorian"}
     if one_file:
         path = folder / "run.nc"
-        ds.to_netcdf(path, format=fmt, encoding={"time": enc_time, "forecast_reference_time": enc_time})
+        ds.to_netcdf(
+            path, format=fmt, encoding={"time": enc_time, "forecast_reference_time": enc_time}
+        )
         return path
     for i in range(ds.sizes["time"]):
         step = ds.isel(time=[i])
         lead = int(round((step["time"].values[0] - ref.to_datetime64()) / np.timedelta64(1, "h")))
-        step.to_netcdf(folder / f"step_{lead:03d}.nc", format=fmt,
-                       encoding={"time": enc_time, "forecast_reference_time": enc_time})
+        step.to_netcdf(
+            folder / f"step_{lead:03d}.nc",
+            format=fmt,
+            encoding={"time": enc_time, "forecast_reference_time": enc_time},
+        )
     return folder
 
 

@@ -10,21 +10,19 @@ input, never as a reference value.
 """
 
 import json
-import warnings
 from pathlib import Path
 
 import dask.array
 import metpy.calc as mpcalc
 import numpy as np
-import pandas as pd
 import pytest
 import xarray as xr
+from conftest import synthetic_fields
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from metpy.units import units
 from pyproj import CRS, Geod, Proj, Transformer
 
-from conftest import synthetic_fields, to_cf, write_cf
 from kit.errors import InputError
 from kit.grids import G0, expand_run_arg, open_run, open_runs, run_label, to_canonical
 
@@ -66,12 +64,27 @@ def raw_variant(
     unit_of = dict(unit_of or {})
     out = {}
     std_names = {
-        "t": "air_temperature", "td": "dew_point_temperature", "u": "eastward_wind",
-        "v": "northward_wind", "mslp": "air_pressure_at_mean_sea_level", "t2m": "air_temperature",
-        "td2m": "dew_point_temperature", "u10": "eastward_wind", "v10": "northward_wind",
+        "t": "air_temperature",
+        "td": "dew_point_temperature",
+        "u": "eastward_wind",
+        "v": "northward_wind",
+        "mslp": "air_pressure_at_mean_sea_level",
+        "t2m": "air_temperature",
+        "td2m": "dew_point_temperature",
+        "u10": "eastward_wind",
+        "v10": "northward_wind",
     }
-    canon_units = {"t": "K", "td": "K", "u": "m/s", "v": "m/s", "mslp": "Pa", "t2m": "K",
-                   "td2m": "K", "u10": "m/s", "v10": "m/s"}
+    canon_units = {
+        "t": "K",
+        "td": "K",
+        "u": "m/s",
+        "v": "m/s",
+        "mslp": "Pa",
+        "t2m": "K",
+        "td2m": "K",
+        "u10": "m/s",
+        "v10": "m/s",
+    }
     for role in ("t", "u", "v", "mslp", "t2m", "td2m", "u10", "v10"):
         if role not in base:
             continue
@@ -87,8 +100,11 @@ def raw_variant(
     td = base["td"].values * units.K
     if humidity == "td":
         u_out = unit_of.get("td", "K")
-        da = xr.DataArray(pint_convert(base["td"].values, "K", u_out), dims=base["td"].dims,
-                          attrs={"units": u_out})
+        da = xr.DataArray(
+            pint_convert(base["td"].values, "K", u_out),
+            dims=base["td"].dims,
+            attrs={"units": u_out},
+        )
         if std:
             da.attrs["standard_name"] = "dew_point_temperature"
         out[names.get("td", "td")] = da
@@ -104,8 +120,11 @@ def raw_variant(
         p = base["level"].values[None, :, None, None] * units.hPa
         q = mpcalc.specific_humidity_from_dewpoint(p, td).m_as("kg/kg")  # [lib]
         u_out = unit_of.get("q", "kg kg-1")
-        da = xr.DataArray(pint_convert(q, "kg/kg", u_out.replace("kg-1", "/kg").replace(" ", "")),
-                          dims=base["t"].dims, attrs={"units": u_out})
+        da = xr.DataArray(
+            pint_convert(q, "kg/kg", u_out.replace("kg-1", "/kg").replace(" ", "")),
+            dims=base["t"].dims,
+            attrs={"units": u_out},
+        )
         if std:
             da.attrs["standard_name"] = "specific_humidity"
         out[names.get("q", "q")] = da
@@ -143,12 +162,18 @@ def raw_variant(
         lon=("lon", base["lon"].values, {"units": "degrees_east", "standard_name": "longitude"}),
         time=("time", base["time"].values),
     )
-    ds = ds.assign_coords(forecast_reference_time=((), base["reference_time"].values,
-                                                   {"standard_name": "forecast_reference_time"}))
+    ds = ds.assign_coords(
+        forecast_reference_time=(
+            (),
+            base["reference_time"].values,
+            {"standard_name": "forecast_reference_time"},
+        )
+    )
     if time_style == "cfgrib":
         lead = base["time"].values - base["reference_time"].values
         ds = ds.rename({"time": "step"}).assign_coords(
-            step=("step", lead), valid_time=("step", base["time"].values))
+            step=("step", lead), valid_time=("step", base["time"].values)
+        )
         ds = ds.rename({"forecast_reference_time": "time"})
     if "member" in base.dims:
         ds = ds.assign_coords(member=("member", base["member"].values))
@@ -200,8 +225,11 @@ def assert_canonical_equal(got, want, *, rtol=1e-6, atol=1e-6, skip=(), precip_f
 
 @pytest.fixture
 def base():
-    return synthetic_fields(lat=np.arange(40.0, 56.01, 2.0), lon=np.arange(-10.0, 6.01, 2.0),
-                            times=np.datetime64("2027-01-14T00:00") + np.arange(4) * np.timedelta64(3, "h"))
+    return synthetic_fields(
+        lat=np.arange(40.0, 56.01, 2.0),
+        lon=np.arange(-10.0, 6.01, 2.0),
+        times=np.datetime64("2027-01-14T00:00") + np.arange(4) * np.timedelta64(3, "h"),
+    )
 
 
 # --------------------------------------------------------------------------- files
@@ -265,12 +293,31 @@ def test_reanalysis_style_names_units_and_orders(tmp_path, base):
     """Short names, geopotential m2 s-2, Pa levels ascending, lat descending, 0..360 lon,
     tp in metres accumulated since the run start, RH in percent."""
     raw = raw_variant(
-        base, std=False,
-        names={"t": "t", "rh": "r", "u": "u", "v": "v", "z": "z", "mslp": "msl",
-               "t2m": "t2m", "td2m": "d2m", "u10": "u10", "v10": "v10", "precip": "tp"},
-        unit_of={"precip": "m"}, humidity="rh", z_kind="geopotential", level_name="pressure_level",
-        level_unit="Pa", level_ascending=True, lat_name="latitude", lon_name="longitude",
-        lat_desc=True, lon_360=True,
+        base,
+        std=False,
+        names={
+            "t": "t",
+            "rh": "r",
+            "u": "u",
+            "v": "v",
+            "z": "z",
+            "mslp": "msl",
+            "t2m": "t2m",
+            "td2m": "d2m",
+            "u10": "u10",
+            "v10": "v10",
+            "precip": "tp",
+        },
+        unit_of={"precip": "m"},
+        humidity="rh",
+        z_kind="geopotential",
+        level_name="pressure_level",
+        level_unit="Pa",
+        level_ascending=True,
+        lat_name="latitude",
+        lon_name="longitude",
+        lat_desc=True,
+        lon_360=True,
     )
     got = open_run(write(raw, tmp_path / "era.nc"))
     # td from RH: MetPy 1.7's saturation vapour pressure differs from Bolton (1980) Eq. 10
@@ -283,13 +330,35 @@ def test_reanalysis_style_names_units_and_orders(tmp_path, base):
 def test_grib_converted_style_names_and_units(tmp_path, base):
     """TMP in degC, UGRD/VGRD in knots, HGT in gpm, RH in %, PRMSL in hPa, APCP kg m-2."""
     raw = raw_variant(
-        base, std=False,
-        names={"t": "TMP", "rh": "RH", "u": "UGRD", "v": "VGRD", "z": "HGT", "mslp": "PRMSL",
-               "t2m": "TMP_2maboveground", "td2m": "DPT_2maboveground", "u10": "UGRD_10maboveground",
-               "v10": "VGRD_10maboveground", "precip": "APCP"},
-        unit_of={"t": "degC", "u": "knots", "v": "knots", "z": "gpm", "mslp": "hPa",
-                 "t2m": "degC", "td2m": "degC", "u10": "knots", "v10": "knots"},
-        humidity="rh", level_name="isobaric", level_unit="Pa",
+        base,
+        std=False,
+        names={
+            "t": "TMP",
+            "rh": "RH",
+            "u": "UGRD",
+            "v": "VGRD",
+            "z": "HGT",
+            "mslp": "PRMSL",
+            "t2m": "TMP_2maboveground",
+            "td2m": "DPT_2maboveground",
+            "u10": "UGRD_10maboveground",
+            "v10": "VGRD_10maboveground",
+            "precip": "APCP",
+        },
+        unit_of={
+            "t": "degC",
+            "u": "knots",
+            "v": "knots",
+            "z": "gpm",
+            "mslp": "hPa",
+            "t2m": "degC",
+            "td2m": "degC",
+            "u10": "knots",
+            "v10": "knots",
+        },
+        humidity="rh",
+        level_name="isobaric",
+        level_unit="Pa",
     )
     got = open_run(write(raw, tmp_path / "grib.nc"))
     assert_canonical_equal(got, base, skip=("td",), rtol=1e-6, atol=1e-5)
@@ -299,14 +368,31 @@ def test_grib_converted_style_names_and_units(tmp_path, base):
 def test_model_intercomparison_style_names(tmp_path, base):
     """ta/hus/ua/va/zg on plev [Pa], psl, tas, pr as a flux kg m-2 s-1."""
     raw = raw_variant(
-        base, std=True,
-        names={"t": "ta", "q": "hus", "u": "ua", "v": "va", "z": "zg", "mslp": "psl",
-               "t2m": "tas", "td2m": "tdps", "u10": "uas", "v10": "vas"},
-        humidity="q", level_name="plev", level_unit="Pa", precip=False,
+        base,
+        std=True,
+        names={
+            "t": "ta",
+            "q": "hus",
+            "u": "ua",
+            "v": "va",
+            "z": "zg",
+            "mslp": "psl",
+            "t2m": "tas",
+            "td2m": "tdps",
+            "u10": "uas",
+            "v10": "vas",
+        },
+        humidity="q",
+        level_name="plev",
+        level_unit="Pa",
+        precip=False,
     )
     flux = base["precip"].values / 3600.0  # mm h-1 -> kg m-2 s-1 (1 mm water = 1 kg m-2) [pub, SI]
-    raw["pr"] = xr.DataArray(flux, dims=("time", "lat", "lon"),
-                             attrs={"units": "kg m-2 s-1", "standard_name": "precipitation_flux"})
+    raw["pr"] = xr.DataArray(
+        flux,
+        dims=("time", "lat", "lon"),
+        attrs={"units": "kg m-2 s-1", "standard_name": "precipitation_flux"},
+    )
     got = open_run(write(raw, tmp_path / "cmip.nc"))
     assert_canonical_equal(got, base, skip=("td",), precip_from=0)
     # td from q: Bolton (1980) Eq. 10 inverted vs MetPy's dewpoint [lib], within 0.05 K
@@ -316,8 +402,13 @@ def test_model_intercomparison_style_names(tmp_path, base):
 def test_unit_conversions_match_pint(tmp_path, base):
     """Each unit variant is converted as pint converts it [lib]."""
     cases = [
-        ("t", "degF"), ("t", "celsius"), ("u", "km h-1"), ("u", "kt"), ("mslp", "mbar"),
-        ("z", "dam"), ("q", "g kg-1"),
+        ("t", "degF"),
+        ("t", "celsius"),
+        ("u", "km h-1"),
+        ("u", "kt"),
+        ("mslp", "mbar"),
+        ("z", "dam"),
+        ("q", "g kg-1"),
     ]
     for role, unit in cases:
         kw = dict(humidity="q" if role == "q" else "td", unit_of={role: unit})
@@ -330,7 +421,9 @@ def test_unit_conversions_match_pint(tmp_path, base):
             np.testing.assert_allclose(got["td"].values, want, atol=0.05)
         else:
             file_vals = raw[role].values
-            want = pint_convert(file_vals, unit, {"t": "K", "u": "m/s", "mslp": "Pa", "z": "m"}[role])
+            want = pint_convert(
+                file_vals, unit, {"t": "K", "u": "m/s", "mslp": "Pa", "z": "m"}[role]
+            )
             np.testing.assert_allclose(got[role].values, want, rtol=1e-9, atol=1e-9, err_msg=unit)
 
 
@@ -408,7 +501,9 @@ def test_dateline_domain_is_contiguous(tmp_path, stored):
         raw = raw.assign_coords(lon=("lon", (east + 180.0) % 360.0 - 180.0, raw["lon"].attrs))
     else:
         raw = raw.isel(lon=slice(None, None, -1))
-        raw = raw.assign_coords(lon=("lon", (raw["lon"].values + 180.0) % 360.0 - 180.0, raw["lon"].attrs))
+        raw = raw.assign_coords(
+            lon=("lon", (raw["lon"].values + 180.0) % 360.0 - 180.0, raw["lon"].attrs)
+        )
     got = open_run(write(raw, tmp_path / "dl.nc"), chunks=None)
     # documented choice: western edge in -180..180, then eastward past 180
     np.testing.assert_allclose(got["lon"].values, east)
@@ -424,7 +519,12 @@ def test_regional_domain_west_of_greenwich_stored_0_360(tmp_path):
 
 
 def test_level_aliases_and_pa_units(tmp_path, base):
-    for name, unit in (("isobaricInhPa", "hPa"), ("plev", "Pa"), ("lev", "mbar"), ("pressure", "Pa")):
+    for name, unit in (
+        ("isobaricInhPa", "hPa"),
+        ("plev", "Pa"),
+        ("lev", "mbar"),
+        ("pressure", "Pa"),
+    ):
         raw = raw_variant(base, level_name=name, level_unit=unit, level_ascending=True)
         got = open_run(write(raw, tmp_path / f"{name}.nc"))
         np.testing.assert_allclose(got["level"].values, [1000.0, 925.0, 850.0, 700.0, 500.0])
@@ -448,7 +548,12 @@ def test_lead_time_with_reference_attribute(tmp_path, base):
     raw = raw_variant(base).drop_vars("forecast_reference_time")
     lead_h = (base["time"].values - base["reference_time"].values) / np.timedelta64(1, "h")
     raw = raw.rename({"time": "forecast_period"}).assign_coords(
-        forecast_period=("forecast_period", lead_h, {"units": "hours", "standard_name": "forecast_period"}))
+        forecast_period=(
+            "forecast_period",
+            lead_h,
+            {"units": "hours", "standard_name": "forecast_period"},
+        )
+    )
     raw.attrs["forecast_reference_time"] = "2027-01-14T00:00:00Z"
     got = open_run(write(raw, tmp_path / "lead.nc"))
     assert_canonical_equal(got, base)
@@ -461,8 +566,9 @@ def test_single_step_with_scalar_time(tmp_path, base):
     assert got["time"].values[0] == base["time"].values[2]
     assert got.attrs["run"] == "2027-01-14T00Z"
     # accumulation since run start over 6 h -> mean rate [regr: conftest accumulates the rate]
-    np.testing.assert_allclose(got["precip"].values[0],
-                               base["precip"].values[1:3].mean(axis=0), rtol=1e-9)
+    np.testing.assert_allclose(
+        got["precip"].values[0], base["precip"].values[1:3].mean(axis=0), rtol=1e-9
+    )
 
 
 def test_three_by_three_grid_works(tmp_path):
@@ -475,8 +581,10 @@ def test_regular_grid_given_as_2d_latlon_without_mapping(tmp_path, base):
     raw = raw_variant(base)
     lat2, lon2 = np.meshgrid(raw["lat"].values, raw["lon"].values, indexing="ij")
     raw = raw.rename({"lat": "rows", "lon": "cols"}).drop_vars(["rows", "cols"])
-    raw = raw.assign_coords(lat=(("rows", "cols"), lat2, {"units": "degrees_north"}),
-                            lon=(("rows", "cols"), lon2, {"units": "degrees_east"}))
+    raw = raw.assign_coords(
+        lat=(("rows", "cols"), lat2, {"units": "degrees_north"}),
+        lon=(("rows", "cols"), lon2, {"units": "degrees_east"}),
+    )
     got = open_run(write(raw, tmp_path / "reg2d.nc"))
     assert got.attrs["grid"] == "latlon"
     np.testing.assert_allclose(got["t"].values, base["t"].values, rtol=1e-12)
@@ -485,15 +593,20 @@ def test_regular_grid_given_as_2d_latlon_without_mapping(tmp_path, base):
 # --------------------------------------------------------------------------- precipitation
 def _precip_file(tmp_path, base, amounts, name, bounds_lower=None, unit="kg m-2"):
     raw = raw_variant(base, precip=False)
-    raw["precip"] = xr.DataArray(amounts, dims=("time", "lat", "lon"),
-                                 attrs={"units": unit, "standard_name": "precipitation_amount",
-                                        "cell_methods": "time: sum"})
+    raw["precip"] = xr.DataArray(
+        amounts,
+        dims=("time", "lat", "lon"),
+        attrs={"units": unit, "standard_name": "precipitation_amount", "cell_methods": "time: sum"},
+    )
     enc = {}
     if bounds_lower is not None:
         bnds = np.stack([bounds_lower, base["time"].values], axis=1)
         raw["time_bnds"] = xr.DataArray(bnds, dims=("time", "nv"))
         raw["time"].attrs["bounds"] = "time_bnds"
-        enc = {"time": {"units": "hours since 2027-01-14"}, "time_bnds": {"units": "hours since 2027-01-14"}}
+        enc = {
+            "time": {"units": "hours since 2027-01-14"},
+            "time_bnds": {"units": "hours since 2027-01-14"},
+        }
     return open_run(write(raw, tmp_path / name, encoding=enc), chunks=None)
 
 
@@ -510,9 +623,12 @@ def test_precip_accumulated_since_start_per_step_and_buckets(tmp_path):
     got = _precip_file(tmp_path, base, per_step, "step.nc")
     np.testing.assert_allclose(got["precip"].values, rate, rtol=1e-12)
     # 6-hour buckets restarting at 06 and 12 h, with CF time bounds
-    lower = np.array(["2027-01-14T00", "2027-01-14T00", "2027-01-14T06", "2027-01-14T06"],
-                     dtype="datetime64[ns]")
-    bucket = np.stack([per_step[0], per_step[0] + per_step[1], per_step[2], per_step[2] + per_step[3]])
+    lower = np.array(
+        ["2027-01-14T00", "2027-01-14T00", "2027-01-14T06", "2027-01-14T06"], dtype="datetime64[ns]"
+    )
+    bucket = np.stack(
+        [per_step[0], per_step[0] + per_step[1], per_step[2], per_step[2] + per_step[3]]
+    )
     got = _precip_file(tmp_path, base, bucket, "bucket.nc", bounds_lower=lower)
     np.testing.assert_allclose(got["precip"].values, rate, rtol=1e-12)
     # metres of water: 1 m = 1000 mm [lib: pint]
@@ -557,8 +673,19 @@ def test_one_file_per_member_is_combined(tmp_path):
 
 
 # --------------------------------------------------------------------------- projected grids
-def _projected_file(tmp_path, gm, x, y, name, *, native_deg=False, wind=None, grid_relative=False,
-                    with_latlon=True, std_wind=True):
+def _projected_file(
+    tmp_path,
+    gm,
+    x,
+    y,
+    name,
+    *,
+    native_deg=False,
+    wind=None,
+    grid_relative=False,
+    with_latlon=True,
+    std_wind=True,
+):
     crs = CRS.from_cf(gm)
     xx, yy = np.meshgrid(x, y)
     if native_deg:
@@ -570,12 +697,22 @@ def _projected_file(tmp_path, gm, x, y, name, *, native_deg=False, wind=None, gr
     lev = np.array([1000.0, 850.0, 500.0])
     shape = (nt, nl, y.size, x.size)
     t = np.broadcast_to((300.0 - 0.6 * (lat2 - 45.0))[None, None], shape).copy()
-    z = np.broadcast_to((44330.8 * (1 - (lev / 1013.25) ** 0.190263))[None, :, None, None], shape).copy()
+    z = np.broadcast_to(
+        (44330.8 * (1 - (lev / 1013.25) ** 0.190263))[None, :, None, None], shape
+    ).copy()
     ue, vn = wind if wind is not None else (np.full(shape, 10.0), np.zeros(shape))
     data = {
         "t": (("time", "level", "y", "x"), t, {"units": "K", "standard_name": "air_temperature"}),
-        "td": (("time", "level", "y", "x"), t - 5.0, {"units": "K", "standard_name": "dew_point_temperature"}),
-        "z": (("time", "level", "y", "x"), z, {"units": "m", "standard_name": "geopotential_height"}),
+        "td": (
+            ("time", "level", "y", "x"),
+            t - 5.0,
+            {"units": "K", "standard_name": "dew_point_temperature"},
+        ),
+        "z": (
+            ("time", "level", "y", "x"),
+            z,
+            {"units": "m", "standard_name": "geopotential_height"},
+        ),
     }
     if grid_relative:
         data["u"] = (("time", "level", "y", "x"), ue, {"units": "m s-1", "standard_name": "x_wind"})
@@ -585,15 +722,29 @@ def _projected_file(tmp_path, gm, x, y, name, *, native_deg=False, wind=None, gr
                 data[k][2].pop("standard_name")
                 data[k][2]["GRIB_uvRelativeToGrid"] = 1
     else:
-        data["u"] = (("time", "level", "y", "x"), ue, {"units": "m s-1", "standard_name": "eastward_wind"})
-        data["v"] = (("time", "level", "y", "x"), vn, {"units": "m s-1", "standard_name": "northward_wind"})
+        data["u"] = (
+            ("time", "level", "y", "x"),
+            ue,
+            {"units": "m s-1", "standard_name": "eastward_wind"},
+        )
+        data["v"] = (
+            ("time", "level", "y", "x"),
+            vn,
+            {"units": "m s-1", "standard_name": "northward_wind"},
+        )
     ds = xr.Dataset({k: xr.Variable(*v) for k, v in data.items()})
     for k in ds.data_vars:
         ds[k].attrs["grid_mapping"] = "crs_info"
-    xs = {"units": "degrees", "standard_name": "grid_longitude"} if native_deg else \
-        {"units": "km", "standard_name": "projection_x_coordinate"}
-    ys = {"units": "degrees", "standard_name": "grid_latitude"} if native_deg else \
-        {"units": "km", "standard_name": "projection_y_coordinate"}
+    xs = (
+        {"units": "degrees", "standard_name": "grid_longitude"}
+        if native_deg
+        else {"units": "km", "standard_name": "projection_x_coordinate"}
+    )
+    ys = (
+        {"units": "degrees", "standard_name": "grid_latitude"}
+        if native_deg
+        else {"units": "km", "standard_name": "projection_y_coordinate"}
+    )
     coords = {
         "time": np.datetime64("2027-01-14T00:00") + np.arange(nt) * np.timedelta64(6, "h"),
         "level": ("level", lev, {"units": "hPa"}),
@@ -608,13 +759,26 @@ def _projected_file(tmp_path, gm, x, y, name, *, native_deg=False, wind=None, gr
     return write(ds, tmp_path / name), crs, lon2, lat2
 
 
-LCC = dict(grid_mapping_name="lambert_conformal_conic", standard_parallel=[50.0, 50.0],
-           longitude_of_central_meridian=10.0, latitude_of_projection_origin=50.0,
-           earth_radius=6371229.0)
-PS = dict(grid_mapping_name="polar_stereographic", straight_vertical_longitude_from_pole=-45.0,
-          latitude_of_projection_origin=90.0, standard_parallel=60.0, earth_radius=6371229.0)
-ROT = dict(grid_mapping_name="rotated_latitude_longitude", grid_north_pole_latitude=40.0,
-           grid_north_pole_longitude=-170.0, earth_radius=6371229.0)
+LCC = dict(
+    grid_mapping_name="lambert_conformal_conic",
+    standard_parallel=[50.0, 50.0],
+    longitude_of_central_meridian=10.0,
+    latitude_of_projection_origin=50.0,
+    earth_radius=6371229.0,
+)
+PS = dict(
+    grid_mapping_name="polar_stereographic",
+    straight_vertical_longitude_from_pole=-45.0,
+    latitude_of_projection_origin=90.0,
+    standard_parallel=60.0,
+    earth_radius=6371229.0,
+)
+ROT = dict(
+    grid_mapping_name="rotated_latitude_longitude",
+    grid_north_pole_latitude=40.0,
+    grid_north_pole_longitude=-170.0,
+    earth_radius=6371229.0,
+)
 
 
 @pytest.mark.parametrize("gm", [LCC, PS], ids=["lambert", "polar_stereographic"])
@@ -633,8 +797,12 @@ def test_projected_grid_spacing_and_map_factor(tmp_path, gm):
     np.testing.assert_allclose(got["map_factor"].values, fac.parallel_scale, rtol=1e-5)
     # physical spacing between neighbours from pyproj Geod [lib] ~ dx / map factor
     g = Geod(a=6371229.0, b=6371229.0)
-    _, _, d = g.inv(got["lon"].values[:, :-1], got["lat"].values[:, :-1],
-                    got["lon"].values[:, 1:], got["lat"].values[:, 1:])
+    _, _, d = g.inv(
+        got["lon"].values[:, :-1],
+        got["lat"].values[:, :-1],
+        got["lon"].values[:, 1:],
+        got["lat"].values[:, 1:],
+    )
     mf_mid = 0.5 * (got["map_factor"].values[:, 1:] + got["map_factor"].values[:, :-1])
     np.testing.assert_allclose(d, 100e3 / mf_mid, rtol=2e-3)
 
@@ -657,15 +825,18 @@ def test_rotated_pole_grid(tmp_path):
     # spacing along the rotated equator: 0.5 degree of a great circle of R = 6371229 m;
     # pyproj Geod between two neighbours on it [lib]
     g = Geod(a=6371229.0, b=6371229.0)
-    tr = Transformer.from_crs(crs, CRS.from_proj4("+proj=longlat +R=6371229 +no_defs"), always_xy=True)
+    tr = Transformer.from_crs(
+        crs, CRS.from_proj4("+proj=longlat +R=6371229 +no_defs"), always_xy=True
+    )
     (lo1, lo2), (la1, la2) = tr.transform([0.0, 0.5], [0.0, 0.0])
     _, _, d = g.inv(lo1, la1, lo2, la2)
     assert got.attrs["dx_m"] == pytest.approx(d, rel=1e-9)
     assert got.attrs["dy_m"] == pytest.approx(d, rel=1e-9)
     # not conformal in the kit's sense: separate factors; along x it is 1 / cos(rotated lat)
     mfx = got["map_factor_x"].values
-    np.testing.assert_allclose(mfx, 1.0 / np.cos(np.deg2rad(got["rlat"].values))[:, None]
-                               * np.ones_like(mfx), rtol=1e-6)
+    np.testing.assert_allclose(
+        mfx, 1.0 / np.cos(np.deg2rad(got["rlat"].values))[:, None] * np.ones_like(mfx), rtol=1e-6
+    )
     np.testing.assert_allclose(got["map_factor_y"].values, 1.0, rtol=1e-6)
 
 
@@ -675,8 +846,9 @@ def test_grid_relative_winds_rotated_lambert(tmp_path):
     y = np.arange(-600e3, 600.1e3, 200e3)
     crs = CRS.from_cf(LCC)
     xx, yy = np.meshgrid(x, y)
-    lon2, lat2 = Transformer.from_crs(crs, CRS.from_proj4("+proj=longlat +R=6371229 +no_defs"),
-                                      always_xy=True).transform(xx, yy)
+    lon2, lat2 = Transformer.from_crs(
+        crs, CRS.from_proj4("+proj=longlat +R=6371229 +no_defs"), always_xy=True
+    ).transform(xx, yy)
     # Snyder (1987), USGS Prof. Paper 1395, Lambert conformal: convergence = n (lon - lon0),
     # n = sin(phi1) for one standard parallel [pub, equation number from memory]
     theta = np.deg2rad(np.sin(np.deg2rad(50.0)) * (lon2 - 10.0))
@@ -690,8 +862,16 @@ def test_grid_relative_winds_rotated_lambert(tmp_path):
     shape = (2, 3, y.size, x.size)
     wind = (np.broadcast_to(ug, shape).copy(), np.broadcast_to(vg, shape).copy())
     for std_wind in (True, False):
-        path, *_ = _projected_file(tmp_path, LCC, x, y, f"gr{std_wind}.nc", wind=wind,
-                                   grid_relative=True, std_wind=std_wind)
+        path, *_ = _projected_file(
+            tmp_path,
+            LCC,
+            x,
+            y,
+            f"gr{std_wind}.nc",
+            wind=wind,
+            grid_relative=True,
+            std_wind=std_wind,
+        )
         got = open_run(path, chunks=None)
         np.testing.assert_allclose(got["u"].values, 10.0, atol=1e-6)
         np.testing.assert_allclose(got["v"].values, 0.0, atol=1e-6)
@@ -708,8 +888,9 @@ def test_grid_relative_winds_rotated_polar_stereographic(tmp_path):
     y = np.arange(-1350e3, 1350.1e3, 300e3)
     crs = CRS.from_cf(PS)
     xx, yy = np.meshgrid(x, y)
-    lon2, lat2 = Transformer.from_crs(crs, CRS.from_proj4("+proj=longlat +R=6371229 +no_defs"),
-                                      always_xy=True).transform(xx, yy)
+    lon2, lat2 = Transformer.from_crs(
+        crs, CRS.from_proj4("+proj=longlat +R=6371229 +no_defs"), always_xy=True
+    ).transform(xx, yy)
     # pyproj meridian convergence (angle of grid north from true north) [lib]
     theta = np.deg2rad(Proj(crs).get_factors(lon2, lat2).meridian_convergence)
     ue, vn = 3.0, -7.0
@@ -738,42 +919,87 @@ _U_NAMES = ["u", "ua", "U", "UGRD"]
 _V_NAMES = ["v", "va", "V", "VGRD"]
 _Z_NAMES = ["z", "gh", "zg", "HGT"]
 _LEVEL_NAMES = ["level", "isobaricInhPa", "pressure", "plev", "lev", "pressure_level"]
-_HUM = [("td", "d", "K"), ("td", "dpt", "degC"), ("rh", "r", "%"), ("rh", "hur", "1"),
-        ("q", "q", "kg kg-1"), ("q", "hus", "g kg-1")]
+_HUM = [
+    ("td", "d", "K"),
+    ("td", "dpt", "degC"),
+    ("rh", "r", "%"),
+    ("rh", "hur", "1"),
+    ("q", "q", "kg kg-1"),
+    ("q", "hus", "g kg-1"),
+]
 
 
-@settings(max_examples=20, deadline=None, derandomize=True, print_blob=True,
-          suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+@settings(
+    max_examples=20,
+    deadline=None,
+    derandomize=True,
+    print_blob=True,
+    suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow],
+)
 @given(
     std=st.booleans(),
-    tname=st.sampled_from(_T_NAMES), uname=st.sampled_from(_U_NAMES),
-    vname=st.sampled_from(_V_NAMES), zname=st.sampled_from(_Z_NAMES),
+    tname=st.sampled_from(_T_NAMES),
+    uname=st.sampled_from(_U_NAMES),
+    vname=st.sampled_from(_V_NAMES),
+    zname=st.sampled_from(_Z_NAMES),
     hum=st.sampled_from(_HUM),
     t_unit=st.sampled_from(["K", "degC", "degF"]),
     wind_unit=st.sampled_from(["m s-1", "knots", "km h-1"]),
     z_kind=st.sampled_from(["height", "geopotential"]),
     level_name=st.sampled_from(_LEVEL_NAMES),
     level_unit=st.sampled_from(["hPa", "Pa", "mbar"]),
-    level_ascending=st.booleans(), lat_desc=st.booleans(), lon_360=st.booleans(),
+    level_ascending=st.booleans(),
+    lat_desc=st.booleans(),
+    lon_360=st.booleans(),
     order=st.permutations(["time", "level", "lat", "lon"]),
 )
 def test_property_any_accepted_layout_gives_the_same_canonical_dataset(
-    tmp_path_factory, std, tname, uname, vname, zname, hum, t_unit, wind_unit, z_kind, level_name,
-    level_unit, level_ascending, lat_desc, lon_360, order,
+    tmp_path_factory,
+    std,
+    tname,
+    uname,
+    vname,
+    zname,
+    hum,
+    t_unit,
+    wind_unit,
+    z_kind,
+    level_name,
+    level_unit,
+    level_ascending,
+    lat_desc,
+    lon_360,
+    order,
 ):
-    base = synthetic_fields(lat=np.arange(40.0, 49.0, 2.0), lon=np.arange(-8.0, 4.1, 3.0),
-                            times=np.datetime64("2027-01-14T06:00") + np.arange(2) * np.timedelta64(6, "h"))
+    base = synthetic_fields(
+        lat=np.arange(40.0, 49.0, 2.0),
+        lon=np.arange(-8.0, 4.1, 3.0),
+        times=np.datetime64("2027-01-14T06:00") + np.arange(2) * np.timedelta64(6, "h"),
+    )
     role, hname, hunit = hum
     # names that are also surface/other roles in some tables must stay distinguishable
     names = {"t": tname, "u": uname, "v": vname, "z": zname, role: hname}
     if len(set(names.values())) < len(names):
         return
     raw = raw_variant(
-        base, std=std, names=names, humidity=role,
-        unit_of={"t": t_unit, "u": wind_unit, "v": wind_unit, role: hunit,
-                 **({"td": hunit} if role == "td" else {})},
-        z_kind=z_kind, level_name=level_name, level_unit=level_unit,
-        level_ascending=level_ascending, lat_desc=lat_desc, lon_360=lon_360, transpose=order,
+        base,
+        std=std,
+        names=names,
+        humidity=role,
+        unit_of={
+            "t": t_unit,
+            "u": wind_unit,
+            "v": wind_unit,
+            role: hunit,
+            **({"td": hunit} if role == "td" else {}),
+        },
+        z_kind=z_kind,
+        level_name=level_name,
+        level_unit=level_unit,
+        level_ascending=level_ascending,
+        lat_desc=lat_desc,
+        lon_360=lon_360,
+        transpose=order,
     )
     path = write(raw, tmp_path_factory.mktemp("prop") / "x.nc")
     got = open_run(path, chunks=None)
@@ -787,17 +1013,67 @@ def test_property_any_accepted_layout_gives_the_same_canonical_dataset(
 SAMPLE = REPO / "sample_grids"
 
 
-@pytest.mark.skipif(not (SAMPLE / "truth.json").exists(), reason="sample_grids not written yet")
 def test_sample_event_runs_and_analyses_open():
-    runs = sorted(p for p in (SAMPLE / "runs").iterdir() if p.is_dir())
-    assert len(runs) >= 2
-    for run in runs:
-        ds = open_run(run)
-        assert ds.attrs["run"] == run.name
-        assert ds.sizes["time"] > 1
-        for n in ("t", "td", "u", "v", "z"):
-            assert n in ds
-        assert ds["level"].values[0] == ds["level"].values.max()
-    an = open_run(SAMPLE / "analyses")
-    assert an.sizes["time"] > 1
-    json.loads((SAMPLE / "truth.json").read_text())
+    """[regr] the invented sample event (sample_grids/, truth.json) opens canonically.
+
+    The dew point derived from the files' relative humidity is checked against
+    MetPy [lib] (Bolton 1980 Eq. 10 vs MetPy's saturation formula: 0.05 K).
+    """
+    truth = json.loads((SAMPLE / "truth.json").read_text())
+    valid = np.array([np.datetime64(v.rstrip("Z"), "ns") for v in truth["valid_times"]])
+    for name, info in truth["sets"].items():
+        ds = open_run(SAMPLE / info["folder"])
+        ref = np.datetime64(info["reference_time"].rstrip("Z"), "ns")
+        assert ds["reference_time"].values == ref
+        assert ds.attrs["run"] == run_label(ref)
+        if name != "analyses":
+            assert ds.attrs["run"] == name
+        np.testing.assert_array_equal(ds["time"].values, valid)
+        np.testing.assert_allclose(ds["level"].values, truth["levels_hpa"])
+        assert list(ds.data_vars) == list(CANON)
+        assert ds["t"].dims == ("time", "level", "lat", "lon")
+        assert np.all(np.diff(ds["lat"].values) > 0) and np.all(np.diff(ds["lon"].values) > 0)
+        step = ds.isel(time=4, level=[0, 2, 5], lat=slice(None, None, 8), lon=slice(None, None, 8))
+        raw = xr.open_dataset(sorted((SAMPLE / info["folder"]).glob("*.nc"))[4])
+        rh = raw["rh"].isel(level=[0, 2, 5], lat=slice(None, None, 8), lon=slice(None, None, 8))
+        want = mpcalc.dewpoint_from_relative_humidity(
+            step["t"].values * units.K, np.clip(rh.values[0] / 100.0, 0.001, 1.0)
+        ).m_as("K")
+        np.testing.assert_allclose(step["td"].values, want, atol=0.05)
+        raw.close()
+        rate = ds["precip"].values
+        assert np.nanmin(rate) >= 0.0
+        first_lead_h = (valid[0] - ref) / np.timedelta64(1, "h")
+        # accumulation since the run start: the first step has a rate only if the
+        # first valid time is after the run start
+        assert np.all(np.isnan(rate[0])) == (first_lead_h == 0)
+
+
+# --------------------------------------------------------------------------- more layouts
+def test_single_level_file_with_scalar_pressure(tmp_path, base):
+    raw = raw_variant(base).isel(level=2)  # 850 hPa kept as a scalar coordinate
+    got = open_run(write(raw, tmp_path / "850.nc"), chunks=None)
+    np.testing.assert_allclose(got["level"].values, [850.0])
+    np.testing.assert_allclose(got["t"].values, base["t"].sel(level=[850.0]).values, rtol=1e-12)
+
+
+def test_humidity_on_fewer_levels_is_put_on_the_temperature_levels(tmp_path, base):
+    raw = raw_variant(base, humidity="rh", unit_of={"rh": "%"}, precip=False)
+    rh = raw["r"].isel(level=[0, 1, 2]).rename({"level": "level_rh"})
+    raw = raw.drop_vars("r")
+    raw["r"] = rh
+    got = open_run(write(raw, tmp_path / "rh3.nc"), chunks=None)
+    assert got["td"].dims == ("time", "level", "lat", "lon")
+    assert np.all(np.isfinite(got["td"].sel(level=[1000.0, 925.0, 850.0]).values))
+    assert np.all(np.isnan(got["td"].sel(level=[700.0, 500.0]).values))
+
+
+def test_noleap_calendar_times_are_mapped(tmp_path, base):
+    raw = raw_variant(base)
+    path = tmp_path / "noleap.nc"
+    enc = {"time": {"units": "hours since 2027-01-14 00:00", "calendar": "noleap"}}
+    raw.to_netcdf(path, encoding=enc)
+    # mapped onto the real calendar, with xarray's warning about it passed on
+    with pytest.warns(RuntimeWarning, match="non-standard calendar"):
+        got = open_run(path)
+    np.testing.assert_array_equal(got["time"].values, base["time"].values)
