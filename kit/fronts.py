@@ -516,8 +516,11 @@ def _trace_zero_lines(loc_masked, periodic):
     return out
 
 
-def _masked_zero_lines(f, grid, k1, k2):
+def _masked_zero_lines(f, grid, k1, k2, min_length_km=0.0):
     """Zero lines of the locating function where both masks hold, in index space.
+
+    Traced lines that cannot reach ``min_length_km`` even at the largest
+    grid spacing are dropped before the masks are checked at their vertices.
 
     The zero line is traced where the masks hold loosely (half the thresholds),
     then the masks are applied exactly at its vertices and the line is cut
@@ -532,7 +535,10 @@ def _masked_zero_lines(f, grid, k1, k2):
         loc = np.empty_like(f["loc"])
     np.copyto(loc, f["loc"])
     loc[outside] = np.nan
+    step_km = float(np.nanmax(np.maximum(np.abs(grid.dx), np.abs(grid.dy)))) / 1000.0
     for xi, yi in _trace_zero_lines(loc, grid.periodic):
+        if np.sum(np.hypot(np.diff(xi), np.diff(yi))) * step_km < min_length_km:
+            continue
         tfp, k2q = _sample([f["tfp"], f["k2q"]], xi, yi, grid.periodic)
         with np.errstate(invalid="ignore", divide="ignore"):
             margin = np.minimum(tfp / max(k1, 1e-300) - 1.0, k2q / max(k2, 1e-300) - 1.0)
@@ -795,7 +801,7 @@ def _lines_at_time(f, grid, get_uv, k1, k2, s, smoothing_km, valid_time, level, 
     fronts = []
     uv = None
     window_km = max(grid.length_m / 1000.0, 0.5 * smoothing_km)
-    for xi, yi in _masked_zero_lines(f, grid, k1, k2):
+    for xi, yi in _masked_zero_lines(f, grid, k1, k2, s.min_length_km):
         lon, lat = _line_lonlat(grid, xi, yi)
         seg = _segments_km(lon, lat)
         length = float(np.sum(seg))
