@@ -309,7 +309,33 @@ def _at_time(ds, time, member):
     one = one.sortby("level", ascending=False)  # 1000 hPa first, as the canonical Dataset
     if "time" in one.coords:
         one = one.drop_vars("time")
-    return one.load(), t
+    return one, t
+
+
+def _window(ds, targets, margin=3):
+    """Cut the grid to the section's box plus ``margin`` points (lazy), for large grids.
+
+    PV needs centred differences around the points used by the bilinear
+    interpolation, hence the margin. A global grid crossed at its seam keeps
+    all longitudes.
+    """
+    out = ds
+    for dim in _horizontal_dims(ds):
+        if dim not in targets:
+            continue
+        coord = np.asarray(ds[dim].values, float)
+        want = np.asarray(targets[dim].values, float)
+        want = want[np.isfinite(want)]
+        if want.size == 0 or coord.size < 2 * margin + 2:
+            continue
+        if dim == "lon" and np.ptp(want) > 180.0:
+            continue
+        step = float(np.median(np.abs(np.diff(coord))))
+        inside = np.flatnonzero((coord >= want.min() - margin * step)
+                                & (coord <= want.max() + margin * step))
+        if inside.size >= 2:
+            out = out.isel({dim: slice(int(inside[0]), int(inside[-1]) + 1)})
+    return out
 
 
 # ---------------------------------------------------------------------------
@@ -596,6 +622,13 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
     from kit import thermo
 
     one, t_valid = _at_time(ds, time, member)
+    if _is_projected(one):
+        _, targets = _projected_targets(one, lat, lon)
+    else:
+        glon = one["lon"].values.astype(float)
+        targets = {"lat": xr.DataArray(lat, dims="distance"),
+                   "lon": xr.DataArray(glon[0] + np.mod(lon - glon[0], 360.0), dims="distance")}
+    one = _window(one, targets).load()
 
     levels = one["level"].values.astype(float)
     p = xr.DataArray(levels, dims="level", coords={"level": levels})

@@ -146,6 +146,19 @@ def test_section_matches_metpy_cross_section(smooth_run):
         np.testing.assert_allclose(sec["lon"].values, ref["lon"].values, atol=1e-9)
         np.testing.assert_allclose(sec[name].transpose("level", "distance").values,
                                    ref.transpose("level", "index").values, rtol=1e-10, atol=1e-9)
+    # PV is computed on a window of the grid around the section; it must equal PV of the
+    # whole grid cut by MetPy's cross_section [lib] (same points, bilinear)
+    from kit.thermo import potential_temperature
+
+    one = smooth_run.sel(time=TIMES[1])
+    pv = S.potential_vorticity(potential_temperature(one["t"], one["level"]), one["u"],
+                               one["v"], one)
+    ref = cross_section(pv.metpy.assign_crs(grid_mapping_name="latitude_longitude",
+                                            semi_major_axis=6378137.0,
+                                            inverse_flattening=298.257223563),
+                        (35.0, -15.0), (55.0, 12.0), steps=60)
+    np.testing.assert_allclose(sec["pv"].values, ref.transpose("level", "index").values,
+                               rtol=1e-9, atol=1e-12)
 
 
 def test_section_across_the_dateline_contiguous_grid():
