@@ -17,8 +17,10 @@ Figures:
   float64), and our time in multiples of it, target within 15x.
 
 The fields are synthetic (a smooth global temperature with wavy frontal
-zones) stored as float32 like most model output, used for timing only. The machine is shared: the runner's load
-average is printed with the figures; the best of several calls is reported.
+zones) stored as float32 like most model output, used for timing only. The
+machine may be shared: the load average is printed with the figures, and the
+best of several calls is reported. The theta-w share (kit.thermo) is shown
+apart from the rest of the analysis.
 """
 
 import math
