@@ -207,6 +207,17 @@ class FrontSettings:
             if not math.isfinite(value) or value < 0:
                 raise InputError(f"FrontSettings.{name}={value}; expected a finite number >= 0")
             setattr(self, name, value)
+        for name in ("k1", "k2", "k1_quantile", "k2_quantile"):
+            value = getattr(self, name)
+            if value is None:
+                continue
+            try:
+                value = float(value)
+            except (TypeError, ValueError):
+                raise InputError(
+                    f"FrontSettings.{name}={value!r}; expected a number or None"
+                ) from None
+            setattr(self, name, value)
         for name in ("k1", "k2"):
             value = getattr(self, name)
             if value is not None and (not np.isfinite(value) or value < 0):
@@ -757,7 +768,14 @@ def _level_index(ds, level, what):
 def _select_times(ds, times):
     if times is None:
         return ds
-    wanted = np.atleast_1d(np.asarray(times, dtype="datetime64[ns]"))
+    items = [times] if isinstance(times, (str, np.datetime64, pd.Timestamp)) else times
+    try:
+        stamps = pd.to_datetime(list(np.atleast_1d(np.asarray(items, dtype=object))), utc=True)
+    except (TypeError, ValueError) as exc:
+        raise InputError(
+            f"find_fronts: times={times!r} not understood ({exc}); expected ISO 8601 UTC times"
+        ) from None
+    wanted = stamps.tz_convert(None).values.astype("datetime64[ns]")
     have = ds["time"].values.astype("datetime64[ns]")
     idx = []
     for t in wanted:

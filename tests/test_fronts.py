@@ -493,6 +493,27 @@ def test_bad_input_is_one_line(mutate, kw, match):
     assert "\n" not in str(exc.value)
 
 
+def test_times_as_iso_strings():
+    ds = zone_latlon(50.0, 0.0, 1.0)
+    fr = F.find_fronts(ds, level=1000.0, times="2030-01-01T00:00:00Z", settings=settings())
+    assert fr and all(f.valid_time == T0 for f in fr)
+    with pytest.raises(InputError, match="not understood"):
+        F.find_fronts(ds, level=1000.0, times=["yesterday-ish"], settings=settings())
+
+
+def test_fields_broadcast_over_leading_dimensions():
+    ds = zone_latlon(50.0, 0.0, 0.5, angle=20.0)
+    tau = ds["t"].isel(time=0, level=0).values
+    stack = np.stack([tau, tau[:, ::-1]])
+    tfp = F.thermal_front_parameter(stack, ds)
+    np.testing.assert_allclose(tfp[0], F.thermal_front_parameter(tau, ds), rtol=1e-12)
+    np.testing.assert_allclose(
+        tfp[1], F.thermal_front_parameter(tau[:, ::-1].copy(), ds), rtol=1e-12
+    )
+    sm = geo.smooth(stack, ds, 80.0)
+    np.testing.assert_allclose(sm[1], geo.smooth(tau[:, ::-1].copy(), ds, 80.0), rtol=1e-12)
+
+
 def test_bad_settings():
     with pytest.raises(InputError, match="expected 'theta_w' or 'theta'"):
         F.FrontSettings(field="theta_e")
@@ -500,6 +521,8 @@ def test_bad_settings():
         F.FrontSettings(k1_quantile=1.5)
     with pytest.raises(InputError, match="min_length_km"):
         F.FrontSettings(min_length_km=-1)
+    with pytest.raises(InputError, match="k1='strong'"):
+        F.FrontSettings(k1="strong")
 
 
 # --------------------------------------------------------------------------- products
