@@ -1077,3 +1077,57 @@ def test_noleap_calendar_times_are_mapped(tmp_path, base):
     with pytest.warns(RuntimeWarning, match="non-standard calendar"):
         got = open_run(path)
     np.testing.assert_array_equal(got["time"].values, base["time"].values)
+
+
+def _rotated_x_axis_angle(crs, rx, ry):
+    """Angle of the rotated grid's x axis, counter-clockwise from true east [rad].
+
+    Exact spherical geometry: the rotation matrix from rotated to true
+    Cartesian axes is built from three points transformed by pyproj [lib];
+    the rotated-east unit vector is rotated and projected on true east/north.
+    """
+    geo = CRS.from_proj4("+proj=longlat +R=6371229 +no_defs")
+    tr = Transformer.from_crs(crs, geo, always_xy=True)
+
+    def vec(lon, lat):
+        lo, la = np.deg2rad(lon), np.deg2rad(lat)
+        return np.array([np.cos(la) * np.cos(lo), np.cos(la) * np.sin(lo), np.sin(la)])
+
+    rot = np.stack(
+        [
+            vec(*tr.transform(0.0, 0.0)),
+            vec(*tr.transform(90.0, 0.0)),
+            vec(*tr.transform(0.0, 90.0)),
+        ],
+        axis=1,
+    )
+    lr = np.deg2rad(rx)
+    east_r = np.stack([-np.sin(lr), np.cos(lr), np.zeros_like(lr)])
+    e = np.tensordot(rot, east_r, axes=1)
+    lon, lat = tr.transform(rx, ry)
+    lo, la = np.deg2rad(lon), np.deg2rad(lat)
+    east = np.stack([-np.sin(lo), np.cos(lo), np.zeros_like(lo)])
+    north = np.stack([-np.sin(la) * np.cos(lo), -np.sin(la) * np.sin(lo), np.cos(la)])
+    return np.arctan2((e * north).sum(0), (e * east).sum(0))
+
+
+def test_grid_relative_winds_rotated_pole(tmp_path):
+    rx = np.arange(-10.0, 10.01, 2.5)
+    ry = np.arange(-8.0, 8.01, 2.0)
+    crs = CRS.from_cf(ROT)
+    xx, yy = np.meshgrid(rx, ry)
+    alpha = _rotated_x_axis_angle(crs, xx, yy)
+    # the rotated meridian through the pole (rlon = 0) is a true meridian: no turn [pub, geometry]
+    np.testing.assert_allclose(alpha[:, rx == 0.0], 0.0, atol=1e-9)
+    ue, vn = -4.0, 9.0
+    # earth -> grid components: project on the grid axes (x at alpha from east)
+    ug = ue * np.cos(alpha) + vn * np.sin(alpha)
+    vg = -ue * np.sin(alpha) + vn * np.cos(alpha)
+    shape = (2, 3, ry.size, rx.size)
+    wind = (np.broadcast_to(ug, shape).copy(), np.broadcast_to(vg, shape).copy())
+    path, *_ = _projected_file(
+        tmp_path, ROT, rx, ry, "rotw.nc", native_deg=True, wind=wind, grid_relative=True
+    )
+    got = open_run(path, chunks=None)
+    np.testing.assert_allclose(got["u"].values, ue, atol=1e-5)
+    np.testing.assert_allclose(got["v"].values, vn, atol=1e-5)
