@@ -368,6 +368,17 @@ def test_type_from_front_normal_wind(wind_to_cold, kind):
     assert np.allclose(fr.vn, wind_to_cold, atol=0.5)
 
 
+def test_quasi_stationary_limit_is_configurable():
+    """[trade] quasi-stationary fronts move under about 5 kt (2.57 m/s; US Navy
+    Aerographer's Mate manual NAVEDTRA 14312): a 2 m/s normal wind is warm with
+    the default 1.5 m/s limit [memory, Berry et al. 2011] and quasi-stationary
+    with the 5 kt one."""
+    ds = zone_latlon(50.0, 0.0, 0.5, angle=30.0, wind_to_cold=2.0)
+    assert longest(F.find_fronts(ds, level=1000.0, settings=settings())).kind == "warm"
+    s5 = settings(qs_speed_ms=5 * 1852 / 3600)
+    assert longest(F.find_fronts(ds, level=1000.0, settings=s5)).kind == "quasi-stationary"
+
+
 def test_line_is_split_where_its_type_changes_and_not_by_noise():
     lat = np.arange(35.0, 65.01, 0.25)
     lon = np.arange(-15.0, 15.01, 0.25)
