@@ -46,6 +46,7 @@ __all__ = [
     "rerun_panel",
     "briefing_panel",
     "caution_banner",
+    "figure_image",
     "K1_UNIT",
     "K2_UNIT",
 ]
@@ -68,6 +69,24 @@ def caution_banner():
         f"<div style='color:#8a3b00;font-weight:bold;font-size:90%;"
         f"border-left:4px solid #8a3b00;padding:2px 8px'>{CAUTION}</div>"
     )
+
+
+def figure_image(fig, dpi=80):
+    """Show a kit figure in a notebook: an Image widget of the figure (PNG).
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        A stamped kit figure (maps, sections, timelines...).
+    dpi : int
+        Resolution [dots per inch].
+
+    Returns
+    -------
+    ipywidgets.Image
+    """
+    return widgets.Image(value=_png(fig, dpi), format="png",
+                         layout=widgets.Layout(max_width="100%"))
 
 
 def _plain(exc):
