@@ -168,3 +168,74 @@ def test_fronts_command_two_runs_and_theta(tmp_path):
         assert feat["properties"]["field"] == "theta"
     assert by_run == {"2030-01-14T00Z": {"warm"}, "2030-01-14T06Z": {"cold"}}
     assert gj["properties"]["runs"] == ["2030-01-14T00Z", "2030-01-14T06Z"]
+
+
+def test_fronts_command_on_a_lambert_cf_run(tmp_path):
+    """A projected run (CF grid_mapping, Lambert conformal) goes through the same path."""
+    from pyproj import CRS, Transformer
+
+    R = geo.EARTH_RADIUS_M
+    crs = CRS.from_proj4(f"+proj=lcc +lat_1=45 +lat_2=55 +lat_0=50 +lon_0=10 +R={R}")
+    to_ll = Transformer.from_crs(crs, f"+proj=longlat +R={R}", always_xy=True)
+    dx = 25e3
+    x = (np.arange(81) - 40) * dx
+    y = (np.arange(71) - 35) * dx
+    lon, lat = to_ll.transform(*np.meshgrid(x, y))
+    e, n = geo.local_east_north_km(lon, lat, 10.0, 50.0)
+    a = np.deg2rad(60.0)
+    theta = 285.0 + 7.0 * np.tanh((e * np.cos(a) + n * np.sin(a)) / 120.0)
+    levels = np.array([1000.0, 850.0, 700.0])
+    t = np.stack([theta * (p / 1000.0) ** KAPPA for p in levels])[None]
+    u = np.full(t.shape, 5.0 * np.cos(a))  # toward the warm side: a cold front
+    v = np.full(t.shape, 5.0 * np.sin(a))
+    z = np.broadcast_to(
+        (44330.8 * (1 - (levels / 1013.25) ** 0.190263))[None, :, None, None], t.shape
+    )
+    dims = ("time", "pressure", "y", "x")
+    gm = {"grid_mapping": "lcc"}
+    ds = xr.Dataset(
+        {
+            "ta": (dims, t.astype("f4"), {"standard_name": "air_temperature", "units": "K", **gm}),
+            "tdew": (
+                dims,
+                (t - 1).astype("f4"),
+                {"standard_name": "dew_point_temperature", "units": "K", **gm},
+            ),
+            "ua": (
+                dims,
+                u.astype("f4"),
+                {"standard_name": "eastward_wind", "units": "m s-1", **gm},
+            ),
+            "va": (
+                dims,
+                v.astype("f4"),
+                {"standard_name": "northward_wind", "units": "m s-1", **gm},
+            ),
+            "zg": (
+                dims,
+                np.array(z, "f4"),
+                {"standard_name": "geopotential_height", "units": "m", **gm},
+            ),
+            "lcc": ((), 0, crs.to_cf()),
+        },
+        coords={
+            "time": ("time", [np.datetime64("2030-02-01T00", "ns")]),
+            "pressure": ("pressure", levels, {"standard_name": "air_pressure", "units": "hPa"}),
+            "y": ("y", y, {"standard_name": "projection_y_coordinate", "units": "m"}),
+            "x": ("x", x, {"standard_name": "projection_x_coordinate", "units": "m"}),
+        },
+    )
+    path = tmp_path / "lambert.nc"
+    ds.to_netcdf(path)
+    out = tmp_path / "lambert.geojson"
+    assert main(["fronts", str(path), "--out", str(out)]) == 0
+    feats = json.loads(out.read_text())["features"]
+    assert feats and {f["properties"]["kind"] for f in feats} == {"cold"}
+    longest = max(feats, key=lambda f: f["properties"]["length_km"])
+    assert longest["properties"]["speed_ms"] == pytest.approx(-5.0, abs=0.3)
+    # the line lies where the same zone lies on a regular grid: about 0.658 L plus
+    # the 50 km smoothing shift warmward of the zone centre (1-D check in test_fronts)
+    lon_f, lat_f = np.array(longest["geometry"]["coordinates"]).T
+    e_f, n_f = geo.local_east_north_km(lon_f, lat_f, 10.0, 50.0)
+    x_f = e_f * np.cos(a) + n_f * np.sin(a)
+    assert 60.0 < np.median(x_f) < 140.0
