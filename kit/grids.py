@@ -829,6 +829,8 @@ def _canonical_time(ds, where):
             raise _err(where, f"holds {uniq.size} different reference times; expected one run")
     if ref is None and attr_ref is not None:
         ref = attr_ref
+    if ref is not None and not isinstance(ref, tuple):
+        ref = np.asarray(ref, dtype="datetime64[ns]").reshape(())[()]
     return ds, ref
 
 
@@ -1287,9 +1289,17 @@ def _classify(ds, level_dims, where):
             skip.add(n)
     candidates = [n for n in ds.data_vars if n not in skip]
 
+    surface_names = {x.lower() for _s, names in _SURFACE_ROLES.values() for x in names}
+
     def on_levels(n):
         v = ds[n]
-        return any(d in level_dims for d in v.dims) or _scalar_pressure(v, where) is not None
+        if any(d in level_dims for d in v.dims):
+            return True
+        # a single-level file: its scalar pressure coordinate is shared by every
+        # variable, so near-surface fields are told apart by height or name
+        if _surface_height(v) is not None or n.lower() in surface_names:
+            return False
+        return _scalar_pressure(v, where) is not None
 
     def assign(role, n, via):
         if role not in roles:
@@ -1888,6 +1898,56 @@ def _compare_grids(a, fa, b, fb):
         )
 
 
+def _harmonise_optional(parts, dropped):
+    """Give every file the same variables: drop ``dropped``, fill absent optional ones.
+
+    An optional field (mslp, t2m, precip ...) missing from some files of a run
+    (commonly precipitation at lead 0) is added there as NaN; an accumulated
+    precipitation missing at the run's reference time is 0 by definition.
+    """
+    parts = [(d.drop_vars([v for v in dropped if v in d]), inf, p) for d, inf, p in parts]
+    names = []
+    for d, _inf, _p in parts:
+        names += [v for v in d.data_vars if v not in names]
+    kinds = {inf["precip_kind"] for _d, inf, _p in parts if inf["precip_kind"]}
+    if len(kinds) > 1:
+        a = next(p for _d, inf, p in parts if inf["precip_kind"] == "amount")
+        b = next(p for _d, inf, p in parts if inf["precip_kind"] == "rate")
+        raise _err(
+            f"{a} vs {b}",
+            "precipitation is an amount in one file and a rate in the other; expected one kind "
+            "per run",
+        )
+    kind = kinds.pop() if kinds else None
+    out = []
+    for d, inf, p in parts:
+        inf = dict(inf, precip_kind=kind)
+        for v in names:
+            if v in d.data_vars:
+                continue
+            if v.lstrip("_") in ("t", "td", "u", "v", "z", "rh", "q"):
+                other = next(pp for dd, _i, pp in parts if v in dd.data_vars)
+                raise _err(
+                    f"{other} vs {p}",
+                    f"different variables ('{v.lstrip('_')}' only in the first); expected the "
+                    "same upper-air fields in every file of a run",
+                )
+            template = d["t"].isel(level=0, drop=True)
+            fill = np.nan
+            ref = inf["ref"]
+            if (
+                v == "precip"
+                and kind == "amount"
+                and isinstance(ref, np.datetime64)
+                and d["time"].size == 1
+                and d["time"].values[0] == ref
+            ):
+                fill = 0.0
+            d = d.assign({v: xr.full_like(template, fill, dtype=np.float64)})
+        out.append((d, inf, p))
+    return out
+
+
 def _precip_rate(acc, times, ref, lower, where):
     """Rate over the step ending at each time [mm h-1] from an accumulation [mm]."""
     n = times.size
@@ -1990,7 +2050,7 @@ def _finish(parts, ref, where_all, member, chunks):
         mscalar = combined[0][0]
     times = np.asarray(ds["time"].values, dtype="datetime64[ns]")
     # precipitation accumulations -> rates
-    if first_info["precip_kind"] == "amount" and "precip" in ds:
+    if any(info["precip_kind"] == "amount" for _d, info, _p in parts) and "precip" in ds:
         lowers = [info.get("precip_lower") for _, info, _ in parts]
         lower = None
         if all(lw is not None for lw in lowers):
@@ -2201,15 +2261,17 @@ def open_run(paths, *, member=None, chunks="auto"):
                 files.append(f)
     where_all = str(args[0]) if len(args) == 1 else f"{args[0]} (+{len(args) - 1})"
     parts = []
+    dropped = set()
     for i, f in enumerate(files):
         raw = _open_file(f, chunks)
         ds, info = _canonical_one(raw, str(f), member)
+        before = list(ds.data_vars)
         if i == 0:
             ds = _check_values(ds, str(f))
         parts.append((ds, info, str(f)))
-    # a variable dropped as all-NaN in the first file is dropped in all
-    keep = set(parts[0][0].data_vars)
-    parts = [(d[[v for v in d.data_vars if v in keep]], inf, p) for d, inf, p in parts]
+        if i == 0:
+            dropped = set(before) - set(ds.data_vars)
+    parts = _harmonise_optional(parts, dropped)
     ds = _assemble(parts, where_all, member, chunks)
     if chunks is None:
         ds = ds.load()

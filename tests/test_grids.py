@@ -1055,6 +1055,9 @@ def test_single_level_file_with_scalar_pressure(tmp_path, base):
     got = open_run(write(raw, tmp_path / "850.nc"), chunks=None)
     np.testing.assert_allclose(got["level"].values, [850.0])
     np.testing.assert_allclose(got["t"].values, base["t"].sel(level=[850.0]).values, rtol=1e-12)
+    # near-surface fields share the scalar 850 hPa coordinate but stay near-surface
+    np.testing.assert_allclose(got["t2m"].values, base["t2m"].values, rtol=1e-12)
+    np.testing.assert_allclose(got["u10"].values, base["u10"].values, rtol=1e-12)
 
 
 def test_humidity_on_fewer_levels_is_put_on_the_temperature_levels(tmp_path, base):
@@ -1131,3 +1134,15 @@ def test_grid_relative_winds_rotated_pole(tmp_path):
     got = open_run(path, chunks=None)
     np.testing.assert_allclose(got["u"].values, ue, atol=1e-5)
     np.testing.assert_allclose(got["v"].values, vn, atol=1e-5)
+
+
+def test_precipitation_missing_at_lead_zero(tmp_path, make_latlon_run):
+    folder, want = make_latlon_run(name="nolead0")
+    first = folder / "step_000.nc"
+    ds = xr.open_dataset(first).load()
+    ds.close()
+    ds.drop_vars("precip").to_netcdf(first)
+    got = open_run(folder, chunks=None)
+    # an accumulation is 0 at the run start by definition, so the next step is complete
+    np.testing.assert_allclose(got["precip"].values[1:], want["precip"].values[1:], rtol=1e-12)
+    assert np.all(np.isnan(got["precip"].values[0]))
