@@ -37,13 +37,26 @@ def _check_target(path, overwrite):
             f"{path}: already exists; choose a new name or pass overwrite=True (--overwrite)"
         )
     parent = path.parent if str(path.parent) else Path(".")
-    try:
-        parent.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise OutputError(f"{parent}: cannot create the output folder ({exc.strerror})") from None
+    _make_folder(parent)
     if not os.access(parent, os.W_OK):
         raise OutputError(f"{parent}: output folder is not writable; expected a writable folder")
     return path
+
+
+def _make_folder(folder):
+    """Create ``folder`` (and parents) or raise one OutputError saying why and what is expected."""
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        probe = folder
+        while not probe.exists() and probe != probe.parent:
+            probe = probe.parent
+        if probe.exists() and not probe.is_dir():
+            raise OutputError(f"{probe}: is a file; expected a folder for the products") from None
+        raise OutputError(
+            f"{folder}: cannot create the output folder ({exc.strerror}); expected a folder "
+            "you can create and write in"
+        ) from None
 
 
 @contextlib.contextmanager
@@ -66,9 +79,16 @@ def atomic_write(path, mode="wb", overwrite=False):
         removed and ``path`` is untouched.
     """
     path = _check_target(path, overwrite)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
     try:
-        with os.fdopen(fd, mode, **({"encoding": "utf-8", "newline": ""} if "b" not in mode else {})) as fh:
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
+    except OSError as exc:
+        raise OutputError(
+            f"{path.parent}: cannot create a file in the output folder ({exc.strerror}); "
+            "expected a writable folder"
+        ) from None
+    try:
+        text_kw = {"encoding": "utf-8", "newline": ""} if "b" not in mode else {}
+        with os.fdopen(fd, mode, **text_kw) as fh:
             yield fh
             fh.flush()
             os.fsync(fh.fileno())
@@ -144,10 +164,7 @@ def new_product_dir(parent, stamp):
     Earlier products are never touched: each shift run gets its own folder.
     """
     parent = Path(parent)
-    try:
-        parent.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise OutputError(f"{parent}: cannot create the output folder ({exc.strerror})") from None
+    _make_folder(parent)
     for n in range(1, 1000):
         cand = parent / (stamp if n == 1 else f"{stamp}-{n}")
         try:
@@ -156,5 +173,8 @@ def new_product_dir(parent, stamp):
         except FileExistsError:
             continue
         except OSError as exc:
-            raise OutputError(f"{cand}: cannot create the product folder ({exc.strerror})") from None
+            raise OutputError(
+                f"{cand}: cannot create the product folder ({exc.strerror}); expected a "
+                "writable folder"
+            ) from None
     raise OutputError(f"{parent}: too many product folders named {stamp}; clean up or pick --out")

@@ -17,7 +17,6 @@ located on the verifying analyses by mean distance and the modified Hausdorff
 distance (Dubuisson & Jain 1994).
 """
 
-import re
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -202,13 +201,14 @@ def _window_change(values, half):
     for i in range(half, n - half):
         before = values[i - half:i]
         after = values[i:i + half]
-        if np.isfinite(before).sum() >= half // 2 + 1 and np.isfinite(after).sum() >= half // 2 + 1:
+        enough = half // 2 + 1
+        if np.isfinite(before).sum() >= enough and np.isfinite(after).sum() >= enough:
             out[i] = np.nanmean(after) - np.nanmean(before)
     return out
 
 
 def _peaks(score, threshold, min_sep):
-    """Indices of local maxima of ``score`` above ``threshold``, ``min_sep`` apart."""
+    """Return indices of local maxima of ``score`` above ``threshold``, ``min_sep`` apart."""
     idx = [i for i in np.argsort(-np.nan_to_num(score, nan=-np.inf))
            if np.isfinite(score[i]) and score[i] >= threshold]
     chosen = []
@@ -313,7 +313,8 @@ def detect_passages(
     # trough: a pressure minimum with rises on both sides over the window
     p = reg["pressure_hpa"].to_numpy()
     trough_score = np.full(len(reg), np.nan)
-    smooth_p = pd.Series(p).rolling(max(3, half // 2) | 1, center=True, min_periods=2).mean().to_numpy()
+    width = max(3, half // 2) | 1
+    smooth_p = pd.Series(p).rolling(width, center=True, min_periods=2).mean().to_numpy()
     for i in range(half, len(reg) - half):
         seg_b, seg_a = smooth_p[i - half:i], smooth_p[i + 1:i + half + 1]
         if np.isfinite(smooth_p[i]) and np.isfinite(seg_b).any() and np.isfinite(seg_a).any():
@@ -367,7 +368,8 @@ def detect_passages(
             "lead_of_wind_h": round(float(lead), 2) if np.isfinite(lead) else np.nan,
             "confidence": round(sum(conf[s] for s in g), 2),
         })
-    return pd.DataFrame(rows, columns=_PASSAGE_COLUMNS).sort_values("passage_utc", ignore_index=True)
+    frame = pd.DataFrame(rows, columns=_PASSAGE_COLUMNS)
+    return frame.sort_values("passage_utc", ignore_index=True)
 
 
 # --------------------------------------------------------------------------
@@ -390,7 +392,7 @@ def _to_local_km(lon, lat, lon0, lat0):
 def _densify(xy, spacing_km):
     """Insert points along each segment so no gap exceeds ``spacing_km``."""
     out = [xy[:1]]
-    for a, b in zip(xy[:-1], xy[1:]):
+    for a, b in zip(xy[:-1], xy[1:], strict=True):
         n = max(1, int(np.ceil(np.hypot(*(b - a)) / spacing_km)))
         frac = np.arange(1, n + 1)[:, None] / n
         out.append(a + frac * (b - a))
@@ -499,7 +501,7 @@ _LEAD_BINS_H = (0, 12, 24, 36, 48, 72, 120, 240)
 
 
 def _lead_bin(lead_h):
-    for lo, hi in zip(_LEAD_BINS_H[:-1], _LEAD_BINS_H[1:]):
+    for lo, hi in zip(_LEAD_BINS_H[:-1], _LEAD_BINS_H[1:], strict=True):
         if lo <= lead_h < hi:
             return f"{lo}-{hi} h"
     return f">={_LEAD_BINS_H[-1]} h" if lead_h >= _LEAD_BINS_H[-1] else "<0 h"
@@ -557,7 +559,7 @@ def timing_pairs(forecast, observed, reference_times, *, max_error_h=12.0, event
             else:
                 row.update(observed_utc="", error_h=np.nan, outcome="false alarm")
             rows.append(row)
-        for k, o in ob[~ob.index.isin(used)].iterrows():
+        for _, o in ob[~ob.index.isin(used)].iterrows():
             if o["front_kind"] not in ("warm", "cold"):
                 continue
             rows.append({"event": event, "site": o["site"], "front_kind": o["front_kind"],
@@ -745,7 +747,7 @@ def rerun_event(event_dir, *, level=850.0):
     }
 
 
-def rerun_events(event_dirs, *, scheduler=None, workers=2, level=850.0, progress=True):
+def rerun_events(event_dirs, *, scheduler=None, workers=2, level=850.0, progress=None):
     """Verify several events in parallel with dask.distributed.
 
     Parameters
@@ -758,8 +760,9 @@ def rerun_events(event_dirs, *, scheduler=None, workers=2, level=850.0, progress
         Worker processes of the local cluster.
     level : float
         Front level [hPa].
-    progress : bool
-        Show a progress bar (tqdm, on stderr).
+    progress : bool or None
+        Show a progress bar (tqdm, on stderr); None shows it only when stderr
+        is a terminal (so a logged, headless run gets no bar codes).
 
     Returns
     -------
@@ -771,12 +774,17 @@ def rerun_events(event_dirs, *, scheduler=None, workers=2, level=850.0, progress
     from tqdm.auto import tqdm
 
     events = find_events(event_dirs)
+    for event in events:  # fail fast, before any worker starts
+        _check_event(event)
     cluster = None
     if scheduler:
         try:
             client = Client(scheduler, timeout="10s")
         except OSError as exc:
-            raise InputError(f"--scheduler {scheduler}: cannot reach the dask scheduler ({exc})") from None
+            raise InputError(
+                f"--scheduler {scheduler}: cannot reach the dask scheduler ({exc}); expected "
+                "the address of a running scheduler, e.g. tcp://scheduler-host:8786"
+            ) from None
     else:
         cluster = LocalCluster(n_workers=max(1, int(workers)), threads_per_worker=1,
                                processes=True, dashboard_address=None)
@@ -784,13 +792,16 @@ def rerun_events(event_dirs, *, scheduler=None, workers=2, level=850.0, progress
     try:
         futures = {client.submit(_rerun_task, str(e), level, pure=False): e for e in events}
         results, where = [], set()
-        bar = tqdm(total=len(futures), desc="events", unit="event", disable=not progress)
-        for fut in as_completed(futures):
-            out, worker = fut.result()
-            results.append(out)
-            where.add(worker)
-            bar.update(1)
-        bar.close()
+        bar = tqdm(total=len(futures), desc="events", unit="event", leave=False,
+                   disable=None if progress is None else not progress)
+        try:
+            for fut in as_completed(futures):
+                out, worker = fut.result()
+                results.append(out)
+                where.add(worker)
+                bar.update(1)
+        finally:
+            bar.close()
     finally:
         client.close()
         if cluster is not None:

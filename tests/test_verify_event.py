@@ -6,19 +6,43 @@ passages at the analysis passage times and each run's timing offset.
 """
 
 import json
+import os
+import shutil
 from pathlib import Path
 
 import pandas as pd
 import pytest
 
-from kit.verify import rerun_event, summarise_position, summarise_timing
+from kit.verify import rerun_events, summarise_position, summarise_timing
 
 EVENT = Path(__file__).resolve().parents[1] / "sample_grids"
 
 
 @pytest.fixture(scope="module")
-def rerun():
-    return rerun_event(EVENT)
+def both(tmp_path_factory):
+    """Two copies of the sample event (hard links) rerun on a 2-worker local cluster."""
+    top = tmp_path_factory.mktemp("events")
+    for name in ("event_a", "event_b"):
+        shutil.copytree(EVENT, top / name, copy_function=os.link)
+    return rerun_events([top], workers=2, progress=True)
+
+
+@pytest.fixture(scope="module")
+def rerun(both):
+    return {k: v[v["event"] == "event_a"].reset_index(drop=True)
+            for k, v in both.items() if k != "workers_used"}
+
+
+@pytest.mark.slow
+def test_events_run_in_parallel_on_more_than_one_worker(both):
+    assert both["workers_used"] == 2
+    assert set(both["timing"]["event"]) == {"event_a", "event_b"}
+    # the same event twice gives the same answer
+    a = both["timing"][both["timing"]["event"] == "event_a"].drop(columns="event")
+    b = both["timing"][both["timing"]["event"] == "event_b"].drop(columns="event")
+    sort = ["run", "site", "front_kind"]
+    pd.testing.assert_frame_equal(a.sort_values(sort).reset_index(drop=True),
+                                  b.sort_values(sort).reset_index(drop=True))
 
 
 @pytest.fixture(scope="module")

@@ -31,7 +31,7 @@ def _scatter_by_kind(ax, frame, ycol):
 
 
 def timing_error_figure(pairs, *, title_run, source):
-    """Forecast minus observed passage time [h] against lead time [h], by front kind.
+    """Plot forecast minus observed passage time [h] against lead time [h], by front kind.
 
     Parameters
     ----------
@@ -69,7 +69,7 @@ def timing_error_figure(pairs, *, title_run, source):
 
 
 def position_error_figure(pairs, *, title_run, source):
-    """Modified Hausdorff distance [km] of forecast fronts against lead time [h].
+    """Plot the modified Hausdorff distance [km] of forecast fronts against lead time [h].
 
     Parameters
     ----------

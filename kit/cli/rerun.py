@@ -39,7 +39,10 @@ def run(args):
     events = [Path(e) for e in args.events]
     for e in events:
         if not e.is_dir():
-            raise InputError(f"{e}: no such event folder")
+            raise InputError(
+                f"{e}: no such event folder; expected a folder holding runs/, analyses/, "
+                "stations/ and sites.csv (or a folder of such folders)"
+            )
     res = rerun_events(events, scheduler=args.scheduler, workers=args.workers, level=args.level)
     stamp_name = "rerun-" + pd.Timestamp.now("UTC").strftime("%Y%m%dT%H%MZ")
     out = new_product_dir(args.out, stamp_name)
