@@ -109,7 +109,8 @@ def test_no_passage(tmp_path):
     df = pd.DataFrame({
         "time_utc": pd.date_range(T0, periods=n, freq="10min").strftime("%Y-%m-%dT%H:%MZ"),
         "pressure_hpa": 1012 + rng.normal(0, 0.08, n), "temperature_c": 8 + rng.normal(0, 0.25, n),
-        "dewpoint_c": 4 + rng.normal(0, 0.25, n), "wind_dir_deg": (240 + rng.normal(0, 12, n)) % 360,
+        "dewpoint_c": 4 + rng.normal(0, 0.25, n),
+        "wind_dir_deg": (240 + rng.normal(0, 12, n)) % 360,
         "wind_speed_kt": np.abs(15 + rng.normal(0, 3, n)),
     })
     path = tmp_path / "calm.csv"
