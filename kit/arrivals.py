@@ -6,9 +6,10 @@ front line crosses the site. At each model step the site's signed distance
 side; the nearest point of the polyline, extended straight past its ends).
 The front passes the site where ``d`` changes sign between two steps; the time
 is interpolated linearly in distance between the steps, which is the same as
-moving the line at its tracked speed over the site. After the last step the
-line is carried on at the tracked speed for at most ``horizon_h`` hours and the
-row is flagged ``extrapolated``. When the crossing happens beyond an end of the
+moving the line at its tracked speed over the site. After a front's last step
+(the run's last step, or where its track ends) the line is carried on at the
+tracked speed for at most ``horizon_h`` hours and the row is flagged
+``extrapolated``. When the crossing happens beyond an end of the
 line (farther than ``along_tolerance_km``) the front misses the site: the row
 has an empty ``passage_utc`` and a ``note`` such as "cold front passes 240 km
 N of site (line ends there)" (one such row per front that never crosses the
@@ -196,64 +197,16 @@ def format_utc(value):
 
 
 def _thermo():
-    """Point thermodynamics: kit.thermo when present, else MetPy (reference library).
+    """Point thermodynamics of kit.thermo on numpy arrays (K and hPa in; K or fraction out)."""
+    from kit import thermo
 
-    Returns a dict of callables on numpy arrays, K and hPa in, K or fraction out.
-    """
-    try:
-        from kit import thermo
-
-        return {
-            "rh": lambda t, td: np.asarray(thermo.relative_humidity(t, td), dtype=float),
-            "tw": lambda t, td, p: np.asarray(thermo.wet_bulb_temperature(t, td, p), dtype=float),
-            "thw": lambda t, td, p: np.asarray(
-                thermo.wet_bulb_potential_temperature(t, td, p), dtype=float
-            ),
-        }
-    except ImportError:
-        import metpy.calc as mpcalc
-        from metpy.units import units
-
-        def _pt(fn, *args):
-            args = [np.asarray(a, dtype=float) for a in args]
-            shape = np.broadcast_shapes(*(a.shape for a in args))
-            args = [np.broadcast_to(a, shape).ravel() for a in args]
-            good = np.all([np.isfinite(a) for a in args], axis=0)
-            out = np.full(good.shape, np.nan)
-            if good.any():
-                out[good] = fn(*[a[good] for a in args])
-            return out.reshape(shape)
-
-        def rh(t, td):
-            return _pt(
-                lambda a, b: mpcalc.relative_humidity_from_dewpoint(a * units.K, b * units.K).m_as(
-                    ""
-                ),
-                t,
-                td,
-            )
-
-        def tw(t, td, p):
-            return _pt(
-                lambda a, b, c: mpcalc.wet_bulb_temperature(
-                    c * units.hPa, a * units.K, b * units.K
-                ).m_as("K"),
-                t,
-                td,
-                p,
-            )
-
-        def thw(t, td, p):
-            return _pt(
-                lambda a, b, c: mpcalc.wet_bulb_potential_temperature(
-                    c * units.hPa, a * units.K, b * units.K
-                ).m_as("K"),
-                t,
-                td,
-                p,
-            )
-
-        return {"rh": rh, "tw": tw, "thw": thw}
+    return {
+        "rh": lambda t, td: np.asarray(thermo.relative_humidity(t, td), dtype=float),
+        "tw": lambda t, td, p: np.asarray(thermo.wet_bulb_temperature(t, td, p), dtype=float),
+        "thw": lambda t, td, p: np.asarray(
+            thermo.wet_bulb_potential_temperature(t, td, p), dtype=float
+        ),
+    }
 
 
 # ------------------------------------------------------------------ column work
@@ -832,7 +785,7 @@ def find_passages(
         temperature change) rather than of its warm edge, where the locating
         line lies (module notes).
     horizon_h : float
-        Longest extrapolation past the last step at the tracked speed [h].
+        Longest extrapolation past the front's last step at its tracked speed [h].
     along_tolerance_km : float
         How far beyond an end of the line a crossing still counts [km].
     miss_report_km : float
@@ -959,8 +912,8 @@ def find_passages(
                                 "surface_offset_km": gK["shift"],
                                 "zone_centre_offset_km": gK["centre"],
                                 "level_hpa": fK.level_hpa,
-                                "note": f"extrapolated {dt:.1f} h past the last step "
-                                "at the tracked speed",
+                                "note": f"extrapolated {dt:.1f} h past the front's last "
+                                f"step ({format_utc(hK)}) at its tracked speed",
                             }
                         )
         out.extend(hits)
@@ -1330,7 +1283,7 @@ def arrival_table(
         Time the frontal zone's centre (middle of the temperature change)
         rather than its warm edge, where the locating line lies (module notes).
     horizon_h : float
-        Longest extrapolation past a run's last step [h].
+        Longest extrapolation past a front's last step [h].
     window_h : float
         Before/after offset of wind, temperature and freezing level [h].
     along_tolerance_km : float
