@@ -138,114 +138,6 @@ def _float(widget, what, lo=0.0):
     return value
 
 
-class _MapFrame:
-    """A map figure built once per (run grid, level, field); the weather layer is redrawn."""
-
-    def __init__(self, ds, sites, levels, field, level, width_in, dpi):
-        from kit.charts import maps, style
-        from kit.coast import add_coastlines
-
-        self.maps, self.style = maps, style
-        self.dpi = dpi
-        self.fig, self.ax = maps.map_axes(ds, width_in=width_in)
-        add_coastlines(self.ax)
-        maps.add_graticule(self.ax)
-        self.sites = sites
-        if len(sites):
-            maps.draw_sites(self.ax, sites)
-        maps.front_legend(self.ax, sites=len(sites) > 0)
-        import matplotlib.colors as mcolors
-        from matplotlib.cm import ScalarMappable
-
-        self.levels = levels
-        norm = mcolors.BoundaryNorm(levels, style.THETAW_CMAP.N, extend="both")
-        sm = ScalarMappable(norm=norm, cmap=style.THETAW_CMAP)
-        maps.colour_key(self.fig, sm, f"{maps.FIELDS[field][0]} at {level:g} hPa [\u00b0C]")
-        self.layer = []
-        # everything drawn so far is the static overlay: rendered once, then composited
-        self.static = [a for a in self.ax.get_children() if a.get_visible()
-                       and a is not self.ax.patch and not isinstance(a, type(self.ax.spines.get(
-                           "geo", None)))]
-        self.static += [a for a in self.fig.axes if a is not self.ax]  # the colour key
-        self._overlay = None
-
-    def _clear(self):
-        for artist in self.layer:
-            try:
-                artist.remove()
-            except (ValueError, AttributeError, NotImplementedError):
-                pass
-        self.layer = []
-
-    def draw(self, ds, ds_t, fronts, *, field, level, run, valid, member, site=None):
-        maps = self.maps
-        self._clear()
-        n_texts = len(self.ax.texts)
-        self.layer.append(maps.draw_shading(self.ax, ds_t, field=field, level=level,
-                                            levels=self.levels))
-        cs = maps.draw_isobars(self.ax, ds_t)
-        if cs is not None:
-            self.layer.append(cs)
-        self.layer.extend(maps.draw_fronts(self.ax, fronts))
-        if site is not None:
-            (mark,) = self.ax.plot([site["lon"]], [site["lat"]], marker="o", markersize=11,
-                                   markerfacecolor="none", markeredgecolor="#111111",
-                                   markeredgewidth=1.8, transform=maps._pc(), zorder=10)
-            self.layer.append(mark)
-        self.layer.extend(self.ax.texts[n_texts:])  # isobar and speed labels of this layer
-        counts = {k: sum(f.kind == k for f in fronts) for k in self.style.FRONT_COLOURS}
-        summary = ", ".join(f"{n} {self.style.KIND_LABELS[k]}{'s' if n != 1 else ''}"
-                            for k, n in counts.items() if n) or "no fronts found"
-        extra = (f"Fronts at {level:g} hPa on {maps.FIELDS[field][0]}"
-                 + (f" (member {member})" if member is not None else "") + f": {summary}")
-        self.style.stamp(self.fig, run=run, valid_time=valid,
-                         lead_h=self.style.lead_hours(ds, valid), source=ds, extra=extra)
-        return self._composite()
-
-    def _render(self, show_static, show_layer, transparent):
-        """Draw the figure with some artists hidden; return the RGBA pixels."""
-        from matplotlib.backends.backend_agg import FigureCanvasAgg
-
-        canvas = self.fig.canvas if isinstance(self.fig.canvas, FigureCanvasAgg) else (
-            FigureCanvasAgg(self.fig))
-        saved_dpi = self.fig.dpi
-        self.fig.dpi = self.dpi
-        hidden = [a for a in self.static if not show_static] + [
-            a for a in self.layer if not show_layer]
-        stamp = [a for a in (self.fig._frontshift.get("artists") or {}).values()
-                 if a is not None]
-        hidden += [a for a in stamp if not show_layer]
-        patches = [self.fig.patch, self.ax.patch]
-        alphas = [p.get_alpha() for p in patches]
-        try:
-            for a in hidden:
-                a.set_visible(False)
-            if transparent:
-                for p in patches:
-                    p.set_alpha(0.0)
-            canvas.draw()
-            rgba = np.asarray(canvas.buffer_rgba()).copy()
-        finally:
-            for a in hidden:
-                a.set_visible(True)
-            for p, alpha in zip(patches, alphas, strict=True):
-                p.set_alpha(alpha)
-            self.fig.dpi = saved_dpi
-        return rgba
-
-    def _composite(self):
-        """Compose the weather layer under the static overlay (coast, graticule, keys); PNG."""
-        from PIL import Image
-
-        if self._overlay is None:
-            self._overlay = Image.fromarray(self._render(True, False, True), "RGBA")
-        base = Image.fromarray(self._render(False, True, False), "RGBA")
-        out = Image.alpha_composite(base, self._overlay)
-        buf = io.BytesIO()
-        out.convert("RGB").save(buf, format="PNG", compress_level=1)
-        return buf.getvalue()
-
-
 class FrontPanel:
     """The frontal-map panel's state, controls and drawing (see :func:`front_panel`).
 
@@ -278,7 +170,7 @@ class FrontPanel:
         self.width_in, self.dpi = width_in, dpi
         self._analysis = {}     # (run, member, level, field, thresholds) -> fronts
         self._levels = {}       # (run, member, level, field) -> shading levels
-        self._frames = {}       # (run, level, field) -> _MapFrame
+        self._frames = {}       # (run, member, level, field) -> maps.MapSeries
         self.stats = {"analyses": 0, "map_draws": 0, "section_draws": 0, "last_redraw_s": None}
         self._quiet = True
         self._section_fig = None
@@ -412,7 +304,8 @@ class FrontPanel:
                 options.append((lab, (i, None)))
         quiet, self._quiet = self._quiet, True
         self.run_pick.options = options
-        self.run_pick.value = options[-1][1] if len(self.runs) == 1 else self.run_pick.value
+        # the run added last (the newest, as RUN lists read) is the one shown
+        self.run_pick.value = next(v for _t, v in options if v[0] == len(self.runs) - 1)
         self._quiet = quiet
         return label
 
@@ -521,13 +414,14 @@ class FrontPanel:
         ds_t, valid = maps.select_time(ds, valid, member=member)
         key = (label, member, level, field)
         if key not in self._frames:
-            self._frames[key] = _MapFrame(ds, self.sites, self._shading_levels(
-                ds, label, member, level, field), field, level, self.width_in, self.dpi)
+            self._frames[key] = maps.MapSeries(
+                ds, sites=self.sites, level=level, field=field, member=member,
+                levels=self._shading_levels(ds, label, member, level, field),
+                width_in=self.width_in, dpi=self.dpi)
         frame = self._frames[key]
         at_time = maps._fronts_at(fronts, valid, level, member)
         site = self._site()
-        self.map_image.value = frame.draw(ds, ds_t, at_time, field=field, level=level,
-                                          run=label, valid=valid, member=member, site=site)
+        self.map_image.value = frame.draw(valid, at_time, site=site, run=label)
         self._fill_front_pick(at_time)
         self.stats["map_draws"] += 1
         self.stats["last_redraw_s"] = time.perf_counter() - started

@@ -247,3 +247,22 @@ def test_fronts_overview_tracks(run, fronts):
     track_ids = {f"#{f.track}" for f in tracked if f.track is not None}
     assert track_ids <= set(style.stamp_texts(fig))
     assert any("lead time [h]" in t for t in style.stamp_texts(fig))
+
+
+def test_map_series_redraws_weather_only(run, fronts):
+    series = maps.MapSeries(run, sites=SITES)
+    t0, t1 = run["time"].values[0], run["time"].values[2]
+    png0 = series.draw(t0, fronts)
+    overlay = series._overlay
+    png1 = series.draw(t1, fronts)
+    assert png0[:8] == png1[:8] == b"\x89PNG\r\n\x1a\n" and png0 != png1
+    assert series._overlay is overlay  # coast, graticule and keys rendered once
+    title = next(t for t in series.fig.texts if t.get_gid() == "frontshift-title").get_text()
+    assert "12:00 UTC" in title and "T+12 h" in title
+    lines = [ln for ln in series.ax.lines if (ln.get_gid() or "").startswith("frontshift-front")]
+    assert len(lines) == sum(f.valid_time == t1 for f in fronts)  # only this time's fronts
+    assert CAUTION in style.stamp_texts(series.fig)
+    # the same colour levels at every time
+    levels = series.levels.copy()
+    series.draw(t0, fronts)
+    np.testing.assert_array_equal(series.levels, levels)

@@ -45,6 +45,7 @@ __all__ = [
     "fronts_through_time",
     "fronts_overview",
     "symbol_side",
+    "MapSeries",
 ]
 
 #: fields a map can shade: key -> (label, kit.thermo name)
@@ -248,16 +249,17 @@ def _map_xy(ax, ds):
     return cache[key]
 
 
-def colour_key(fig, mappable, label, *, ticks=None):
+def colour_key(fig, mappable, label, *, ticks=None, left=None, width=None):
     """Add a horizontal colour key centred in the band under the maps.
 
     Returns
     -------
     matplotlib.colorbar.Colorbar
     """
-    width, height = fig.get_size_inches()
-    key_w = min(0.6, 6.5 / width)
-    cax = fig.add_axes([(1 - key_w) / 2, (style.FOOTER_IN + 0.28) / height, key_w,
+    width_in, height = fig.get_size_inches()
+    key_w = width if width is not None else min(0.6, 6.5 / width_in)
+    x0 = left if left is not None else (1 - key_w) / 2
+    cax = fig.add_axes([x0, (style.FOOTER_IN + 0.28) / height, key_w,
                         0.12 / height])
     cax.set_gid("frontshift-colour-key")
     cb = fig.colorbar(mappable, cax=cax, orientation="horizontal", ticks=ticks)
@@ -670,14 +672,22 @@ def fronts_through_time(ds, fronts, *, times=None, level=850.0, field="theta_w",
         ax.set_title(f"{style.format_lead(lead)}   {pd.Timestamp(valid):%a %d %H UTC}",
                      fontsize=style.FONT["label"], loc="left", pad=3)
     label = FIELDS[field][0]
-    colour_key(fig, shading, f"{label} at {level:g} hPa [\u00b0C]")
-    if len(chosen) < len(axes):  # the key of symbols goes into the first empty slot
+    spare_slot = len(chosen) < len(axes)
+    colour_key(fig, shading, f"{label} at {level:g} hPa [\u00b0C]",
+               left=None if spare_slot else 0.06, width=None if spare_slot else 0.5)
+    if spare_slot:  # the key of symbols goes into the first empty slot
         spare = axes[len(chosen)]
         spare.set_visible(True)
         spare.axis("off")
         front_legend(spare, isobars=True, loc="center", isobar_text="MSLP every 8 hPa")
-    else:
-        front_legend(axes[-1], isobars=True, loc="lower right", isobar_text="MSLP every 8 hPa")
+    else:  # no spare slot: the key of symbols goes into the band under the maps, right
+        leg = front_legend(axes[-1], isobars=True, isobar_text="MSLP every 8 hPa")
+        handles, labels = leg.legend_handles, [t.get_text() for t in leg.get_texts()]
+        leg.remove()
+        width, height = fig.get_size_inches()
+        fig.legend(handles=handles, labels=labels, loc="lower right", ncol=2,
+                   bbox_to_anchor=(0.995, (style.FOOTER_IN + 0.02) / height),
+                   fontsize=style.FONT["small"], handlelength=4.5, framealpha=0.92)
     style.stamp(fig, run=ds.attrs.get("run", "unnamed run"), valid_time=(chosen[0], chosen[-1]),
                 lead_h=(style.lead_hours(ds, chosen[0]), style.lead_hours(ds, chosen[-1])),
                 source=ds, extra=f"Fronts at {level:g} hPa through the run"
@@ -760,3 +770,171 @@ def fronts_overview(ds, fronts, *, level=850.0, sites=None, member=None, width_i
                 + ("; #n = track" if last else ""))
     fig._frontshift.update(kind="fronts_overview", fronts=len(chosen), level=level)
     return fig
+
+
+class MapSeries:
+    """One map frame for a run, redrawn per valid time (fast: the frame is built once).
+
+    Coastlines, graticule, sites, the key of symbols and the colour key are drawn
+    once and rendered once as a transparent overlay; each :meth:`draw` renders
+    only the weather layer (shading, isobars, fronts, header) and lays the
+    overlay on top. The shading levels are the same for every valid time, so
+    colours compare through the run. After :meth:`draw`, :attr:`fig` is the
+    complete, stamped figure (for a PDF page or :func:`kit.export.save_figure`).
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run.
+    sites : pandas.DataFrame, optional
+        Sites to mark (``name, lat, lon``).
+    level : float
+        Front and shading level [hPa].
+    field : {"theta_w", "theta"}
+        Shaded field.
+    member : int, optional
+        Ensemble member (default the first).
+    levels : array_like, optional
+        Shading levels [degC]; default from the field at every valid time.
+    width_in : float
+        Figure width [inches].
+    dpi : int
+        Resolution of :meth:`draw`'s PNG [dots per inch].
+    """
+
+    def __init__(self, ds, *, sites=None, level=850.0, field="theta_w", member=None,
+                 levels=None, width_in=10.0, dpi=110):
+        import matplotlib.colors as mcolors
+        from matplotlib.cm import ScalarMappable
+
+        from kit.coast import add_coastlines
+
+        if field not in FIELDS:
+            raise InputError(f"field {field!r}: unknown; expected one of {', '.join(FIELDS)}")
+        self.ds, self.level, self.field = ds, float(level), field
+        self.member = _member_of(ds, member)
+        self.dpi = dpi
+        if levels is None:
+            fields = [level_field_c(select_time(ds, t, member=self.member)[0], field, level)
+                      for t in _times(ds)]
+            levels = style.thetaw_levels(np.concatenate([f.ravel() for f in fields]))
+        self.levels = np.asarray(levels, dtype=float)
+        self.sites = sites if sites is not None else pd.DataFrame(columns=["name", "lat", "lon"])
+        self.fig, self.ax = map_axes(ds, width_in=width_in)
+        add_coastlines(self.ax)
+        add_graticule(self.ax)
+        if len(self.sites):
+            draw_sites(self.ax, self.sites)
+        front_legend(self.ax, sites=len(self.sites) > 0)
+        norm = mcolors.BoundaryNorm(self.levels, style.THETAW_CMAP.N, extend="both")
+        colour_key(self.fig, ScalarMappable(norm=norm, cmap=style.THETAW_CMAP),
+                   f"{FIELDS[field][0]} at {self.level:g} hPa [\u00b0C]")
+        self.layer = []
+        # everything drawn so far is the static overlay
+        self.static = [a for a in self.ax.get_children() if a.get_visible()
+                       and a is not self.ax.patch and not isinstance(a, type(self.ax.spines.get(
+                           "geo", None)))]
+        self.static += [a for a in self.fig.axes if a is not self.ax]  # the colour key
+        self._overlay = None
+        self.fig._frontshift.update(kind="front_map", level=self.level, field=field)
+
+    def _clear(self):
+        for artist in self.layer:
+            try:
+                artist.remove()
+            except (ValueError, AttributeError, NotImplementedError):
+                pass
+        self.layer = []
+
+    def draw(self, time, fronts, *, site=None, run=None):
+        """Draw one valid time; return the map as PNG bytes.
+
+        Parameters
+        ----------
+        time : datetime-like
+            Valid time (UTC), one of the run's.
+        fronts : list of kit.fronts.Front
+            Fronts of the run (those at ``time``, on the level and member, are drawn).
+        site : pandas.Series, optional
+            A site to ring (``lat``, ``lon``).
+        run : str, optional
+            Run label for the header (default ``ds.attrs["run"]``).
+
+        Returns
+        -------
+        bytes
+            PNG.
+        """
+        ds = self.ds
+        ds_t, valid = select_time(ds, time, member=self.member)
+        drawn = _fronts_at(fronts, valid, self.level, self.member)
+        self._clear()
+        n_texts = len(self.ax.texts)
+        self.layer.append(draw_shading(self.ax, ds_t, field=self.field, level=self.level,
+                                       levels=self.levels))
+        cs = draw_isobars(self.ax, ds_t)
+        if cs is not None:
+            self.layer.append(cs)
+        self.layer.extend(draw_fronts(self.ax, drawn))
+        if site is not None:
+            (mark,) = self.ax.plot([site["lon"]], [site["lat"]], marker="o", markersize=11,
+                                   markerfacecolor="none", markeredgecolor="#111111",
+                                   markeredgewidth=1.8, transform=_pc(), zorder=10)
+            self.layer.append(mark)
+        self.layer.extend(self.ax.texts[n_texts:])  # isobar and speed labels of this layer
+        counts = {k: sum(f.kind == k for f in drawn) for k in style.FRONT_COLOURS}
+        summary = ", ".join(f"{n} {style.KIND_LABELS[k]}{'s' if n != 1 else ''}"
+                            for k, n in counts.items() if n) or "no fronts found"
+        extra = (f"Fronts at {self.level:g} hPa on {FIELDS[self.field][0]}"
+                 + (f" (member {self.member})" if self.member is not None else "")
+                 + f": {summary}")
+        style.stamp(self.fig, run=run or ds.attrs.get("run", "unnamed run"), valid_time=valid,
+                    lead_h=style.lead_hours(ds, valid), source=ds, extra=extra)
+        self.fig._frontshift.update(fronts=len(drawn), valid_time=valid)
+        self.drawn = drawn
+        return self._composite()
+
+    def _render(self, show_static, show_layer, transparent):
+        """Draw the figure with some artists hidden; return the RGBA pixels."""
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+        canvas = self.fig.canvas if isinstance(self.fig.canvas, FigureCanvasAgg) else (
+            FigureCanvasAgg(self.fig))
+        saved_dpi = self.fig.dpi
+        self.fig.dpi = self.dpi
+        hidden = [a for a in self.static if not show_static] + [
+            a for a in self.layer if not show_layer]
+        stamp_artists = [a for a in (self.fig._frontshift.get("artists") or {}).values()
+                         if a is not None]
+        hidden += [a for a in stamp_artists if not show_layer]
+        patches = [self.fig.patch, self.ax.patch]
+        alphas = [p.get_alpha() for p in patches]
+        try:
+            for a in hidden:
+                a.set_visible(False)
+            if transparent:
+                for p in patches:
+                    p.set_alpha(0.0)
+            canvas.draw()
+            rgba = np.asarray(canvas.buffer_rgba()).copy()
+        finally:
+            for a in hidden:
+                a.set_visible(True)
+            for p, alpha in zip(patches, alphas, strict=True):
+                p.set_alpha(alpha)
+            self.fig.dpi = saved_dpi
+        return rgba
+
+    def _composite(self):
+        """Compose the weather layer under the static overlay; PNG bytes."""
+        import io
+
+        from PIL import Image
+
+        if self._overlay is None:
+            self._overlay = Image.fromarray(self._render(True, False, True), "RGBA")
+        base = Image.fromarray(self._render(False, True, False), "RGBA")
+        out = Image.alpha_composite(base, self._overlay)
+        buf = io.BytesIO()
+        out.convert("RGB").save(buf, format="PNG", compress_level=1)
+        return buf.getvalue()

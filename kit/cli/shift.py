@@ -316,7 +316,14 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
 
     from kit.briefing import BriefingPack
     from kit.charts import maps
-    from kit.export import new_product_dir, write_csv, write_html_table, write_json, write_text
+    from kit.export import (
+        new_product_dir,
+        write_bytes,
+        write_csv,
+        write_html_table,
+        write_json,
+        write_text,
+    )
     from kit.fronts import fronts_table, fronts_to_geojson
 
     if not 100.0 <= float(level) <= 1050.0:
@@ -429,10 +436,16 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
                                                      sites=sites),
                             f"maps/through_run_{_slug(label)}.png", "through_run",
                             pack=in_pack, run=label)
+            # one map frame per run, redrawn per valid time (same colours through the run)
+            series = maps.MapSeries(ds, sites=sites, level=level, field=field)
             for t in map_times[k]:
-                fig = maps.front_map(ds, fronts, time=t, level=level, field=field, sites=sites)
-                products.figure(fig, f"maps/map_{_slug(label)}_{pd.Timestamp(t):%Y%m%dT%H%MZ}"
-                                ".png", "map", pack=in_pack, run=label, valid_time=_iso(t))
+                png = series.draw(t, fronts, run=label)
+                rel = f"maps/map_{_slug(label)}_{pd.Timestamp(t):%Y%m%dT%H%MZ}.png"
+                if in_pack is not None:
+                    in_pack.add_figure(series.fig, title="map")
+                products.add(write_bytes(tmp / rel, png), "map", run=label, valid_time=_iso(t),
+                             fronts=series.fig._frontshift.get("fronts", 0))
+            series.fig.clear()
 
         # sections through the sites across the passing fronts (newest run)
         for site, front, ds in section_jobs:
