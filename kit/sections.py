@@ -708,7 +708,8 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
 
     if "precip" in flat:
         sec["precip"] = ("distance", flat["precip"].values.astype(float),
-                         {"units": "mm h-1", "long_name": "surface precipitation rate"})
+                         {"units": "mm h-1", "long_name": "surface precipitation "
+                         "rate over the model step ending at the valid time"})
     if "t2m" in flat and "td2m" in flat:
         psfc = (flat["mslp"].values / 100.0) if "mslp" in flat else np.full(dist.shape, 1013.25)
         sec["theta_w_surface"] = ("distance", np.asarray(thermo.wet_bulb_potential_temperature(

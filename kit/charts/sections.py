@@ -287,6 +287,10 @@ def draw_section(ax, strip, sec):
                                                lw=0, zorder=2, gid="precip")
             top = max(1.0, float(np.nanmax(pr)) * 1.3) if np.isfinite(pr).any() else 1.0
             strip.set_ylim(0, top)
+            strip.text(0.995, 0.93, "rate over the model step ending at the valid time",
+                       transform=strip.transAxes, ha="right", va="top",
+                       fontsize=FONT["small"] - 1.0, color=BRIEFING_COLOURS["muted"], zorder=3,
+                       gid="precip-note")
         else:
             strip.set_ylim(0, 1)
             strip.text(0.99, 0.5, "no precipitation field in this run", ha="right",
