@@ -68,6 +68,7 @@ from kit.sites import _extent_text, _local_en, grid_positions, read_sites
 __all__ = [
     "CONTRACT_COLUMNS",
     "EXTRA_COLUMNS",
+    "COLUMN_NOTES",
     "PRECIP_THRESHOLD_MMH",
     "CLOUD_RH",
     "SNOW_WBFL_M",
@@ -118,8 +119,8 @@ EXTRA_COLUMNS = [
     "thetaw_change_k",
     "wet_bulb_freezing_level_before_m",
     "wet_bulb_freezing_level_after_m",
-    "cloud_base_before_ft",
-    "cloud_base_min_ft",
+    "cloud_base_before_ft_agl",
+    "cloud_base_min_ft_agl",
     "cloud_base_min_utc",
     "fzra_start_utc",
     "fzra_end_utc",
@@ -130,6 +131,53 @@ EXTRA_COLUMNS = [
     "rule_rain_to_utc",
     "note",
 ]
+
+#: what each column means, in a forecaster's words (units in brackets)
+COLUMN_NOTES = {
+    "site": "site name from the site list",
+    "front_kind": "warm, cold or quasi-stationary; empty on a 'no passage' row",
+    "passage_utc": "time the surface front (zone centre) crosses the site [UTC]",
+    "speed_kt": "speed of the front across the site [kt]",
+    "precip_start_utc": "start of the model's wet spell around the passage [UTC, to the step]",
+    "precip_end_utc": "end of that wet spell [UTC, to the step]",
+    "wind_before_deg": "10-m wind direction 3 h before the passage [degrees from]",
+    "wind_after_deg": "10-m wind direction 3 h after the passage [degrees from]",
+    "wind_turn_deg": "after minus before, positive clockwise (veer in the north) [degrees]",
+    "temp_change_c": "2-m temperature after minus before [C]",
+    "freezing_level_before_m": "0 C level 3 h before [m above mean sea level]",
+    "freezing_level_after_m": "0 C level 3 h after [m above mean sea level]",
+    "spread_h": "latest minus earliest passage over runs/members [h]",
+    "run": "model run label",
+    "member": "ensemble member (empty for a single run)",
+    "track": "front track id within the run",
+    "level_hpa": "level the front line was found on [hPa]",
+    "extrapolated": "yes when the passage lies beyond the front's last step",
+    "surface_offset_km": "line moved toward the warm side to the surface by its slope [km]",
+    "zone_centre_offset_km": "line moved toward the cold side to the zone centre [km]",
+    "passage_earliest_utc": "earliest passage of this front over runs/members [UTC]",
+    "passage_median_utc": "median passage [UTC]",
+    "passage_latest_utc": "latest passage [UTC]",
+    "runs_with_passage": "how many runs/members show this passage",
+    "precip_total_mm": "total of the wet spell [mm]",
+    "precip_peak_mm_h": "highest rate in the wet spell [mm/h]",
+    "wind_before_kt": "10-m wind speed before [kt]",
+    "wind_after_kt": "10-m wind speed after [kt]",
+    "dewpoint_change_c": "2-m dew point after minus before [C]",
+    "thetaw_change_k": "theta-w at the front's level after minus before [K]",
+    "wet_bulb_freezing_level_before_m": "wet-bulb 0 C level before [m above mean sea level]",
+    "wet_bulb_freezing_level_after_m": "wet-bulb 0 C level after [m above mean sea level]",
+    "cloud_base_before_ft_agl": "lowest level with RH >= 95 % 3 h before [ft above site]",
+    "cloud_base_min_ft_agl": "lowest such level from 12 h before to 3 h after [ft above site]",
+    "cloud_base_min_utc": "time of that lowest base [UTC]",
+    "fzra_start_utc": "first step with air above 0 C aloft over sub-zero ground air [UTC]",
+    "fzra_end_utc": "last such step (freezing rain / ice pellets possible) [UTC]",
+    "fzra_warm_layer_max_c": "warmest temperature in that layer aloft [C]",
+    "snow_risk": "yes when the wet-bulb 0 C level is < 300 m above the site while wet",
+    "rule_rain_what": "which rule of thumb (common practice, no source)",
+    "rule_rain_from_utc": "rule-of-thumb window start [UTC]",
+    "rule_rain_to_utc": "rule-of-thumb window end [UTC]",
+    "note": "plain-words remarks: misses, extrapolation, type changes",
+}
 
 #: precipitation rate that counts as "raining" [mm h-1] (common practice, no source)
 PRECIP_THRESHOLD_MMH = 0.2
@@ -1101,14 +1149,14 @@ def weather_sequence(
         )
     # cloud base proxy [ft above site]
     cb = np.asarray(series["cloud_base_m"].values, dtype=float)
-    row["cloud_base_before_ft"] = _round(at("cloud_base_m", hb) * _FT_PER_M, -2)
+    row["cloud_base_before_ft_agl"] = _round(at("cloud_base_m", hb) * _FT_PER_M, -2)
     win = (th >= passage_h - 12.0) & (th <= passage_h + window_h) & np.isfinite(cb)
     if win.any():
         k = np.nonzero(win)[0][int(np.argmin(cb[win]))]
-        row["cloud_base_min_ft"] = _round(cb[k] * _FT_PER_M, -2)
+        row["cloud_base_min_ft_agl"] = _round(cb[k] * _FT_PER_M, -2)
         row["cloud_base_min_utc"] = format_utc(series["time"].values[k])
     else:
-        row["cloud_base_min_ft"], row["cloud_base_min_utc"] = np.nan, ""
+        row["cloud_base_min_ft_agl"], row["cloud_base_min_utc"] = np.nan, ""
     # freezing rain / ice pellets: warm layer aloft over sub-zero ground air
     wl = np.asarray(series["warm_layer_max_c"].values, dtype=float)
     lo, hi = (24.0, window_h) if front_kind in ("warm", "quasi-stationary") else (window_h, 12.0)

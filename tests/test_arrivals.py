@@ -623,3 +623,9 @@ def test_scenario_freezing_rain_site(scenario_table):
     # profiles without a warm layer aloft: Kelmarra, far west of the cold pool
     kel = table[(table["site"] == "Kelmarra")]
     assert (kel["fzra_start_utc"] == "").all()
+
+
+def test_every_column_is_described():
+    from kit.arrivals import COLUMN_NOTES, EXTRA_COLUMNS
+
+    assert set(COLUMN_NOTES) == set(CONTRACT_COLUMNS + EXTRA_COLUMNS)

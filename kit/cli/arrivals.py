@@ -112,7 +112,10 @@ def run(args):
         frame["caution"] = CAUTION
         write_csv(out, frame, overwrite=args.overwrite)
     else:
-        title = f"Front arrivals at {len(sites)} sites: runs {labels} (times UTC, speeds kt)"
+        title = (
+            f"Front arrivals at {len(sites)} sites: runs {labels} (times UTC, speeds kt, "
+            "freezing levels m above sea level, cloud base ft above site)"
+        )
         write_html_table(out, table, title, CAUTION, overwrite=args.overwrite)
     n_pass = int((table["passage_utc"] != "").sum())
     print(f"{n_pass} passages at {len(sites)} sites from {len(runs)} run(s) written to {out}")
