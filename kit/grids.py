@@ -607,15 +607,38 @@ def _check_classic_complete(path):
 _SMALL_FILE_BYTES = 64 * 2**20
 
 
+def _step_dims(ds):
+    """Dimensions that index steps or members (chunked one by one for large files)."""
+    names = {"time", "valid_time", "Time", "t", *_LEAD_NAMES, *_MEMBER_NAMES, *_REF_NAMES}
+    out = []
+    for dim in ds.dims:
+        c = ds.coords.get(dim)
+        attrs = c.attrs if c is not None else {}
+        if (
+            dim in names
+            or attrs.get("axis") == "T"
+            or attrs.get("standard_name") in ("time", "forecast_period", "realization")
+        ):
+            out.append(dim)
+    return out
+
+
 def _open_file(path, chunks):
     _check_netcdf_file(path)
-    if isinstance(chunks, str) and chunks == "auto" and path.stat().st_size < _SMALL_FILE_BYTES:
-        chunks = {}
     kwargs = dict(engine="netcdf4", decode_timedelta=True, mask_and_scale=True)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", category=xr.SerializationWarning)
-            ds = xr.open_dataset(path, chunks=chunks, **kwargs)
+            ds = xr.open_dataset(path, chunks=None if chunks == "auto" else chunks, **kwargs)
+            if isinstance(chunks, str) and chunks == "auto":
+                if path.stat().st_size < _SMALL_FILE_BYTES:
+                    ds = ds.chunk({})
+                else:
+                    # one step/member per chunk, dask sizes the rest: reading the
+                    # first step (value checks) or one level never reads the file whole
+                    plan = {d: "auto" for d in ds.dims}
+                    plan.update({d: 1 for d in _step_dims(ds)})
+                    ds = ds.chunk(plan)
     except Exception as exc:
         raise _err(
             path,
