@@ -439,7 +439,9 @@ def site_series(ds, site):
         [C], ``warm_layer_base_m``, ``warm_layer_top_m`` [m above mean sea level]
         and ``cold_layer_min_c`` [C] (a layer above 0 C aloft over sub-zero air at
         the ground, NaN where none); ``wind_dir_deg`` [degrees from],
-        ``wind_speed_ms`` [m s-1] at 10 m. ``attrs``: site, lat, lon,
+        ``wind_speed_ms`` [m s-1], ``wind_u_ms``, ``wind_v_ms`` [m s-1] at 10 m
+        (the lowest level above the site without 10-m wind; absent without
+        any wind). ``attrs``: site, lat, lon,
         elevation_m, elevation_assumed, run, source.
 
     Raises
@@ -564,13 +566,17 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
     }
     for k in names:
         s[k] = (lead, res[k], {"units": units[k]})
+    u = v = None
     if "u10" in s and "v10" in s:
         u, v = s["u10"], s["v10"]
-    else:  # lowest level above the ground stands in for 10 m
+    elif "u" in s and "v" in s:  # lowest level above the ground stands in for 10 m
         above = (s["z"] > z_sfc).argmax("level")
         u, v = s["u"].isel(level=above), s["v"].isel(level=above)
-    s["wind_dir_deg"] = xr.apply_ufunc(_wind_dir, u, v).assign_attrs(units="degrees (from)")
-    s["wind_speed_ms"] = np.hypot(u, v).assign_attrs(units="m s-1")
+    if u is not None:  # a run without wind leaves the wind cells empty
+        s["wind_u_ms"] = u.assign_attrs(units="m s-1", long_name="eastward wind near 10 m")
+        s["wind_v_ms"] = v.assign_attrs(units="m s-1", long_name="northward wind near 10 m")
+        s["wind_dir_deg"] = xr.apply_ufunc(_wind_dir, u, v).assign_attrs(units="degrees (from)")
+        s["wind_speed_ms"] = np.hypot(u, v).assign_attrs(units="m s-1")
     s.attrs.update(
         site=name,
         lat=lat,
@@ -1106,14 +1112,11 @@ def weather_sequence(
         return _interp(th, np.asarray(series[var].values, dtype=float), h)
 
     # wind
-    ub, vb = at("u10", hb), at("v10", hb)
-    ua, va = at("u10", ha), at("v10", ha)
-    if "u10" not in series:
-        db, da_ = at("wind_dir_deg", hb), at("wind_dir_deg", ha)
-        sb, sa = at("wind_speed_ms", hb), at("wind_speed_ms", ha)
-    else:
-        db, da_ = float(_wind_dir(ub, vb)), float(_wind_dir(ua, va))
-        sb, sa = float(np.hypot(ub, vb)), float(np.hypot(ua, va))
+    # wind: interpolate the components in time, never the direction
+    ub, vb = at("wind_u_ms", hb), at("wind_v_ms", hb)
+    ua, va = at("wind_u_ms", ha), at("wind_v_ms", ha)
+    db, da_ = float(_wind_dir(ub, vb)), float(_wind_dir(ua, va))
+    sb, sa = float(np.hypot(ub, vb)), float(np.hypot(ua, va))
     turn = np.nan
     if np.isfinite(db) and np.isfinite(da_):
         turn = (da_ - db + 180.0) % 360.0 - 180.0

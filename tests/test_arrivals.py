@@ -629,3 +629,61 @@ def test_every_column_is_described():
     from kit.arrivals import COLUMN_NOTES, EXTRA_COLUMNS
 
     assert set(COLUMN_NOTES) == set(CONTRACT_COLUMNS + EXTRA_COLUMNS)
+
+
+def test_passage_across_the_dateline_southern_hemisphere():
+    """[analytic] a cold front crossing 180 degrees at 45 S on a grid contiguous across
+    the dateline (165..195 E), site given as -179.5: passage at the prescribed 07:36Z
+    within 10 minutes; the wind backs (southern hemisphere) [trade]."""
+    ds, fronts = make_run(kind="cold", passage_h=7.6, lat_site=-45.0, lon_site=180.5)
+    table = arrival_table([ds], site_frame(lat=-45.0, lon=-179.5), [fronts], surface=False)
+    row = table.iloc[0]
+    assert row["front_kind"] == "cold"
+    assert abs(hours_of(row["passage_utc"]) - 7.6) <= 10 / 60
+    assert row["wind_turn_deg"] < 0
+
+
+def test_site_series_projected_grid():
+    """[lib] on a Lambert conformal grid (pyproj) a field linear in x and y is
+    interpolated exactly at the site (bilinear), and the profile work runs."""
+    pyproj = pytest.importorskip("pyproj")
+    crs = pyproj.CRS.from_proj4("+proj=lcc +lat_1=45 +lat_2=55 +lat_0=50 +lon_0=5 +R=6371000")
+    to_ll = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
+    x = np.arange(-300e3, 300e3 + 1, 20e3)
+    y = np.arange(-200e3, 200e3 + 1, 20e3)
+    xx, yy = np.meshgrid(x, y)
+    lon2, lat2 = to_ll.transform(xx, yy)
+    times = T0 + np.arange(3) * np.timedelta64(3, "h")
+    shape3, shape4 = (3, y.size, x.size), (3, LEVELS.size, y.size, x.size)
+    t2m = 275.0 + 1e-5 * xx + 2e-5 * yy
+    tcol = 280.0 - 0.0065 * std_height(LEVELS)
+    ds = xr.Dataset(
+        {
+            "t": (("time", "level", "y", "x"), np.broadcast_to(tcol[None, :, None, None], shape4)),
+            "td": (
+                ("time", "level", "y", "x"),
+                np.broadcast_to(tcol[None, :, None, None] - 2, shape4),
+            ),
+            "z": (
+                ("time", "level", "y", "x"),
+                np.broadcast_to(std_height(LEVELS)[None, :, None, None], shape4),
+            ),
+            "t2m": (("time", "y", "x"), np.broadcast_to(t2m, shape3)),
+            "td2m": (("time", "y", "x"), np.broadcast_to(t2m - 2, shape3)),
+        },
+        coords={
+            "time": times,
+            "level": LEVELS,
+            "y": y,
+            "x": x,
+            "lat": (("y", "x"), lat2),
+            "lon": (("y", "x"), lon2),
+        },
+        attrs={"grid": "projected", "run": "2027-01-14T00Z", "source": "synthetic"},
+    )
+    px, py = 57.3e3, -81.9e3
+    plon, plat = to_ll.transform(px, py)
+    s = site_series(ds, {"name": "Grimsay Knoll", "lat": plat, "lon": plon, "elevation_m": 0.0})
+    np.testing.assert_allclose(s["t2m"].values, 275.0 + 1e-5 * px + 2e-5 * py, atol=2e-3)
+    # 0 C level of the column: 280 K - 6.5 K/km, 6.85 C at the ground -> ~1054 m [analytic]
+    assert np.all(np.abs(s["freezing_level_m"].values - 6.85 / 0.0065) < 60)

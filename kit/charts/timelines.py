@@ -155,31 +155,41 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             ax_p.set_ylim(0, max(1.0, float(np.nanmax(series["precip"].values))) * 1.3)
         ax_p.set_ylabel("[mm/h]")
         # wind barbs at 10 m [kt]
-        u = series["u10"].values if "u10" in series else None
-        v = series["v10"].values if "v10" in series else None
-        if u is None:
-            spd, dr = series["wind_speed_ms"].values, np.radians(series["wind_dir_deg"].values)
-            u, v = -spd * np.sin(dr), -spd * np.cos(dr)
-        ax_w.barbs(
-            mdates.date2num(times),
-            np.full(times.size, 0.6),
-            u * _KT_PER_MS,
-            v * _KT_PER_MS,
-            length=6.2,
-            color=BRIEFING_COLOURS["wind"],
-            lw=0.9,
-            flip_barb=bool(series.attrs.get("lat", 0.0) < 0),
-        )
-        for tt, uu, vv in zip(times, u, v, strict=True):
-            d = (270.0 - np.degrees(np.arctan2(vv, uu))) % 360.0
+        if "wind_u_ms" in series:
+            u, v = series["wind_u_ms"].values, series["wind_v_ms"].values
+            ax_w.barbs(
+                mdates.date2num(times),
+                np.full(times.size, 0.6),
+                u * _KT_PER_MS,
+                v * _KT_PER_MS,
+                length=6.2,
+                color=BRIEFING_COLOURS["wind"],
+                lw=0.9,
+                flip_barb=bool(series.attrs.get("lat", 0.0) < 0),
+            )
+            for tt, uu, vv in zip(times, u, v, strict=True):
+                if not (np.isfinite(uu) and np.isfinite(vv)):
+                    continue
+                d = (270.0 - np.degrees(np.arctan2(vv, uu))) % 360.0
+                ax_w.text(
+                    mdates.date2num(tt),
+                    0.12,
+                    f"{d:03.0f}/{np.hypot(uu, vv) * _KT_PER_MS:.0f}",
+                    ha="center",
+                    va="center",
+                    fontsize=FONT["small"] - 0.5,
+                    color=INK,
+                )
+        else:
             ax_w.text(
-                mdates.date2num(tt),
-                0.12,
-                f"{d:03.0f}/{np.hypot(uu, vv) * _KT_PER_MS:.0f}",
+                0.5,
+                0.5,
+                "no wind in the run",
+                transform=ax_w.transAxes,
                 ha="center",
                 va="center",
-                fontsize=FONT["small"] - 0.5,
-                color=INK,
+                fontsize=FONT["small"],
+                color=BRIEFING_COLOURS["muted"],
             )
         ax_w.set_ylim(0, 1.15)
         ax_w.set_yticks([])
