@@ -620,7 +620,6 @@ def _dist_to_lines_km(lon, lat, lines):
 
 
 @pytest.mark.slow
-@pytest.mark.skipif(not (SAMPLE / "truth.json").exists(), reason="sample_grids not written yet")
 @pytest.mark.parametrize("which", SETS)
 def test_demo_scenario_lines_and_types(which):
     from kit.grids import open_run
