@@ -72,6 +72,7 @@ __all__ = [
     "PRECIP_THRESHOLD_MMH",
     "CLOUD_RH",
     "SNOW_WBFL_M",
+    "LIGHT_WIND_KT",
     "site_series",
     "signed_distance_km",
     "find_passages",
@@ -186,6 +187,8 @@ CLOUD_RH = 0.95
 #: wet-bulb 0 C level under which precipitation is likely snow [m above site]
 #: (common practice, no source)
 SNOW_WBFL_M = 300.0
+#: wind speed under which a wind turn is flagged as uncertain [kt] (common practice, no source)
+LIGHT_WIND_KT = 3.0
 #: typical slopes 1:N when the front has none (REFERENCES.md, [trade])
 TYPICAL_SLOPE_1_IN = {"warm": 150.0, "cold": 50.0}
 #: distance from the locating line to the zone centre per |grad tau| / TFP [1]. For a
@@ -1100,7 +1103,8 @@ def weather_sequence(
     dict
         Table cells (see :data:`CONTRACT_COLUMNS`, :data:`EXTRA_COLUMNS`);
         NaN or "" where a value does not apply. Wind turn is signed, positive
-        clockwise (a veer in the northern hemisphere).
+        clockwise (a veer in the northern hemisphere). ``wind_note`` says when
+        the wind is under :data:`LIGHT_WIND_KT` (turn uncertain), else "".
     """
     th = _hours(series["time"].values)
     hb, ha = passage_h - window_h, passage_h + window_h
@@ -1125,6 +1129,8 @@ def weather_sequence(
         _round(360.0 if round(da_) == 0 else da_) if np.isfinite(da_) else np.nan
     )
     row["wind_turn_deg"] = _round(turn)
+    # a direction in light air means little (common practice, no source)
+    light = min(sb, sa) * _KT_PER_MS < LIGHT_WIND_KT if np.isfinite(turn) else False
     row["wind_before_kt"] = _round(sb * _KT_PER_MS)
     row["wind_after_kt"] = _round(sa * _KT_PER_MS)
     # temperatures
@@ -1183,6 +1189,7 @@ def weather_sequence(
             if low.any()
             else "no"
         )
+    row["wind_note"] = f"wind under {LIGHT_WIND_KT:g} kt: turn uncertain" if light else ""
     # rule of thumb (common practice, no source)
     row.update(rule_rain_what="", rule_rain_from_utc="", rule_rain_to_utc="")
     if np.isfinite(speed_kt) and speed_kt >= 5.0:
@@ -1430,6 +1437,9 @@ def arrival_table(
                                 level_hpa=p["level_hpa"] or level,
                             )
                         )
+                        extra = r.pop("wind_note", "")
+                        if extra:
+                            r["note"] = (r["note"] + "; " if r["note"] else "") + extra
                         if series.attrs.get("elevation_assumed"):
                             r["note"] = (
                                 r["note"] + "; " if r["note"] else ""

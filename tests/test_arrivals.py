@@ -687,3 +687,12 @@ def test_site_series_projected_grid():
     np.testing.assert_allclose(s["t2m"].values, 275.0 + 1e-5 * px + 2e-5 * py, atol=2e-3)
     # 0 C level of the column: 280 K - 6.5 K/km, 6.85 C at the ground -> ~1054 m [analytic]
     assert np.all(np.abs(s["freezing_level_m"].values - 6.85 / 0.0065) < 60)
+
+
+def test_light_wind_turn_flagged():
+    """[trade] a wind turn in light air is flagged as uncertain (common practice)."""
+    ds, fronts = make_run(kind="cold", passage_h=12.0)
+    ds["u10"] = ds["u10"] * 0.1  # 1.5 m/s = 2.9 kt
+    ds["v10"] = ds["v10"] * 0.1
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    assert "turn uncertain" in row["note"]
