@@ -753,3 +753,60 @@ def test_speeds_across_the_dateline():
     # mean over the line 170 E..170 W of a wind linear in longitude: 11 m/s
     assert fr.props["speed_wind_ms"] == pytest.approx(11.0, abs=0.01)
     assert fr.props["speed_geostrophic_normal_ms"] == pytest.approx(0.0, abs=1e-9)
+
+
+def test_analyse_run_on_a_projected_grid():
+    # the translating, sloping theta-w zone of test_analyse_run_translating_zone
+    # on a Lambert conformal grid (2-D lat/lon, 30 km): same answers [derived]
+    pyproj = pytest.importorskip("pyproj")
+    from kit.motion import analyse_run
+
+    crs = pyproj.CRS.from_proj4("+proj=lcc +lat_1=40 +lat_2=55 +lat_0=48 +lon_0=-10 +R=6371008.8")
+    tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
+    x = np.arange(-1500e3, 1500.1e3, 30e3)
+    y = np.arange(-900e3, 1500.1e3, 30e3)
+    xx, yy = np.meshgrid(x, y)
+    lon2, lat2 = tr.transform(xx, yy)
+    n_times, c_ms, v_wind, n_slope = 4, 9.0, 13.5, 150.0
+    levels = list(Z_STD)
+    y_km = R_KM * np.deg2rad(lat2 - 45.0)
+    t = np.empty((n_times, len(levels)) + xx.shape)
+    for i in range(n_times):
+        for k, lv in enumerate(levels):
+            yf = c_ms * i * 3 * 3.6 + n_slope * Z_STD[lv] / 1e3
+            t[i, k] = saturated_t_for_theta_w(284.0 - 4.0 * np.tanh((y_km - yf) / 100.0), lv)
+    dims = ("time", "level", "y", "x")
+    x_km = R_KM * np.cos(np.deg2rad(lat2)) * np.deg2rad(lon2 + 10.0)
+    ds = xr.Dataset(
+        {
+            "t": (dims, t),
+            "td": (dims, t.copy()),
+            "u": (dims, np.full(t.shape, 2.0)),
+            "v": (dims, np.full(t.shape, v_wind)),
+            "z": (
+                dims,
+                np.broadcast_to(np.array(list(Z_STD.values()))[None, :, None, None], t.shape),
+            ),
+            "mslp": (
+                ("time", "y", "x"),
+                np.broadcast_to(101000.0 + DPDX * x_km, (n_times,) + xx.shape),
+            ),
+        },
+        coords={
+            "time": [hours(3 * i) for i in range(n_times)],
+            "level": levels,
+            "y": y,
+            "x": x,
+            "lat": (("y", "x"), lat2),
+            "lon": (("y", "x"), lon2),
+            "reference_time": np.datetime64(T0, "ns"),
+        },
+        attrs={"grid": "projected", "dx_m": 30e3, "dy_m": 30e3, "run": "lcc-test"},
+    )
+    fronts = [f for f in analyse_run(ds) if f.length_km > 1000]
+    assert len(fronts) == n_times and len({f.track for f in fronts}) == 1
+    for f in fronts:
+        assert f.kind == "warm"
+        assert f.props["speed_tracked_ms"] == pytest.approx(c_ms, rel=0.05)
+        assert f.props["speed_wind_ms"] == pytest.approx(v_wind, rel=0.01)
+        assert f.props["slope_1_in"] == pytest.approx(n_slope, rel=0.10)
