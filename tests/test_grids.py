@@ -930,7 +930,7 @@ _HUM = [
 
 
 @settings(
-    max_examples=20,
+    max_examples=12,
     deadline=None,
     derandomize=True,
     print_blob=True,
