@@ -106,7 +106,19 @@ time as ``reference_time``. ``attrs["run"]`` is a label like
 
 Several files of one run are combined by valid time (and by member where each
 file holds one member); files on different grids, levels or members raise an
-InputError naming both files and what differs.
+InputError naming both files and what differs. An optional field missing from
+some files (precipitation at lead 0, say) is NaN there (an accumulation is 0
+at the run start). Valid times out of order are sorted; a valid time given
+twice is an error.
+
+Attributes of the result
+------------------------
+``run`` (label), ``source`` (file names), ``grid`` (``latlon`` or
+``projected``), ``dx_m``/``dy_m`` [m] on projected grids, ``wind_rotation``
+(what was done to the winds), ``variables_from`` (``t<-TMP, ...``: which file
+variable filled each role) and ``kind == "analyses"`` for a folder of
+analyses. A file's scalar ensemble coordinate (e.g. ``number`` of a single
+member) is kept as a scalar ``member`` coordinate.
 """
 
 import functools
@@ -2144,6 +2156,29 @@ def to_canonical(raw, *, source="dataset", member=None):
     -------
     xarray.Dataset
         The canonical Dataset (see the module docstring and DEVELOPERS.md).
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> def field(value, units, std):
+    ...     return (("time", "plev", "lat", "lon"), np.full((1, 2, 3, 3), value),
+    ...             {"units": units, "standard_name": std})
+    >>> raw = xr.Dataset(
+    ...     {"ta": field(5.0, "degC", "air_temperature"),
+    ...      "hur": field(80.0, "%", "relative_humidity"),
+    ...      "ua": field(10.0, "knots", "eastward_wind"),
+    ...      "va": field(0.0, "m s-1", "northward_wind"),
+    ...      "zg": field(1400.0, "m", "geopotential_height")},
+    ...     coords={"time": [np.datetime64("2027-01-14T06", "ns")],
+    ...             "plev": ("plev", [85000.0, 100000.0], {"units": "Pa"}),
+    ...             "lat": [52.0, 51.0, 50.0], "lon": [0.0, 1.0, 2.0]})
+    >>> ds = to_canonical(raw)
+    >>> ds["level"].values.tolist(), ds["lat"].values.tolist()
+    ([1000.0, 850.0], [50.0, 51.0, 52.0])
+    >>> round(float(ds["t"][0, 0, 0, 0]), 2), round(float(ds["u"][0, 0, 0, 0]), 3)
+    (278.15, 5.144)
+    >>> ds.attrs["run"]
+    '2027-01-14T06Z'
     """
     if not isinstance(raw, xr.Dataset):
         raise _err(source, f"expected an xarray.Dataset, got {type(raw).__name__}")
