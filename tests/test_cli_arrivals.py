@@ -13,7 +13,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from conftest import to_cf, write_cf
-from test_arrivals import hours_of, make_run
+from test_arrivals import EDGE_X, ZONE_L_KM, hours_of, make_run
 
 import kit.motion
 from kit import CAUTION
@@ -133,7 +133,9 @@ def test_bad_suffix_and_subprocess_no_traceback(tmp_path, sites_csv):
 
 
 def test_member_run_spread_through_cli(tmp_path, sites_csv, monkeypatch):
-    """[analytic] members 0, +1.5, -2 h apart: spread 3.5 h in the product."""
+    """[analytic] members 0, +1.5, -2 h apart: spread 3.5 h in the product; with
+    --warm-edge the cold front's warm edge, 0.658 L = 39.5 km ahead of the zone
+    centre, passes 1.10 h before 12:00Z (member 0)."""
     ds, fronts = make_run(
         kind="cold", passage_h=12.0, members=[0.0, 1.5, -2.0], grid_step=1.0, hours=HOURS
     )
@@ -141,10 +143,24 @@ def test_member_run_spread_through_cli(tmp_path, sites_csv, monkeypatch):
     monkeypatch.setattr(kit.motion, "analyse_run", lambda ds, **kw: fronts)
     out = tmp_path / "ens.csv"
     assert (
-        main(["arrivals", str(path), "--sites", str(sites_csv), "--out", str(out), "--at-level"])
+        main(
+            [
+                "arrivals",
+                str(path),
+                "--sites",
+                str(sites_csv),
+                "--out",
+                str(out),
+                "--at-level",
+                "--warm-edge",
+            ]
+        )
         == 0
     )
     table = pd.read_csv(out, keep_default_na=False)
     kessock = table[table["site"] == "Kessock Moor"]
     assert sorted(kessock["member"].tolist()) == [0, 1, 2]
     assert np.allclose(kessock["spread_h"].astype(float), 3.5, atol=10 / 60)
+    first = kessock[kessock["member"] == 0].iloc[0]
+    lag = EDGE_X * ZONE_L_KM / 36.0  # km over km/h at 10 m/s
+    assert abs(hours_of(first["passage_utc"]) - (12.0 - lag)) <= 10 / 60

@@ -61,13 +61,19 @@ def add_parser(subparsers):
         type=float,
         default=12.0,
         metavar="H",
-        help="longest extrapolation past the last step [h] (default 12)",
+        help="longest extrapolation past a front's last step [h] (default 12)",
     )
     p.add_argument(
         "--at-level",
         action="store_true",
         help="time the passage of the line on --level itself instead of the "
         "surface front estimated from the slope",
+    )
+    p.add_argument(
+        "--warm-edge",
+        action="store_true",
+        help="time the warm edge of the frontal zone (where the located line lies) "
+        "instead of its centre, the middle of the temperature change",
     )
     p.set_defaults(func=run)
 
@@ -103,6 +109,7 @@ def run(args):
         sites,
         level=args.level,
         surface=not args.at_level,
+        zone_centre=not args.warm_edge,
         horizon_h=args.horizon_h,
         return_series=True,
     )
