@@ -687,7 +687,10 @@ def smooth(field, ds, scale_km):
     every latitude (capped at a sixth of the circle near the poles). The
     filter is normalised by the smoothed weight of the valid points, so
     missing values and open edges neither pull the field toward zero nor
-    spread: result = G*(w f) / G*w with w = 1 where f is valid.
+    spread: result = G*(w f) / G*w with w = 1 where f is valid. On a periodic
+    longitude axis the X pass multiplies each row's Fourier transform by the
+    Gaussian's transfer function exp(-2 pi^2 sigma^2 k^2 / n^2) (the exact
+    periodic kernel); elsewhere the kernel is truncated at 3.5 sigma.
 
     Examples
     --------
