@@ -18,7 +18,6 @@ import errno
 import json
 import os
 import sys
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -238,10 +237,12 @@ def _station_csv(path, *, garbage=True, seed=3):
 
 
 def test_rerun_reports_station_gaps_duplicates_and_garbage(event, tmp_path, capsys):
+    # the run has no fronts (no contrast): the rerun is quick and the product under
+    # test is the station problem list
     ev = tmp_path / "past_event"
     (ev / "runs").mkdir(parents=True)
-    (ev / "runs" / "good").symlink_to(event / "good", target_is_directory=True)
-    (ev / "analyses").symlink_to(event / "good", target_is_directory=True)
+    (ev / "runs" / "constant").symlink_to(event / "constant", target_is_directory=True)
+    (ev / "analyses").symlink_to(event / "constant", target_is_directory=True)
     (ev / "stations").mkdir()
     SITES.iloc[:2].to_csv(ev / "sites.csv", index=False)
     _station_csv(ev / "stations" / "Harrowby Field.csv", garbage=True)
@@ -252,8 +253,31 @@ def test_rerun_reports_station_gaps_duplicates_and_garbage(event, tmp_path, caps
     problems = pd.read_csv(folder / "station_problems.csv", keep_default_na=False)
     text = " | ".join(problems.loc[problems["site"] == "Harrowby Field", "problem"])
     assert "garbage" in text and "duplicate" in text and "gap" in text, text
+    assert "lines 13" in text  # the garbage row is named by its line in the file
     assert "Kestrel Point" not in set(problems["site"])  # a clean series has no problems
-    assert (folder / "timing_summary.html").read_text().count(CAUTION) == 1
+    assert CAUTION in (folder / "timing_summary.html").read_text()
+
+
+def test_timing_figure_with_only_false_alarms():
+    # a forecast passage that no station saw (a calm series): the figure must still
+    # be drawn, with the counts, the window and the caution
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from kit.charts.verification import timing_error_figure
+    from kit.verify import timing_pairs
+
+    forecast = pd.DataFrame({"site": ["Harrowby Field", "Kestrel Point"],
+                             "front_kind": ["warm", "cold"], "run": ["2031-02-03T00Z"] * 2,
+                             "passage_utc": ["2031-02-03T07:54Z", "2031-02-03T10:35Z"]})
+    observed = pd.DataFrame(columns=["site", "passage_utc", "front_kind"])
+    pairs = timing_pairs(forecast, observed, {"2031-02-03T00Z": "2031-02-03T00:00"},
+                         event="calm")
+    assert list(pairs["outcome"]) == ["false alarm", "false alarm"]
+    fig = timing_error_figure(pairs, title_run="calm", source="invented test event")
+    texts = " ".join(t.get_text() for t in fig.findobj(matplotlib.text.Text))
+    assert "0 hits, 0 misses, 2 false alarms" in texts
+    assert "Decision support only" in texts
 
 
 # --------------------------------------------------------------------------- interrupted
