@@ -183,35 +183,81 @@ _HDF5 = b"\x89HDF\r\n\x1a\n"
 # role -> (standard names, short names); "lev" roles are on pressure levels,
 # "sfc" roles near the surface. Quantities decide the unit family.
 _LEVEL_ROLES = {
-    "t": (("air_temperature",), ("t", "ta", "T", "TMP", "temp", "air", "tmp", "TT")),
+    "t": (("air_temperature",), ("t", "ta", "T", "TMP", "temp", "air", "tmp", "TT", "tmpprs")),
     "td": (("dew_point_temperature",), ("d", "dpt", "td", "DPT", "dewpoint", "Td")),
-    "rh": (("relative_humidity",), ("r", "rh", "hur", "RH", "rhum", "relhum")),
-    "q": (("specific_humidity",), ("q", "hus", "QV", "SPFH", "shum", "qv")),
-    "u": (("eastward_wind", "x_wind", "grid_eastward_wind"), ("u", "ua", "U", "UGRD", "uwnd")),
-    "v": (("northward_wind", "y_wind", "grid_northward_wind"), ("v", "va", "V", "VGRD", "vwnd")),
+    "rh": (("relative_humidity",), ("r", "rh", "hur", "RH", "rhum", "relhum", "rhprs")),
+    "q": (("specific_humidity",), ("q", "hus", "QV", "SPFH", "shum", "qv", "spfhprs")),
+    "u": (
+        ("eastward_wind", "x_wind", "grid_eastward_wind"),
+        ("u", "ua", "U", "UGRD", "uwnd", "ugrdprs"),
+    ),
+    "v": (
+        ("northward_wind", "y_wind", "grid_northward_wind"),
+        ("v", "va", "V", "VGRD", "vwnd", "vgrdprs"),
+    ),
     "z": (
         ("geopotential_height", "geopotential"),
-        ("z", "gh", "zg", "HGT", "hgt", "Z", "phi", "geopotential", "gph", "hgt_isobaric"),
+        (
+            "z",
+            "gh",
+            "zg",
+            "HGT",
+            "hgt",
+            "Z",
+            "phi",
+            "geopotential",
+            "gph",
+            "hgt_isobaric",
+            "fi",
+            "H",
+            "hgtprs",
+        ),
     ),
 }
 _SURFACE_ROLES = {
-    "t2m": (("air_temperature",), ("t2m", "2t", "tas", "T2", "TMP_2maboveground", "t2")),
-    "td2m": (("dew_point_temperature",), ("d2m", "2d", "tdps", "td2m", "DPT_2maboveground", "td2")),
-    "rh2m": (("relative_humidity",), ("r2", "rh2m", "hurs", "RH_2maboveground", "rh2")),
-    "q2m": (("specific_humidity",), ("q2", "q2m", "huss", "SPFH_2maboveground")),
+    "t2m": (
+        ("air_temperature",),
+        ("t2m", "2t", "tas", "T2", "TMP_2maboveground", "t2", "tmp2m", "t_2m"),
+    ),
+    "td2m": (
+        ("dew_point_temperature",),
+        ("d2m", "2d", "tdps", "td2m", "DPT_2maboveground", "td2", "dpt2m", "td_2m"),
+    ),
+    "rh2m": (
+        ("relative_humidity",),
+        ("r2", "rh2m", "hurs", "RH_2maboveground", "rh2", "relhum_2m"),
+    ),
+    "q2m": (("specific_humidity",), ("q2", "q2m", "huss", "SPFH_2maboveground", "QV2M", "qv_2m")),
     "u10": (
         ("eastward_wind", "x_wind", "grid_eastward_wind"),
-        ("u10", "10u", "uas", "U10", "UGRD_10maboveground", "u10m"),
+        ("u10", "10u", "uas", "U10", "UGRD_10maboveground", "u10m", "ugrd10m", "u_10m"),
     ),
     "v10": (
         ("northward_wind", "y_wind", "grid_northward_wind"),
-        ("v10", "10v", "vas", "V10", "VGRD_10maboveground", "v10m"),
+        ("v10", "10v", "vas", "V10", "VGRD_10maboveground", "v10m", "vgrd10m", "v_10m"),
     ),
     "mslp": (
         ("air_pressure_at_mean_sea_level", "air_pressure_at_sea_level"),
-        ("msl", "mslp", "prmsl", "PRMSL", "slp", "MSLP", "PMSL", "MSL", "psl", "mslet", "pmsl"),
+        (
+            "msl",
+            "mslp",
+            "prmsl",
+            "PRMSL",
+            "slp",
+            "MSLP",
+            "PMSL",
+            "MSL",
+            "psl",
+            "mslet",
+            "pmsl",
+            "prmslmsl",
+            "pres_msl",
+        ),
     ),
-    "ps": (("surface_air_pressure",), ("sp", "ps", "PRES_surface", "psfc", "PSFC")),
+    "ps": (
+        ("surface_air_pressure",),
+        ("sp", "ps", "PRES_surface", "psfc", "PSFC", "pres_sfc", "PS"),
+    ),
     "precip": (
         (
             "precipitation_amount",
@@ -222,7 +268,23 @@ _SURFACE_ROLES = {
             "rainfall_flux",
             "lwe_thickness_of_precipitation_amount_accumulated",
         ),
-        ("tp", "pr", "precip", "apcp", "APCP", "prate", "PRATE", "tprate", "precipitation", "TP"),
+        (
+            "tp",
+            "pr",
+            "precip",
+            "apcp",
+            "APCP",
+            "prate",
+            "PRATE",
+            "tprate",
+            "precipitation",
+            "TP",
+            "apcpsfc",
+            "pratesfc",
+            "tot_prec",
+            "PRECTOT",
+            "PRECTOTCORR",
+        ),
     ),
 }
 # names that mean "this quantity near the surface" for level-role short names
@@ -1376,11 +1438,66 @@ def _classify(ds, level_dims, where):
                     continue
             elif not is_level_table and lev and role in _SURFACE_OF.values():
                 continue
-            if role in roles:
+            if role in roles or not _name_match_allowed(ds[n], role):
                 continue
             assign(role, n, "name")
             used.add(n)
     return roles, candidates
+
+
+_ROLE_DIMENSIONS = {
+    "temperature": [{"[temperature]": 1}],
+    "fraction": [{}],
+    "speed": [{"[length]": 1, "[time]": -1}],
+    "height": [{"[length]": 1}, {"[length]": 2, "[time]": -2}],
+    "pressure": [{"[mass]": 1, "[length]": -1, "[time]": -2}],
+    "precip": [
+        {"[length]": 1},
+        {"[mass]": 1, "[length]": -2},
+        {"[length]": 1, "[time]": -1},
+        {"[mass]": 1, "[length]": -2, "[time]": -1},
+    ],
+}
+_ROLE_QUANTITY = {
+    "t": "temperature",
+    "td": "temperature",
+    "t2m": "temperature",
+    "td2m": "temperature",
+    "rh": "fraction",
+    "q": "fraction",
+    "rh2m": "fraction",
+    "q2m": "fraction",
+    "u": "speed",
+    "v": "speed",
+    "u10": "speed",
+    "v10": "speed",
+    "z": "height",
+    "mslp": "pressure",
+    "ps": "pressure",
+    "precip": "precip",
+}
+
+
+def _name_match_allowed(da, role):
+    """Whether a short-name match may fill ``role``.
+
+    Not when the variable's own standard_name says it is something else
+    (ERA5's ``d`` is divergence, not dew point), nor when its units cannot be
+    the role's quantity. A standard_name or unit that fits, or none, is fine.
+    """
+    std = da.attrs.get("standard_name")
+    if std:
+        stds = (_LEVEL_ROLES.get(role) or _SURFACE_ROLES.get(role) or ((),))[0]
+        if std not in stds:
+            return False
+    units = _units_of(da)
+    if units is None:
+        return True
+    try:
+        dims = dict(_pint_quantity(_unit_text(units)).dimensionality)
+    except Exception:  # unreadable unit: let the conversion report it
+        return True
+    return dims in _ROLE_DIMENSIONS[_ROLE_QUANTITY[role]]
 
 
 def _is_grid_relative(da):

@@ -1157,3 +1157,42 @@ def test_large_files_are_chunked_one_step_at_a_time(tmp_path, base, monkeypatch)
     # one valid time per chunk: the value checks read the first step only
     assert got["t"].chunks[0] == (1,) * base.sizes["time"]
     assert isinstance(got["t"].data, dask.array.Array)
+
+
+def test_short_name_not_taken_when_standard_name_or_units_say_otherwise(tmp_path, base):
+    """ERA5's 'd' is divergence: a short-name match must not make it the dew point."""
+    raw = raw_variant(base, humidity="rh", unit_of={"rh": "%"}, std=False)
+    div = xr.zeros_like(raw["t"]) + 1e-5
+    raw["d"] = div.assign_attrs(units="s**-1", standard_name="divergence_of_wind")
+    got = open_run(write(raw, tmp_path / "div.nc"))
+    assert "td<-" not in got.attrs["variables_from"] and "rh<-r" in got.attrs["variables_from"]
+    np.testing.assert_allclose(got["td"].values, base["td"].values, atol=0.05)  # MetPy [lib]
+    raw["d"].attrs = {"units": "s-1"}  # no standard name, units still say it is not a dew point
+    got = open_run(write(raw, tmp_path / "div2.nc"))
+    assert "rh<-r" in got.attrs["variables_from"]
+
+
+def test_grads_style_short_names(tmp_path, base):
+    """GrADS-style names (tmpprs, rhprs, ugrdprs, vgrdprs, hgtprs, prmslmsl, apcpsfc)."""
+    raw = raw_variant(
+        base,
+        std=False,
+        humidity="rh",
+        names={
+            "t": "tmpprs",
+            "rh": "rhprs",
+            "u": "ugrdprs",
+            "v": "vgrdprs",
+            "z": "hgtprs",
+            "mslp": "prmslmsl",
+            "t2m": "tmp2m",
+            "td2m": "dpt2m",
+            "u10": "ugrd10m",
+            "v10": "vgrd10m",
+            "precip": "apcpsfc",
+        },
+        level_name="lev",
+        level_unit="millibar",
+    )
+    got = open_run(write(raw, tmp_path / "grads.nc"))
+    assert_canonical_equal(got, base, skip=("td",))
