@@ -124,7 +124,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             loc="best",
             fontsize=FONT["small"],
             frameon=True,
-            framealpha=0.85,
+            framealpha=0.95,
             facecolor="white",
             edgecolor="none",
             ncol=2,
@@ -148,7 +148,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 loc="upper left",
                 fontsize=FONT["small"],
                 frameon=True,
-                framealpha=0.85,
+                framealpha=0.95,
                 facecolor="white",
                 edgecolor="none",
             )
@@ -247,7 +247,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             loc="upper left",
             fontsize=FONT["small"],
             frameon=True,
-            framealpha=0.85,
+            framealpha=0.95,
             facecolor="white",
             edgecolor="none",
             ncol=2,
@@ -306,7 +306,17 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 color=colour,
                 fontweight="bold",
                 ha="left",
+                bbox={
+                    "boxstyle": "square,pad=0.15",
+                    "facecolor": "white",
+                    "edgecolor": "none",
+                    "alpha": 0.85,
+                },
+                zorder=6,
             )
+        for ax in (ax_t, ax_p, ax_h):  # legends above passage lines and shading
+            if ax.get_legend() is not None:
+                ax.get_legend().set_zorder(7)
         ax_h.xaxis.set_major_locator(mdates.HourLocator(byhour=range(0, 24, 6)))
         ax_h.xaxis.set_major_formatter(mdates.DateFormatter("%d/%HZ"))
         ax_h.set_xlim(times[0] - (times[1] - times[0]), times[-1])
