@@ -7,7 +7,7 @@ invented: the sites, the dates (January 2027) and the weather. The fields are
 built from a few analytic pieces so that the answers the kit should find are
 known exactly and recorded in ``truth.json``:
 
-* **Geometry.** Work is done on a conformal (polar stereographic, spherical
+* **Geometry.** Work is done on a conformal (oblique stereographic, spherical
   earth) plane centred at 51 N, 10 W with scale factor 0.993 at the centre, so
   lengths on the plane are within about 1 % of the great-circle lengths over
   the region the fronts cross (Snyder 1987, Eqs. 21-2 to 21-4 forward, 20-14,
@@ -24,8 +24,9 @@ known exactly and recorded in ``truth.json``:
   the cold side of the surface warm front (1 in 150) and 50 h toward the cold
   side of the surface cold front (1 in 50) (common practice values, no source).
   The height used for the geometry of a pressure level is its height in the
-  ICAO standard atmosphere. A tropopause fold (tropopause lowered by 3 km)
-  lies some 400 km behind the surface cold front near the low, and a shallow
+  ICAO standard atmosphere. A tropopause fold (tropopause lowered by 1.5 km,
+  stratospheric isothermal air below it, a stable return above) lies some
+  600 km behind the surface cold front near the low, and a shallow
   cold pool ahead of the warm front gives a freezing-rain window at one site.
 * **Pressure and heights.** Mean-sea-level pressure is a conical low whose
   centre deepens linearly, with shallow troughs along both fronts. Heights
@@ -54,12 +55,11 @@ run's.
 """
 
 import argparse
-import datetime as dt
 import json
 import math
 import shutil
 import sys
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 import netCDF4
@@ -125,7 +125,7 @@ def _s(u):
 
 
 def standard_atmosphere_height(p_hpa):
-    """Height of a pressure in the ICAO standard atmosphere [m].
+    r"""Height of a pressure in the ICAO standard atmosphere [m].
 
     Parameters
     ----------
@@ -143,6 +143,11 @@ def standard_atmosphere_height(p_hpa):
     Troposphere: :math:`h = (T_0/\\Gamma)(1 - (p/p_0)^{R_d \\Gamma / g_0})` with
     T0 = 288.15 K, Gamma = 6.5 K/km, p0 = 1013.25 hPa; above 11 km isothermal
     at 216.65 K (ICAO 1993, Manual of the ICAO Standard Atmosphere, Doc 7488).
+
+    Examples
+    --------
+    >>> round(float(standard_atmosphere_height(500.0)))
+    5574
     """
     p = np.asarray(p_hpa, dtype=float)
     t0, lapse, p0 = 288.15, 0.0065, 1013.25
@@ -157,6 +162,7 @@ def standard_atmosphere_height(p_hpa):
 # Plane <-> sphere (stereographic, spherical earth)
 # --------------------------------------------------------------------------
 
+
 @dataclass(frozen=True)
 class _Stereo:
     lat0: float = 51.0
@@ -169,9 +175,17 @@ class _Stereo:
         lam = np.radians(np.asarray(lon, float) - self.lon0)
         phi = np.radians(np.asarray(lat, float))
         p1 = math.radians(self.lat0)
-        k = 2 * self.k0 / (1 + math.sin(p1) * np.sin(phi) + math.cos(p1) * np.cos(phi) * np.cos(lam))
+        k = (
+            2
+            * self.k0
+            / (1 + math.sin(p1) * np.sin(phi) + math.cos(p1) * np.cos(phi) * np.cos(lam))
+        )
         x = self.radius * k * np.cos(phi) * np.sin(lam)
-        y = self.radius * k * (math.cos(p1) * np.sin(phi) - math.sin(p1) * np.cos(phi) * np.cos(lam))
+        y = (
+            self.radius
+            * k
+            * (math.cos(p1) * np.sin(phi) - math.sin(p1) * np.cos(phi) * np.cos(lam))
+        )
         return x, y
 
     def inverse(self, x, y):
@@ -184,7 +198,9 @@ class _Stereo:
         with np.errstate(invalid="ignore", divide="ignore"):
             ratio = np.where(rho > 0, y * np.sin(c) / np.where(rho > 0, rho, 1.0), 0.0)
         phi = np.arcsin(np.cos(c) * math.sin(p1) + ratio * math.cos(p1))
-        lam = np.arctan2(x * np.sin(c), rho * math.cos(p1) * np.cos(c) - y * math.sin(p1) * np.sin(c))
+        lam = np.arctan2(
+            x * np.sin(c), rho * math.cos(p1) * np.cos(c) - y * math.sin(p1) * np.sin(c)
+        )
         return self.lon0 + np.degrees(lam), np.degrees(phi)
 
     def scale(self, lon, lat):
@@ -192,7 +208,11 @@ class _Stereo:
         lam = np.radians(np.asarray(lon, float) - self.lon0)
         phi = np.radians(np.asarray(lat, float))
         p1 = math.radians(self.lat0)
-        return 2 * self.k0 / (1 + math.sin(p1) * np.sin(phi) + math.cos(p1) * np.cos(phi) * np.cos(lam))
+        return (
+            2
+            * self.k0
+            / (1 + math.sin(p1) * np.sin(phi) + math.cos(p1) * np.cos(phi) * np.cos(lam))
+        )
 
 
 def _unit(bearing_deg):
@@ -203,6 +223,7 @@ def _unit(bearing_deg):
 # --------------------------------------------------------------------------
 # The scenario
 # --------------------------------------------------------------------------
+
 
 @dataclass(frozen=True)
 class ScenarioSpec:
@@ -261,10 +282,10 @@ class ScenarioSpec:
     lapse_k_per_km: float = 6.5
     tropopause_38n_m: float = 11500.0
     tropopause_drop_m_per_deg: float = 150.0
-    fold_depth_m: float = 3000.0
-    fold_behind_km: float = 400.0
-    fold_width_km: float = 200.0
-    fold_compensation_m: float = 1500.0
+    fold_depth_m: float = 1500.0
+    fold_behind_km: float = 600.0
+    fold_width_km: float = 250.0
+    fold_return_k_per_km: float = 7.0
     strat_cooling_k: float = 4.0
     p_centre_hpa: tuple = (998.0, 974.0)
     p_cap_hpa: float = 1024.0
@@ -280,8 +301,10 @@ class ScenarioSpec:
     cold_pool_depth_m: float = 700.0
     shield_ahead_nm: float = 250.0
     band_behind_nm: tuple = (50.0, 100.0)
-    runs: tuple = (("2027-01-14T00Z", "2027-01-14T00:00:00Z", 1.5),
-                   ("2027-01-13T12Z", "2027-01-13T12:00:00Z", -2.0))
+    runs: tuple = (
+        ("2027-01-14T00Z", "2027-01-14T00:00:00Z", 1.5),
+        ("2027-01-13T12Z", "2027-01-13T12:00:00Z", -2.0),
+    )
 
 
 class Scenario:
@@ -359,15 +382,22 @@ class Scenario:
         """Depth [m] by which the tropopause folds down behind the cold front aloft."""
         s = self.spec
         near = _s((1500e3 - np.abs(along_c)) / 300e3) * _s((300e3 - d_w) / 150e3)
-        return s.fold_depth_m * near * np.exp(
-            -(((d_c - s.fold_behind_km * 1e3) / (s.fold_width_km * 1e3)) ** 2))
+        return (
+            s.fold_depth_m
+            * near
+            * np.exp(-(((d_c - s.fold_behind_km * 1e3) / (s.fold_width_km * 1e3)) ** 2))
+        )
 
     def surface_background(self, lat):
         """Background sea-level temperature [K]: a broad baroclinic zone centred on 50 N."""
         s = self.spec
-        return (s.t_sfc_50n_k - s.t_sfc_gradient_k_per_deg * (lat - 50.0)
-                - s.zone_gradient_k_per_deg * s.zone_half_width_deg
-                * np.tanh((lat - 50.0) / s.zone_half_width_deg))
+        return (
+            s.t_sfc_50n_k
+            - s.t_sfc_gradient_k_per_deg * (lat - 50.0)
+            - s.zone_gradient_k_per_deg
+            * s.zone_half_width_deg
+            * np.tanh((lat - 50.0) / s.zone_half_width_deg)
+        )
 
     def temperature(self, x, y, lat, h, tau):
         """Air temperature [K] at height ``h`` [m] (scalar or broadcastable)."""
@@ -383,26 +413,28 @@ class Scenario:
 
         t = t_sfc - lapse * softmin(h, htr)
         # tropopause fold: stratospheric (isothermal) air below the background
-        # tropopause, returning to the background some 800 m above it
+        # tropopause; above it the column returns to the background at a stable
+        # lapse rate (fold_return_k_per_km < dry adiabatic), so potential
+        # temperature rises with height everywhere
         fold = self.fold_depth(d_w, d_c, along_c)
-        warm = lapse * (softmin(h, htr) - softmin(h, htr - fold)) * _s((htr + 600.0 - h) / 300.0)
-        # a compensating cool layer above, so the heights above the fold are not raised
-        cool = lapse * fold * (0.5 * fold + 600.0) / s.fold_compensation_m
-        cool = cool * _s((h - htr - 600.0) / 300.0) * _s((htr + 600.0 + s.fold_compensation_m - h) / 300.0)
-        t = t + warm - cool
+        excess = lapse * (softmin(h, htr) - softmin(h, htr - fold))
+        above = s.fold_return_k_per_km * 1e-3 * soft * np.logaddexp(0.0, (h - htr) / soft)
+        t = t + np.maximum(excess - above, 0.0)
         w = self.warm_sector(d_w, d_c, h)
         # the warm sector's excess fades toward the tropopause and reverses above it
         # (and is a little smaller in the lowest kilometre, over the cooler sea)
-        amp = (s.dt_warm_k * (1.0 - s.low_level_reduction * _s((800.0 - h) / 300.0))
-               * _s((7000.0 - h) / 1500.0) - s.strat_cooling_k * _s((h - 9500.0) / 800.0))
+        amp = s.dt_warm_k * (1.0 - s.low_level_reduction * _s((800.0 - h) / 300.0)) * _s(
+            (7000.0 - h) / 1500.0
+        ) - s.strat_cooling_k * _s((h - 9500.0) / 800.0)
         t = t + amp * w
         # shallow cold pool ahead of the warm front (scoured out in the warm sector)
         r2 = (x - self.cold_pool_xy[0]) ** 2 + (y - self.cold_pool_xy[1]) ** 2
         pool = np.exp(-r2 / (2 * (s.cold_pool_radius_km * 1e3) ** 2))
         # cold side of the warm front only, with the warm front's own zone
         # shape, so the zone stays an exact tanh profile (a larger contrast)
-        ahead = (_s((d_w - s.warm_slope_1_in * h) / (s.l_warm_km * 1e3))
-                 * _s(-(d_c - s.cold_slope_1_in * h) / (s.l_cold_km * 1e3)))
+        ahead = _s((d_w - s.warm_slope_1_in * h) / (s.l_warm_km * 1e3)) * _s(
+            -(d_c - s.cold_slope_1_in * h) / (s.l_cold_km * 1e3)
+        )
         t = t - s.cold_pool_k * pool * _s((s.cold_pool_depth_m - h) / 150.0) * ahead
         return t
 
@@ -419,13 +451,25 @@ class Scenario:
         ax, ay = self.apex(tau)
         r = np.hypot(x - ax, y - ay)
         r0 = s.core_km * 1e3
-        raw = self.central_pressure(tau) + s.cone_hpa_per_100km * 1e-3 * (np.sqrt(r**2 + r0**2) - r0)
+        raw = self.central_pressure(tau) + s.cone_hpa_per_100km * 1e-3 * (
+            np.sqrt(r**2 + r0**2) - r0
+        )
         cap = s.p_cap_hpa * 100.0
         scale = 400.0
         p = cap - scale * np.logaddexp(0.0, (cap - raw) / scale)
         d_w, d_c, along_w, along_c = self.distances(x, y, tau)
-        tw = s.warm_trough_hpa * 100 * np.exp(-((d_w / (s.warm_trough_km * 1e3)) ** 2)) * _s(along_w / 100e3)
-        tc = s.cold_trough_hpa * 100 * np.exp(-((d_c / (s.cold_trough_km * 1e3)) ** 2)) * _s(along_c / 100e3)
+        tw = (
+            s.warm_trough_hpa
+            * 100
+            * np.exp(-((d_w / (s.warm_trough_km * 1e3)) ** 2))
+            * _s(along_w / 100e3)
+        )
+        tc = (
+            s.cold_trough_hpa
+            * 100
+            * np.exp(-((d_c / (s.cold_trough_km * 1e3)) ** 2))
+            * _s(along_c / 100e3)
+        )
         # a high over the east of the domain: a weak southerly geostrophic background
         return p - tw - tc + s.east_rise_hpa_per_100km * 1e-3 * x
 
@@ -460,19 +504,31 @@ class Scenario:
         rh = blend(rh, 92.0, w * _s((2500.0 - h) / 500.0))
         lead = 300 * NM
         ahead = _s(-d_c / 60e3)
-        wedge = (_s(d_w / 40e3) * _s((lead - d_w) / 60e3)
-                 * _s((s.warm_slope_1_in * h + 40e3 - d_w) / 30e3) * _s((7500.0 - h) / 600.0) * ahead)
+        wedge = (
+            _s(d_w / 40e3)
+            * _s((lead - d_w) / 60e3)
+            * _s((s.warm_slope_1_in * h + 40e3 - d_w) / 30e3)
+            * _s((7500.0 - h) / 600.0)
+            * ahead
+        )
         under = _s(d_w / 40e3) * _s((lead - d_w) / 60e3) * _s((2000.0 - h) / 400.0) * ahead
         rh = blend(rh, 90.0, under)
         rh = blend(rh, 98.0, wedge)
         # cloud band over the cold frontal surface, reaching back over the
         # heavy rain band 50-100 nm behind the surface front
-        band = (_s((d_c + 60e3) / 25e3) * _s((300e3 - d_c) / 150e3)
-                * _s((s.cold_slope_1_in * h + 200e3 - d_c) / 150e3) * _s((6500.0 - h) / 600.0)
-                * _s((150e3 - d_w) / 80e3))
+        band = (
+            _s((d_c + 60e3) / 25e3)
+            * _s((300e3 - d_c) / 150e3)
+            * _s((s.cold_slope_1_in * h + 200e3 - d_c) / 150e3)
+            * _s((6500.0 - h) / 600.0)
+            * _s((150e3 - d_w) / 80e3)
+        )
         rh = blend(rh, 97.0, band)
-        dry = (_s((d_c - s.cold_slope_1_in * h - 150e3) / 50e3) * _s((h - 2000.0) / 500.0)
-               * _s((200e3 - d_w) / 100e3))
+        dry = (
+            _s((d_c - s.cold_slope_1_in * h - 150e3) / 50e3)
+            * _s((h - 2000.0) / 500.0)
+            * _s((200e3 - d_w) / 100e3)
+        )
         rh = blend(rh, 12.0, dry)
         if rate is not None:
             rh = blend(rh, 96.0, np.clip(rate / 3.0, 0, 1) * _s((1500.0 - h) / 300.0))
@@ -504,8 +560,19 @@ class Scenario:
         ang = math.radians(20.0)  # back by 20 deg (counter-clockwise rotation)
         u10 = 0.75 * (us * math.cos(ang) - vs * math.sin(ang))
         v10 = 0.75 * (us * math.sin(ang) + vs * math.cos(ang))
-        return {"t": t, "rh": rh, "z": z, "u": u, "v": v, "msl": msl, "t2m": t2m,
-                "d2m": dewpoint_from_rh(t2m, rh2m), "u10": u10, "v10": v10, "rate": rate}
+        return {
+            "t": t,
+            "rh": rh,
+            "z": z,
+            "u": u,
+            "v": v,
+            "msl": msl,
+            "t2m": t2m,
+            "d2m": dewpoint_from_rh(t2m, rh2m),
+            "u10": u10,
+            "v10": v10,
+            "rate": rate,
+        }
 
     def accumulated_precip(self, tau0, tau1, sub_min=10):
         """Precipitation amount between scenario times tau0 and tau1 [kg m-2] (Simpson)."""
@@ -518,7 +585,7 @@ class Scenario:
         weights[1:-1:2] = 4.0
         weights[2:-1:2] = 2.0
         total = np.zeros_like(self.x2)
-        for wgt, tau in zip(weights, taus):
+        for wgt, tau in zip(weights, taus, strict=True):
             total += wgt * self.precip_rate(self.x2, self.y2, tau)
         return total * (taus[1] - taus[0]) / 3.0 / 3600.0
 
@@ -543,21 +610,30 @@ class Scenario:
         else:
             pts = base[:, None] + self.a_c[:, None] * dist + self.n_c[:, None] * shift_warm_km * 1e3
         lon, lat = self.proj.inverse(pts[0], pts[1])
-        inside = ((lat >= s.lat_range[0]) & (lat <= s.lat_range[1])
-                  & (lon >= s.lon_range[0]) & (lon <= s.lon_range[1]))
+        inside = (
+            (lat >= s.lat_range[0])
+            & (lat <= s.lat_range[1])
+            & (lon >= s.lon_range[0])
+            & (lon <= s.lon_range[1])
+        )
         return lon[inside], lat[inside]
 
     def passage_tau(self, lon, lat):
         """Scenario times [s] of the surface warm and cold front at a point."""
         x, y = self.proj.forward(lon, lat)
         r = np.array([x, y]) - self.apex0
-        return float(r @ self.n_w / self.spec.warm_speed_ms), float(r @ self.n_c / self.spec.cold_speed_ms)
+        return float(r @ self.n_w / self.spec.warm_speed_ms), float(
+            r @ self.n_c / self.spec.cold_speed_ms
+        )
 
     def earth_speed(self, kind, tau, along_km=600.0):
         """Front-normal speed on the earth [m s-1] at ``along_km`` from the low centre."""
         s = self.spec
-        a, n, spd = ((self.a_w, self.n_w, s.warm_speed_ms) if kind == "warm"
-                     else (self.a_c, self.n_c, s.cold_speed_ms))
+        a, n, spd = (
+            (self.a_w, self.n_w, s.warm_speed_ms)
+            if kind == "warm"
+            else (self.a_c, self.n_c, s.cold_speed_ms)
+        )
         p = self.apex(tau) + a * along_km * 1e3
         lon, lat = self.proj.inverse(p[0], p[1])
         return float(spd / self.proj.scale(lon, lat))
@@ -567,8 +643,9 @@ class Scenario:
 # Physics helpers (numpy)
 # --------------------------------------------------------------------------
 
+
 def hypsometric_heights(msl_pa, t_sea_k, t_levels_k, levels_hpa):
-    """Heights of pressure levels [m] from sea-level pressure and temperatures.
+    r"""Heights of pressure levels [m] from sea-level pressure and temperatures.
 
     Parameters
     ----------
@@ -596,7 +673,9 @@ def hypsometric_heights(msl_pa, t_sea_k, t_levels_k, levels_hpa):
     z = np.empty_like(t_levels_k)
     z[0] = RD / G0 * 0.5 * (t_sea_k + t_levels_k[0]) * np.log(msl_pa / p[0])
     for k in range(1, len(p)):
-        z[k] = z[k - 1] + RD / G0 * 0.5 * (t_levels_k[k - 1] + t_levels_k[k]) * np.log(p[k - 1] / p[k])
+        z[k] = z[k - 1] + RD / G0 * 0.5 * (t_levels_k[k - 1] + t_levels_k[k]) * np.log(
+            p[k - 1] / p[k]
+        )
     return z
 
 
@@ -611,7 +690,7 @@ def _spherical_gradient(field, lat, lon):
 
 
 def geostrophic_from_height(z, lat, lon):
-    """Geostrophic wind [m s-1] from geopotential height [m] on (..., lat, lon).
+    r"""Geostrophic wind [m s-1] from geopotential height [m] on (..., lat, lon).
 
     Notes
     -----
@@ -650,17 +729,41 @@ _VARS = {
     "v": ("3d", "northward_wind", "northward wind (geostrophic)", "m s-1", {}),
     "z": ("3d", "geopotential_height", "geopotential height", "m", {}),
     "msl": ("2d", "air_pressure_at_mean_sea_level", "mean sea level pressure", "Pa", {}),
-    "t2m": ("2d", "air_temperature", "2 m air temperature", "K",
-            {"height": "2 m", "coordinates": "height_2m"}),
-    "d2m": ("2d", "dew_point_temperature", "2 m dew point temperature", "K",
-            {"height": "2 m", "coordinates": "height_2m"}),
-    "u10": ("2d", "eastward_wind", "10 m eastward wind", "m s-1",
-            {"height": "10 m", "coordinates": "height_10m"}),
-    "v10": ("2d", "northward_wind", "10 m northward wind", "m s-1",
-            {"height": "10 m", "coordinates": "height_10m"}),
-    "precip": ("2d", "precipitation_amount",
-               "precipitation amount accumulated since the forecast reference time", "kg m-2",
-               {"cell_methods": "time: sum"}),
+    "t2m": (
+        "2d",
+        "air_temperature",
+        "2 m air temperature",
+        "K",
+        {"height": "2 m", "coordinates": "height_2m"},
+    ),
+    "d2m": (
+        "2d",
+        "dew_point_temperature",
+        "2 m dew point temperature",
+        "K",
+        {"height": "2 m", "coordinates": "height_2m"},
+    ),
+    "u10": (
+        "2d",
+        "eastward_wind",
+        "10 m eastward wind",
+        "m s-1",
+        {"height": "10 m", "coordinates": "height_10m"},
+    ),
+    "v10": (
+        "2d",
+        "northward_wind",
+        "10 m northward wind",
+        "m s-1",
+        {"height": "10 m", "coordinates": "height_10m"},
+    ),
+    "precip": (
+        "2d",
+        "precipitation_amount",
+        "precipitation amount accumulated since the forecast reference time",
+        "kg m-2",
+        {"cell_methods": "time: sum"},
+    ),
 }
 
 
@@ -684,8 +787,10 @@ def _write_file(path, scen, fields, accum, valid, reference, label, kind):
     with netCDF4.Dataset(tmp, "w", format="NETCDF4") as nc:
         nc.Conventions = "CF-1.8"
         nc.title = f"frontshift invented demo scenario: {kind} {label}"
-        nc.source = ("frontshift invented demo scenario (kit.scenario): analytic fields, "
-                     "invented weather, not a real model run")
+        nc.source = (
+            "frontshift invented demo scenario (kit.scenario): analytic fields, "
+            "invented weather, not a real model run"
+        )
         nc.institution = "frontshift demo (invented)"
         nc.forecast_reference_time = _iso(reference)
         nc.run = label
@@ -698,20 +803,42 @@ def _write_file(path, scen, fields, accum, valid, reference, label, kind):
         nc.createDimension("lon", len(scen.lon))
         units = "hours since " + s.start[:10] + " 00:00:00"
         tv = nc.createVariable("time", "f8", ("time",))
-        tv.setncatts({"standard_name": "time", "long_name": "valid time", "units": units,
-                      "calendar": "standard", "axis": "T"})
+        tv.setncatts(
+            {
+                "standard_name": "time",
+                "long_name": "valid time",
+                "units": units,
+                "calendar": "standard",
+                "axis": "T",
+            }
+        )
         hours = (valid - scen.start) / np.timedelta64(1, "h")
         tv[:] = [hours]
         rv = nc.createVariable("forecast_reference_time", "f8", ())
-        rv.setncatts({"standard_name": "forecast_reference_time", "units": units,
-                      "calendar": "standard", "long_name": "run start"})
+        rv.setncatts(
+            {
+                "standard_name": "forecast_reference_time",
+                "units": units,
+                "calendar": "standard",
+                "long_name": "run start",
+            }
+        )
         rv.assignValue((reference - scen.start) / np.timedelta64(1, "h"))
         pv = nc.createVariable("forecast_period", "f8", ("time",))
-        pv.setncatts({"standard_name": "forecast_period", "units": "hours", "long_name": "lead time"})
+        pv.setncatts(
+            {"standard_name": "forecast_period", "units": "hours", "long_name": "lead time"}
+        )
         pv[:] = [(valid - reference) / np.timedelta64(1, "h")]
         lv = nc.createVariable("level", "f8", ("level",))
-        lv.setncatts({"standard_name": "air_pressure", "long_name": "pressure level", "units": "hPa",
-                      "positive": "down", "axis": "Z"})
+        lv.setncatts(
+            {
+                "standard_name": "air_pressure",
+                "long_name": "pressure level",
+                "units": "hPa",
+                "positive": "down",
+                "axis": "Z",
+            }
+        )
         lv[:] = LEVELS_HPA
         la = nc.createVariable("lat", "f8", ("lat",))
         la.setncatts({"standard_name": "latitude", "units": "degrees_north", "axis": "Y"})
@@ -726,13 +853,30 @@ def _write_file(path, scen, fields, accum, valid, reference, label, kind):
         values = dict(fields, precip=accum)
         for name, (kind_dims, std, long, unit, extra) in _VARS.items():
             dims = ("time", "level", "lat", "lon") if kind_dims == "3d" else ("time", "lat", "lon")
-            chunks = (1, len(LEVELS_HPA), len(scen.lat), len(scen.lon)) if kind_dims == "3d" else None
-            var = nc.createVariable(name, "i2", dims, zlib=True, complevel=9, shuffle=True,
-                                    chunksizes=chunks, fill_value=-32767)
+            chunks = (
+                (1, len(LEVELS_HPA), len(scen.lat), len(scen.lon)) if kind_dims == "3d" else None
+            )
+            var = nc.createVariable(
+                name,
+                "i2",
+                dims,
+                zlib=True,
+                complevel=9,
+                shuffle=True,
+                chunksizes=chunks,
+                fill_value=-32767,
+            )
             packed, scale, offset = pack(name, values[name])
-            var.setncatts({"standard_name": std, "long_name": long, "units": unit,
-                           "scale_factor": np.float32(scale) if False else scale,
-                           "add_offset": offset, **extra})
+            var.setncatts(
+                {
+                    "standard_name": std,
+                    "long_name": long,
+                    "units": unit,
+                    "scale_factor": np.float32(scale) if False else scale,
+                    "add_offset": offset,
+                    **extra,
+                }
+            )
             var.set_auto_maskandscale(False)
             var[:] = packed[None]
     tmp.replace(path)
@@ -743,8 +887,9 @@ def _sets(spec):
     start = np.datetime64(spec.start.rstrip("Z"), "s")
     out = [("analyses", "analysis", start, 0.0, "verifying analysis")]
     for label, ref, offset in spec.runs:
-        out.append((f"runs/{label}", label, np.datetime64(ref.rstrip("Z"), "s"), offset,
-                    "forecast run"))
+        out.append(
+            (f"runs/{label}", label, np.datetime64(ref.rstrip("Z"), "s"), offset, "forecast run")
+        )
     return out
 
 
@@ -797,8 +942,11 @@ def write_steps(out, steps=None, spec=None):
 # Sites, stations, truth, README
 # --------------------------------------------------------------------------
 
+
 def _write_sites(out):
-    lines = ["name,lat,lon,elevation_m"] + [f"{n},{la:.2f},{lo:.2f},{el:.0f}" for n, la, lo, el in SITES]
+    lines = ["name,lat,lon,elevation_m"] + [
+        f"{n},{la:.2f},{lo:.2f},{el:.0f}" for n, la, lo, el in SITES
+    ]
     (out / "sites.csv").write_text("\n".join(lines) + "\n")
 
 
@@ -844,12 +992,23 @@ def _write_stations(scen, out):
             temp = float(v["t"]) - 273.15 + rng.normal(0, 0.25)
             dew = min(float(v["td"]) - 273.15 + rng.normal(0, 0.25), temp)
             speed = math.hypot(float(v["u"]), float(v["v"]))
-            wdir = (math.degrees(math.atan2(-float(v["u"]), -float(v["v"]))) + rng.normal(0, 8)) % 360
+            wdir = (
+                math.degrees(math.atan2(-float(v["u"]), -float(v["v"]))) + rng.normal(0, 8)
+            ) % 360
             spd_kt = max(0.0, speed / KNOT + rng.normal(0, 1.5))
             rate = float(v["rate"]) * float(np.exp(rng.normal(0, 0.25)))
             rate = round(rate, 1) if rate >= 0.1 else 0.0
-            rows.append([_iso(t), f"{pres:.1f}", f"{temp:.1f}", f"{dew:.1f}",
-                         f"{wdir:.0f}", f"{spd_kt:.0f}", f"{rate:.1f}"])
+            rows.append(
+                [
+                    _iso(t),
+                    f"{pres:.1f}",
+                    f"{temp:.1f}",
+                    f"{dew:.1f}",
+                    f"{wdir:.0f}",
+                    f"{spd_kt:.0f}",
+                    f"{rate:.1f}",
+                ]
+            )
         # gaps: every site loses a few readings; two sites a longer outage
         drop = set(rng.choice(len(rows), size=4, replace=False).tolist())
         if i in (1, 4):
@@ -859,13 +1018,15 @@ def _write_stations(scen, out):
         if name == "Lorvaine":  # one garbage row in one file
             stamp = _iso(np.datetime64(rows[150][0].rstrip("Z")) + np.timedelta64(5, "m"))
             rows.insert(151, [stamp, "-9999", "ERR", "", "999", "-5", "x"])
-        text = ["time_utc,pressure_hpa,temperature_c,dewpoint_c,wind_dir_deg,wind_speed_kt,precip_mm_h"]
+        text = [
+            "time_utc,pressure_hpa,temperature_c,dewpoint_c,wind_dir_deg,wind_speed_kt,precip_mm_h"
+        ]
         text += [",".join(r) for r in rows]
         (folder / f"{name}.csv").write_text("\n".join(text) + "\n")
 
 
 def truth(spec=None):
-    """The answers the kit should find in the sample event, as a JSON-ready dict."""
+    """Return the answers the kit should find in the sample event (a JSON-ready dict)."""
     scen = Scenario(spec)
     s = scen.spec
     h850 = float(standard_atmosphere_height(850.0))
@@ -875,18 +1036,22 @@ def truth(spec=None):
             "Invented frontshift demo event (January 2027): a frontal depression crossing the "
             "domain toward the east-north-east while deepening, with a warm front running out "
             "from the low toward bearing 100 deg and a cold front toward 190 deg. All names, "
-            "dates and weather are invented. Lines are (lon, lat) lists in degrees; times UTC."),
+            "dates and weather are invented. Lines are (lon, lat) lists in degrees; times UTC."
+        ),
         "caution": CAUTION,
         "generator": "python -m kit.scenario",
-        "valid_times": [_iso(scen.start + np.timedelta64(h, "h"))
-                        for h in range(0, s.hours + 1, s.step_h)],
+        "valid_times": [
+            _iso(scen.start + np.timedelta64(h, "h")) for h in range(0, s.hours + 1, s.step_h)
+        ],
         "levels_hpa": list(LEVELS_HPA),
         "prescribed": {
             "warm": {
                 "normal_speed_ms": s.warm_speed_ms,
-                "normal_speed_note": ("constant normal speed on the conformal plane of kit.scenario; "
-                                      "the earth speed differs by the map scale factor (< 1 %), "
-                                      "see speed_earth_ms per time"),
+                "normal_speed_note": (
+                    "constant normal speed on the conformal plane of kit.scenario; "
+                    "the earth speed differs by the map scale factor (< 1 %), "
+                    "see speed_earth_ms per time"
+                ),
                 "ray_bearing_deg": s.warm_ray_bearing_deg,
                 "normal_bearing_deg": s.warm_ray_bearing_deg - 90.0,
                 "slope_1_in": s.warm_slope_1_in,
@@ -902,56 +1067,104 @@ def truth(spec=None):
                 "zone_width_10_90_km": round(2 * math.atanh(0.8) * s.l_cold_km, 1),
             },
             "warm_sector_excess_k": s.dt_warm_k,
+            "tropopause_fold": {
+                "behind_surface_cold_front_km": s.fold_behind_km,
+                "depth_m": s.fold_depth_m,
+                "width_km": s.fold_width_km,
+            },
             "low_velocity_ms": [round(float(v), 3) for v in scen.apex_velocity],
             "central_pressure_hpa": list(s.p_centre_hpa),
-            "level_heights_m_for_geometry": {str(int(p)): round(float(h), 1)
-                                             for p, h in zip(LEVELS_HPA, scen.h_levels)},
+            "level_heights_m_for_geometry": {
+                str(int(p)): round(float(h), 1)
+                for p, h in zip(LEVELS_HPA, scen.h_levels, strict=True)
+            },
         },
         "notes": {
-            "lines": ("'surface' lines are the tanh-zone centres at the surface; '850hPa' the zone "
-                      "centres at the 850 hPa level (150 h toward the cold side for the warm front, "
-                      "50 h for the cold front, h the ICAO standard-atmosphere height of 850 hPa); "
-                      "'850hPa_locating' is where the thermal front parameter of a tanh zone peaks "
-                      "and the locating function of Hewson (1998) is zero: 0.658 L on the warm side "
-                      "of the zone centre (analytic, no smoothing; the linear background gradient "
-                      "and the humidity change across the zone move it by a few km, and smoothing "
-                      "before the parameter is computed moves it further toward the warm side). "
-                      "Within about 200 km of the low centre the product of the two zones rounds "
-                      "the corner of the warm sector."),
+            "lines": (
+                "'surface' lines are the tanh-zone centres at the surface; '850hPa' the zone "
+                "centres at the 850 hPa level (150 h toward the cold side for the warm front, "
+                "50 h for the cold front, h the ICAO standard-atmosphere height of 850 hPa); "
+                "'850hPa_locating' is where the thermal front parameter of a tanh zone peaks "
+                "and the locating function of Hewson (1998) is zero: 0.658 L on the warm side "
+                "of the zone centre (analytic, no smoothing; the linear background gradient "
+                "and the humidity change across the zone move it by a few km, and smoothing "
+                "before the parameter is computed moves it further toward the warm side). "
+                "Within about 200 km of the low centre the product of the two zones rounds "
+                "the corner of the warm sector."
+            ),
+            "theta_w": (
+                "the lines are temperature-zone centres; the 850 hPa theta-w zone (MetPy "
+                "theta-w of the written fields) lies within about 5 km of the warm-front line "
+                "and 10-20 km toward the cold side of the cold-front line, the humidity "
+                "change across the cold front widening its theta-w zone (half-width 60-75 "
+                "km against 50 km); theta-w contrast across the zones about 6.5 K (warm) "
+                "and 7-8 K (cold) at 850 hPa"
+            ),
+            "speeds": (
+                "normal speeds are prescribed on the conformal plane (speeds_ms); the "
+                "earth speeds per time (speed_earth_ms, 600 km from the low along each "
+                "front) differ by the map scale factor, under 1 %. The 850 hPa wind "
+                "component across the warm front is about 1.5 x its speed (warm to cold "
+                "side) and across the cold front about 1 x its speed (cold to warm side)"
+            ),
             "timing_offset_h": "positive: the run's fronts are early (the run shows the event "
-                               "that many hours ahead of the analyses)",
+            "that many hours ahead of the analyses)",
             "passages": "time the surface front line crosses the site",
             "analyses": "one sequence with forecast_reference_time at the window start, so that "
-                        "its accumulated precipitation can be differenced like a run's",
+            "its accumulated precipitation can be differenced like a run's",
         },
         "sets": {},
     }
     for folder, label, reference, offset, kind in _sets(s):
-        entry = {"folder": folder, "kind": kind, "reference_time": _iso(reference),
-                 "timing_offset_h": offset, "times": {}, "passages": {}}
+        entry = {
+            "folder": folder,
+            "kind": kind,
+            "reference_time": _iso(reference),
+            "timing_offset_h": offset,
+            "times": {},
+            "passages": {},
+        }
         for hour in range(0, s.hours + 1, s.step_h):
             valid = scen.start + np.timedelta64(hour, "h")
             tau = (hour + offset) * 3600.0
             ax, ay = scen.apex(tau)
             alon, alat = scen.proj.inverse(ax, ay)
-            rec = {"low": {"lon": round(float(alon), 3), "lat": round(float(alat), 3),
-                           "central_pressure_hpa": round(scen.central_pressure(tau) / 100.0, 2)}}
-            for lvl, h, shift in (("surface", 0.0, None), ("850hPa", h850, None),
-                                  ("850hPa_locating", h850, locating_shift)):
+            rec = {
+                "low": {
+                    "lon": round(float(alon), 3),
+                    "lat": round(float(alat), 3),
+                    "central_pressure_hpa": round(scen.central_pressure(tau) / 100.0, 2),
+                }
+            }
+            for lvl, h, shift in (
+                ("surface", 0.0, None),
+                ("850hPa", h850, None),
+                ("850hPa_locating", h850, locating_shift),
+            ):
                 rec[lvl] = {}
                 for kindf in ("warm", "cold"):
-                    lon, lat = scen.front_line(kindf, tau, h=h,
-                                               shift_warm_km=0.0 if shift is None else shift[kindf])
-                    rec[lvl][kindf] = {"lon": [round(float(v), 3) for v in lon],
-                                       "lat": [round(float(v), 3) for v in lat]}
-            rec["speed_earth_ms"] = {k: round(scen.earth_speed(k, tau), 3) for k in ("warm", "cold")}
+                    lon, lat = scen.front_line(
+                        kindf, tau, h=h, shift_warm_km=0.0 if shift is None else shift[kindf]
+                    )
+                    rec[lvl][kindf] = {
+                        "lon": [round(float(v), 3) for v in lon],
+                        "lat": [round(float(v), 3) for v in lat],
+                    }
+            rec["speed_earth_ms"] = {
+                k: round(scen.earth_speed(k, tau), 3) for k in ("warm", "cold")
+            }
             entry["times"][_iso(valid)] = rec
         for name, lat, lon, _ in SITES:
             tw, tc = scen.passage_tau(lon, lat)
             entry["passages"][name] = {
-                "warm": _iso(scen.start + np.timedelta64(int(round(tw - offset * 3600)), "s")),
-                "cold": _iso(scen.start + np.timedelta64(int(round(tc - offset * 3600)), "s")),
+                "warm": _iso(
+                    scen.start + np.timedelta64(int(round((tw - offset * 3600) / 60.0)), "m")
+                ),
+                "cold": _iso(
+                    scen.start + np.timedelta64(int(round((tc - offset * 3600) / 60.0)), "m")
+                ),
             }
+        entry["freezing_rain_window"] = _freezing_rain_window(scen, offset)
         set_name = "analyses" if folder == "analyses" else label
         out["sets"][set_name] = entry
     out["speeds_ms"] = {"warm": s.warm_speed_ms, "cold": s.cold_speed_ms}
@@ -962,19 +1175,26 @@ def truth(spec=None):
 
 
 def _readme(scen, facts):
-    """The event description written beside the files."""
+    """Return the event description written beside the files (README.md)."""
     s = scen.spec
     rows = []
     for name, lat, lon, elev in SITES:
         p = facts["sets"]["analyses"]["passages"][name]
-        rows.append(f"| {name} | {lat:.2f} | {lon:.2f} | {elev:.0f} | {p['warm'][:16]}Z | {p['cold'][:16]}Z |")
-    runs = "\n".join(
-        f"- `runs/{label}/step_XXX.nc`: run started {ref}, leads "
-        f"{int((scen.start - np.datetime64(ref.rstrip('Z'), 's')) / np.timedelta64(1, 'h'))} to "
-        f"{int((scen.start - np.datetime64(ref.rstrip('Z'), 's')) / np.timedelta64(1, 'h')) + s.hours} h; "
-        f"its fronts are {abs(off)} h {'early' if off > 0 else 'late'} against the analyses"
-        for label, ref, off in s.runs)
-    return f"""# sample_grids: the invented frontshift demo event
+        rows.append(
+            f"| {name} | {lat:.2f} | {lon:.2f} | {elev:.0f} "
+            f"| {p['warm'][:16]}Z | {p['cold'][:16]}Z |"
+        )
+    lines = []
+    for label, ref, off in s.runs:
+        first = int((scen.start - np.datetime64(ref.rstrip("Z"), "s")) / np.timedelta64(1, "h"))
+        lines.append(
+            f"- `runs/{label}/step_XXX.nc`: run started {ref}, leads {first} to "
+            f"{first + s.hours} h; its fronts are {abs(off)} h "
+            f"{'early' if off > 0 else 'late'} against the analyses"
+        )
+    runs = "\n".join(lines)
+    return (
+        f"""# sample_grids: the invented frontshift demo event
 
 > {CAUTION}
 > Everything here is invented: the sites, the dates and the weather. It is not
@@ -984,18 +1204,22 @@ def _readme(scen, facts):
 ## The event
 A frontal depression crosses the domain ({s.lat_range[0]:g}-{s.lat_range[1]:g} N,
 {abs(s.lon_range[0]):g} W-{s.lon_range[1]:g} E, {s.resolution_deg} deg grid) toward the
-east-north-east at about {np.hypot(*scen.apex_velocity):.1f} m/s between {facts['valid_times'][0]}
-and {facts['valid_times'][-1]}, deepening from {s.p_centre_hpa[0]:g} to {s.p_centre_hpa[1]:g} hPa.
+east-north-east at about {np.hypot(*scen.apex_velocity):.1f} m/s between {facts["valid_times"][0]}
+and {facts["valid_times"][-1]}, deepening from {s.p_centre_hpa[0]:g} to {s.p_centre_hpa[1]:g} hPa.
 The warm front runs out from the low toward bearing {s.warm_ray_bearing_deg:g} deg and moves
 north-north-east at {s.warm_speed_ms:g} m/s; the cold front runs out toward bearing
 {s.cold_ray_bearing_deg:g} deg and moves east at {s.cold_speed_ms:g} m/s. Both are tanh zones
-(half-widths {s.l_warm_km:g} and {s.l_cold_km:g} km) with a theta-w contrast of about 9 K
-(warm front) and 7.5 K (cold front) at 850 hPa, leaning 1 in {s.warm_slope_1_in:g} and
+(half-widths {s.l_warm_km:g} and {s.l_cold_km:g} km); at 850 hPa the theta-w contrast across
+the warm-front zone itself is about 6.5 K (about 10 K between points 300 km either side, where
+the background north-south gradient adds) and 7-8 K across the cold front. The fronts lean
+1 in {s.warm_slope_1_in:g} and
 1 in {s.cold_slope_1_in:g} toward their cold sides. A light-moderate rain shield starts about
 {s.shield_ahead_nm:g} nm ahead of the surface warm front; a heavier band lies
 {s.band_behind_nm[0]:g}-{s.band_behind_nm[1]:g} nm behind the surface cold front. A shallow
 sub-zero surface layer sits ahead of the warm front around {COLD_POOL_SITE}, which gets a
-freezing-rain window (warm air aloft over sub-zero air) before the warm front passes. A
+freezing-rain window (warm air aloft over sub-zero air) before the warm front passes
+(analyses: {facts["sets"]["analyses"]["freezing_rain_window"]["start"]} to
+{facts["sets"]["analyses"]["freezing_rain_window"]["end"]}). A
 tropopause fold lies some {s.fold_behind_km:g} km behind the surface cold front aloft, near the low.
 
 ## Files
@@ -1018,7 +1242,10 @@ quantization step) and zlib compression. Variables: `t`, `rh` (%), `u`, `v` (geo
 ## Site passages in the analyses (UTC)
 | site | lat | lon | elevation m | warm front | cold front |
 |---|---|---|---|---|---|
-""" + "\n".join(rows) + "\n"
+"""
+        + "\n".join(rows)
+        + "\n"
+    )
 
 
 def _compact_json(obj):
@@ -1026,9 +1253,40 @@ def _compact_json(obj):
     import re
 
     text = json.dumps(obj, indent=1)
-    return re.sub(r"\[\s*([-0-9.eE,\s]+?)\s*\]",
-                  lambda m: "[" + ", ".join(v.strip() for v in m.group(1).split(",")) + "]",
-                  text) + "\n"
+    return (
+        re.sub(
+            r"\[\s*([-0-9.eE,\s]+?)\s*\]",
+            lambda m: "[" + ", ".join(v.strip() for v in m.group(1).split(",")) + "]",
+            text,
+        )
+        + "\n"
+    )
+
+
+def _freezing_rain_window(scen, offset):
+    """First and last time (UTC ISO) of freezing rain at the cold-pool site, 10-min steps.
+
+    Freezing rain here: 2-m temperature (sea level, no elevation correction)
+    below 0 C, the warmest of 925, 850 and 700 hPa above 0 C, and a
+    precipitation rate of at least 0.1 mm/h.
+    """
+    lat, lon = {n: (la, lo) for n, la, lo, _ in SITES}[COLD_POOL_SITE]
+    x, y = scen.proj.forward(lon, lat)
+    heights = standard_atmosphere_height(np.array([925.0, 850.0, 700.0]))
+    hits = []
+    for minute in range(0, scen.spec.hours * 60 + 1, 10):
+        tau = minute * 60.0 + offset * 3600.0
+        t2 = scen.temperature(x, y, lat, 2.0, tau)
+        aloft = np.max(scen.temperature(x, y, lat, heights, tau))
+        if t2 < 273.15 and aloft > 273.15 and scen.precip_rate(x, y, tau) >= 0.1:
+            hits.append(minute)
+    if not hits:
+        return None
+    return {
+        "site": COLD_POOL_SITE,
+        "start": _iso(scen.start + np.timedelta64(hits[0], "m")),
+        "end": _iso(scen.start + np.timedelta64(hits[-1], "m")),
+    }
 
 
 def write_sample_event(out="sample_grids", spec=None, overwrite=False):
@@ -1068,9 +1326,11 @@ def write_sample_event(out="sample_grids", spec=None, overwrite=False):
 
 def main(argv=None):
     """Command line: ``python -m kit.scenario [--out sample_grids] [--overwrite]``."""
-    parser = argparse.ArgumentParser(prog="python -m kit.scenario",
-                                     description="Write the invented frontshift demo event.",
-                                     epilog=CAUTION)
+    parser = argparse.ArgumentParser(
+        prog="python -m kit.scenario",
+        description="Write the invented frontshift demo event.",
+        epilog=CAUTION,
+    )
     parser.add_argument("--out", default="sample_grids", help="event folder (default sample_grids)")
     parser.add_argument("--overwrite", action="store_true", help="replace an existing event")
     args = parser.parse_args(argv)

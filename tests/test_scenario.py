@@ -60,8 +60,9 @@ def _interp(ds, name, level=None):
     da = ds[name].isel(time=0)
     if level is not None:
         da = da.sel(level=level)
-    return RegularGridInterpolator((ds.lat.values, ds.lon.values), da.values,
-                                   bounds_error=False, fill_value=np.nan)
+    return RegularGridInterpolator(
+        (ds.lat.values, ds.lon.values), da.values, bounds_error=False, fill_value=np.nan
+    )
 
 
 def _point_along(line, km):
@@ -75,8 +76,9 @@ def _point_along(line, km):
 def _transect(lon0, lat0, azimuth, half_km, step_km=2.0):
     """Points on the great circle through (lon0, lat0) along ``azimuth``; s [km] from it."""
     s = np.arange(-half_km, half_km + step_km / 2, step_km)
-    lon, lat, _ = GEOD.fwd(np.full(s.shape, lon0), np.full(s.shape, lat0),
-                           np.full(s.shape, azimuth), s * 1e3)
+    lon, lat, _ = GEOD.fwd(
+        np.full(s.shape, lon0), np.full(s.shape, lat0), np.full(s.shape, azimuth), s * 1e3
+    )
     return s, np.asarray(lon), np.asarray(lat)
 
 
@@ -87,8 +89,13 @@ def _zone_fit(s, values, window_km=250.0):
     first = s[int(np.nanargmax(grad))]
     near = np.abs(s - first) <= window_km
     guess = [values[near].mean(), 0.0, (values[near][-1] - values[near][0]) / 2, first, 60.0]
-    par, _ = curve_fit(lambda x, a, b, c, s0, ell: a + b * x + c * np.tanh((x - s0) / ell),
-                       s[near], values[near], p0=guess, maxfev=5000)
+    par, _ = curve_fit(
+        lambda x, a, b, c, s0, ell: a + b * x + c * np.tanh((x - s0) / ell),
+        s[near],
+        values[near],
+        p0=guess,
+        maxfev=5000,
+    )
     return par[3], 2 * abs(par[2]), abs(par[4])
 
 
@@ -112,8 +119,9 @@ def regenerated(tmp_path_factory):
 def test_regenerated_steps_equal_committed_files(regenerated):
     assert len(regenerated) == len(STEPS)
     for path in regenerated:
-        rel = path.relative_to(path.parents[2] if path.parent.name != "analyses"
-                               else path.parents[1])
+        rel = path.relative_to(
+            path.parents[2] if path.parent.name != "analyses" else path.parents[1]
+        )
         committed = EVENT / rel
         assert committed.exists(), committed
         with netCDF4.Dataset(path) as new, netCDF4.Dataset(committed) as old:
@@ -140,7 +148,8 @@ def test_files_cover_both_runs_and_the_analyses(truth):
     assert n == 17
     assert len(sorted((EVENT / "runs" / RUN_A).glob("step_*.nc"))) == n
     assert [p.name for p in sorted((EVENT / "runs" / RUN_B).glob("step_*.nc"))] == [
-        f"step_{h:03d}.nc" for h in range(12, 61, 3)]
+        f"step_{h:03d}.nc" for h in range(12, 61, 3)
+    ]
     assert len(sorted((EVENT / "analyses").glob("valid_*.nc"))) == n
 
 
@@ -153,13 +162,19 @@ def test_size_of_the_event_folder():
 # CF metadata
 # --------------------------------------------------------------------------
 
+
 def test_cf_attributes():
     expected = {
-        "t": ("air_temperature", "K"), "rh": ("relative_humidity", "%"),
-        "u": ("eastward_wind", "m s-1"), "v": ("northward_wind", "m s-1"),
-        "z": ("geopotential_height", "m"), "msl": ("air_pressure_at_mean_sea_level", "Pa"),
-        "t2m": ("air_temperature", "K"), "d2m": ("dew_point_temperature", "K"),
-        "u10": ("eastward_wind", "m s-1"), "v10": ("northward_wind", "m s-1"),
+        "t": ("air_temperature", "K"),
+        "rh": ("relative_humidity", "%"),
+        "u": ("eastward_wind", "m s-1"),
+        "v": ("northward_wind", "m s-1"),
+        "z": ("geopotential_height", "m"),
+        "msl": ("air_pressure_at_mean_sea_level", "Pa"),
+        "t2m": ("air_temperature", "K"),
+        "d2m": ("dew_point_temperature", "K"),
+        "u10": ("eastward_wind", "m s-1"),
+        "v10": ("northward_wind", "m s-1"),
         "precip": ("precipitation_amount", "kg m-2"),
     }
     with netCDF4.Dataset(EVENT / "runs" / RUN_B / "step_027.nc") as nc:
@@ -184,6 +199,7 @@ def test_cf_attributes():
 # --------------------------------------------------------------------------
 # Map projection [lib]
 # --------------------------------------------------------------------------
+
 
 def test_plane_matches_pyproj_stereographic():
     # pyproj (PROJ) as a second implementation of Snyder (1987) Eqs. 21-2..21-4
@@ -210,6 +226,7 @@ def test_standard_atmosphere_heights():
 # Hydrostatic heights [pub] and [lib]
 # --------------------------------------------------------------------------
 
+
 def test_heights_are_hypsometric():
     # Hypsometric equation, layer form z2 - z1 = (Rd/g0) Tmean ln(p1/p2)
     # (Wallace & Hobbs 2006, Atmospheric Science 2nd ed., Eq. 3.29; number
@@ -224,8 +241,13 @@ def test_heights_are_hypsometric():
         np.testing.assert_allclose(z[k] - z[k - 1], dz, atol=1.3, err_msg=f"{p[k]} hPa")
     # sea level -> 1000 hPa with the 2-m temperature standing in for the
     # sea-level one (2 m apart: < 0.02 K)
-    z1000 = RD / G0 * 0.5 * (ds.t2m.isel(time=0).values + t[0]) * np.log(
-        ds.msl.isel(time=0).values / 1e5)
+    z1000 = (
+        RD
+        / G0
+        * 0.5
+        * (ds.t2m.isel(time=0).values + t[0])
+        * np.log(ds.msl.isel(time=0).values / 1e5)
+    )
     np.testing.assert_allclose(z[0], z1000, atol=0.8)
 
 
@@ -244,6 +266,7 @@ def test_thickness_against_metpy():
 # --------------------------------------------------------------------------
 # Geostrophic winds [pub] and [lib]
 # --------------------------------------------------------------------------
+
 
 def _own_geostrophic(z, lat, lon):
     """Centred differences on the sphere: ug = -(g0/f) dz/dy, vg = (g0/f) dz/dx."""
@@ -307,6 +330,7 @@ def test_jet_in_the_upper_troposphere():
 # Front speeds and slopes from the written fields [regression against truth]
 # --------------------------------------------------------------------------
 
+
 def _centre_position(ds, kind, level, lon0, lat0, az_normal, half_km=900.0):
     s, lon, lat = _transect(lon0, lat0, az_normal, half_km)
     values = _interp(ds, "t", level)(np.c_[lat, lon])
@@ -336,8 +360,9 @@ def test_speed_and_slope_from_the_fields(truth, kind):
     # the front moves toward its cold side (warm) or warm side (cold)
     moved_km = (s_low2 - s_low1) * (1 if kind == "warm" else -1)
     speed = moved_km * 1e3 / ((t2 - t1) * 3600.0)
-    expected = np.mean([truth["sets"]["analyses"]["times"][_iso(h)]["speed_earth_ms"][kind]
-                        for h in (t1, t2)])
+    expected = np.mean(
+        [truth["sets"]["analyses"]["times"][_iso(h)]["speed_earth_ms"][kind] for h in (t1, t2)]
+    )
     assert speed == pytest.approx(expected, rel=0.03)
     assert expected == pytest.approx(truth["speeds_ms"][kind], rel=0.015)
     dh = hgt[str(int(upper))] - hgt[str(int(low))]
@@ -395,8 +420,10 @@ def test_run_fronts_are_offset_in_time(truth):
 # Weather along the fronts [trade] and the theta-w contrast [lib]
 # --------------------------------------------------------------------------
 
-def _across(ds, truth, hour, kind, km, half_km, field, level=None, set_name="analyses",
-            line_level="surface"):
+
+def _across(
+    ds, truth, hour, kind, km, half_km, field, level=None, set_name="analyses", line_level="surface"
+):
     line = truth["sets"][set_name]["times"][_iso(hour)][line_level][kind]
     lon0, lat0, az_ray = _point_along(line, km)
     az_normal = az_ray - 90.0 if kind == "warm" else az_ray + 90.0  # to the cold side
@@ -460,7 +487,9 @@ def test_locating_line_is_on_the_warm_side(truth):
     for kind in ("warm", "cold"):
         c, loc = rec["850hPa"][kind], rec["850hPa_locating"][kind]
         lon0, lat0, _ = _point_along(c, 500.0)
-        dist = min(GEOD.inv(lon0, lat0, lo, la)[2] for lo, la in zip(loc["lon"], loc["lat"]))
+        dist = min(
+            GEOD.inv(lon0, lat0, lo, la)[2] for lo, la in zip(loc["lon"], loc["lat"], strict=True)
+        )
         # nearest vertex of a 50 km spaced line: the normal offset is within
         # sqrt(d^2 + 25^2) of the vertex distance
         expected = 0.658 * truth["prescribed"][kind]["zone_half_width_l_km"]
@@ -490,8 +519,10 @@ def test_precipitation_shield_and_band(truth):
         la = truth["sets"]["analyses"]["times"][_iso(21)]["surface"][kind]
         lb = truth["sets"]["analyses"]["times"][_iso(24)]["surface"][kind]
         n = min(len(la["lon"]), len(lb["lon"]))
-        half[kind] = {"lon": list((np.array(la["lon"][:n]) + lb["lon"][:n]) / 2),
-                      "lat": list((np.array(la["lat"][:n]) + lb["lat"][:n]) / 2)}
+        half[kind] = {
+            "lon": list((np.array(la["lon"][:n]) + lb["lon"][:n]) / 2),
+            "lat": list((np.array(la["lat"][:n]) + lb["lat"][:n]) / 2),
+        }
     fake = {"sets": {"analyses": {"times": {_iso(0): {"surface": half}}}}}
     s, rate, _ = _across(ds, fake, 0, "warm", 700.0, 700.0, "rate")
     ahead = s > 0  # cold side of the warm front = ahead of it
@@ -553,26 +584,44 @@ def test_freezing_rain_window_at_one_site(truth):
         if t2m < 0.0 and aloft > 1.0 and rate > 0.5:
             windows.append(h)
     assert len(windows) >= 1
-    warm = np.datetime64(truth["sets"]["analyses"]["passages"][site[0]]["warm"].rstrip("Z"))
-    for h in windows:  # before the surface warm front passes
-        assert np.datetime64("2027-01-14T00") + np.timedelta64(h, "h") < warm
+    entry = truth["sets"]["analyses"]
+    warm = np.datetime64(entry["passages"][site[0]]["warm"].rstrip("Z"))
+    first = np.datetime64(entry["freezing_rain_window"]["start"].rstrip("Z"))
+    last = np.datetime64(entry["freezing_rain_window"]["end"].rstrip("Z"))
+    for h in windows:  # before the surface warm front passes, inside the truth window
+        valid = np.datetime64("2027-01-14T00") + np.timedelta64(h, "h")
+        assert valid < warm
+        assert first - np.timedelta64(3, "h") <= valid <= last + np.timedelta64(10, "m")
+
+
+def _tropopause_level(ds, lon, lat):
+    """Bottom [m] of the lowest layer above 500 hPa whose lapse rate is under
+    2 K/km (the WMO lapse-rate criterion, layer form, from memory)."""
+    pt = np.c_[[lat], [lon]]
+    levels = [lv for lv in sc.LEVELS_HPA if lv <= 500.0]
+    t = [_interp(ds, "t", lv)(pt)[0] for lv in levels]
+    z = [_interp(ds, "z", lv)(pt)[0] for lv in levels]
+    for k in range(len(levels) - 1):
+        if (t[k] - t[k + 1]) / (z[k + 1] - z[k]) * 1e3 < 2.0:
+            return z[k]
+    return np.inf
 
 
 def test_tropopause_fold_behind_the_cold_front(truth):
-    # behind the cold front aloft the 400-300 hPa layer is stratospheric
-    # (lapse rate under 2 K/km; WMO tropopause criterion) while ahead of the
-    # front it is tropospheric (over 5 K/km)
+    # behind the cold front aloft the tropopause dips (a fold): at least 1 km
+    # lower where the scenario puts the fold than as far ahead of the front, and the
+    # air there stays statically stable (potential temperature rising with
+    # height in every layer)
     ds = _open(_analysis(24))
     line = truth["sets"]["analyses"]["times"][_iso(24)]["surface"]["cold"]
     lon0, lat0, az = _point_along(line, 500.0)
-    lapse = {}
-    for name, dist, sign in (("fold", 400e3, +90.0), ("ahead", 400e3, -90.0)):
-        lo, la, _ = GEOD.fwd(lon0, lat0, az + sign, dist)
-        pt = np.c_[[la], [lo]]
-        t4, t3 = (_interp(ds, "t", lv)(pt)[0] for lv in (400.0, 300.0))
-        z4, z3 = (_interp(ds, "z", lv)(pt)[0] for lv in (400.0, 300.0))
-        lapse[name] = (t4 - t3) / (z3 - z4) * 1e3
-    assert lapse["fold"] < 2.0 and lapse["ahead"] > 5.0, lapse
+    dist = truth["prescribed"]["tropopause_fold"]["behind_surface_cold_front_km"] * 1e3
+    lo_f, la_f, _ = GEOD.fwd(lon0, lat0, az + 90.0, dist)
+    lo_a, la_a, _ = GEOD.fwd(lon0, lat0, az - 90.0, dist)
+    fold, ahead = _tropopause_level(ds, lo_f, la_f), _tropopause_level(ds, lo_a, la_a)
+    assert fold < ahead - 1000.0, (fold, ahead)
+    theta = ds.t.isel(time=0) * (1000.0 / ds.level) ** 0.2857
+    assert float(theta.diff("level").min()) > 0.0  # levels run 1000 -> 200 hPa
 
 
 def test_relative_humidity_saturated_over_the_warm_frontal_surface(truth):
@@ -592,10 +641,11 @@ def test_relative_humidity_saturated_over_the_warm_frontal_surface(truth):
 # Sites and station series
 # --------------------------------------------------------------------------
 
+
 def test_station_series_layout_and_defects(truth):
     header = "time_utc,pressure_hpa,temperature_c,dewpoint_c,wind_dir_deg,wind_speed_kt,precip_mm_h"
     garbage, gappy = [], []
-    for name, lat, lon, _ in sc.SITES:
+    for name, *_ in sc.SITES:
         path = EVENT / "stations" / f"{name}.csv"
         assert path.read_text().splitlines()[0] == header
         raw = pd.read_csv(path, dtype=str)
@@ -638,8 +688,10 @@ def test_sites_see_both_fronts_in_the_fields(truth):
         warm = pd.Timestamp(p["warm"].rstrip("Z"))
         cold = pd.Timestamp(p["cold"].rstrip("Z"))
         before = int(((warm - pd.Timestamp("2027-01-14")) / pd.Timedelta(hours=3))) * 3 - 3
-        inside = int(((warm + (cold - warm) / 2 - pd.Timestamp("2027-01-14"))
-                      / pd.Timedelta(hours=3))) * 3
+        inside = (
+            int(((warm + (cold - warm) / 2 - pd.Timestamp("2027-01-14")) / pd.Timedelta(hours=3)))
+            * 3
+        )
         before = max(before, 0)
         pt = np.c_[[lat], [lon]]
         t_before = _interp(_open(_analysis(before)), "t2m")(pt)[0]
