@@ -199,6 +199,44 @@ def test_empty_last_step_is_named_in_the_fronts_product(event, tmp_path, capsys)
     assert "2031-02-03T12:00" in note, collection["properties"]
 
 
+def test_section_at_an_empty_step_says_no_data(event, tmp_path, capsys):
+    # the step exists but every value is missing: say so, not "outside the grid"
+    out = tmp_path / "section.png"
+    status = main([str(a) for a in (
+        "section", event / "emptystep", "--site", "Harrowby Field", "--time",
+        "2031-02-03T12:00Z", "--sites", event / "sites.csv", "--out", out)])
+    err = capsys.readouterr().err
+    assert status == 2 and err.count("\n") == 1 and err.startswith("error: "), err
+    assert "2031-02-03T12:00" in err, err
+    assert any(w in err.lower() for w in ("no data", "missing", "all nan")), err
+    assert "outside the grid" not in err, err
+    assert not out.exists()
+
+
+def test_section_through_a_nan_patch_marks_the_gap(event):
+    # the figure must say why part of the section is blank (level below ground /
+    # no model data), not leave a white hole a reader may take for clear air
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from kit.charts.sections import section_figure
+    from kit.grids import open_run
+    from kit.sections import section_for_site, select_time
+
+    ds = open_run(event / "patch")
+    site = SITES[SITES["name"] == "Tor Heights"].iloc[0]
+    sec = section_for_site(ds, site, select_time(ds, "2031-02-03T06:00Z"), front="nearest",
+                           length_km=1200.0, spacing_km=10.0, level=850.0, member=None)
+    assert float(sec["t"].isnull().mean()) > 0.2  # the patch is on the section
+    fig = section_figure(sec)
+    words = [t.get_text() for t in fig.findobj(matplotlib.text.Text)]
+    for ax in fig.axes:
+        words += [str(h.get_label()) for h in ax.get_legend_handles_labels()[0]]
+        words += ax.get_legend_handles_labels()[1]
+    text = " ".join(words).lower()
+    assert any(w in text for w in ("no data", "no model data", "below ground", "missing")), text
+
+
 # --------------------------------------------------------------------------- shift, no fronts
 def test_shift_without_any_front_is_complete_and_says_so(event, tmp_path, capsys):
     _run_ok(["shift", event / "constant", "--sites", event / "sites.csv", "--out", tmp_path,
