@@ -315,13 +315,15 @@ def test_bad_site_list(event, tmp_path, capsys, command, case):
 BAD_ARGS = {
     "fronts": [(["--level", "300"], ["300", "hPa"]),
                (["--smoothing-km", "-5"], ["smoothing", "-5"]),
-               (["--min-length-km", "nan"], ["min_length_km", "nan"])],
+               (["--min-length-km", "nan"], ["min_length_km", "nan"]),
+               (["--member", "3"], ["member", "3", "no ensemble member"])],
     "arrivals": [(["--level", "300"], ["300", "hPa"]),
                  (["--horizon-h", "-1"], ["--horizon-h", "0 to 48"])],
     "section": [(["--time", "2031-02-09T06:00Z"], ["2031-02-09"]),
                 (["--time", "yesterday"], ["yesterday"]),
                 (["--level", "300"], ["300", "hPa"]),
-                (["--length-km", "5"], ["--length-km", "50 to 10000"])],
+                (["--length-km", "5"], ["--length-km", "50 to 10000"]),
+                (["--member", "3"], ["member", "3", "no ensemble member"])],
     "shift": [(["--level", "300"], ["300", "hPa"]),
               (["--maps-every-h", "-3"], ["--maps-every-h"])],
 }
