@@ -7,6 +7,7 @@ what was expected, and that it is a single line.
 
 import numpy as np
 import pytest
+import xarray as xr
 from conftest import synthetic_fields, to_cf, write_cf
 
 from kit.cli import main as cli_main
@@ -350,3 +351,22 @@ def test_command_line_prints_one_error_line_and_exits_2(tmp_path, capsys):
     assert err.startswith("error: ") and err.count("\n") == 1, err
     assert "notes.nc" in err and "not a NetCDF file" in err
     assert "Traceback" not in err
+
+
+def test_one_file_holding_several_runs(tmp_path):
+    ds = to_cf(small())
+    lead = (ds["time"].values - ds["forecast_reference_time"].values).astype("timedelta64[ns]")
+    runs = xr.concat(
+        [
+            ds.drop_vars("time").rename({"time": "step"}).assign_coords(step=("step", lead)),
+            ds.drop_vars("time").rename({"time": "step"}).assign_coords(step=("step", lead)),
+        ],
+        dim="time",
+    )
+    refs = np.array(["2027-01-14T00", "2027-01-14T12"], dtype="datetime64[ns]")
+    runs = runs.drop_vars("forecast_reference_time").assign_coords(time=("time", refs))
+    runs = runs.assign_coords(valid_time=runs["time"] + runs["step"])
+    runs.to_netcdf(tmp_path / "two.nc")
+    raises_one_line(
+        lambda: open_run(tmp_path / "two.nc"), "two.nc", "several runs", "expected one model run"
+    )

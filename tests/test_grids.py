@@ -1196,3 +1196,15 @@ def test_grads_style_short_names(tmp_path, base):
     )
     got = open_run(write(raw, tmp_path / "grads.nc"))
     assert_canonical_equal(got, base, skip=("td",))
+
+
+def test_folder_of_analyses_each_its_own_reference_time(tmp_path, base):
+    for i in range(base.sizes["time"]):
+        one = raw_variant(base.isel(time=[i]), precip=False)
+        one = one.assign_coords(forecast_reference_time=base["time"].values[i])
+        write(one, tmp_path / "an" / f"an_{i}.nc")
+    got = open_run(tmp_path / "an")
+    assert got.attrs["kind"] == "analyses"
+    assert got["reference_time"].values == base["time"].values[0]
+    np.testing.assert_array_equal(got["time"].values, base["time"].values)
+    np.testing.assert_allclose(got["t"].values, base["t"].values, rtol=1e-12)
