@@ -165,6 +165,58 @@ def test_single_time_step_arrivals_are_marked_or_extrapolated(event, tmp_path, c
             assert row["note"], row.to_dict()
 
 
+def test_single_time_step_timelines_all_or_nothing(event, tmp_path, capsys):
+    # a timeline of one step may be drawn or refused, but a refusal must come
+    # before anything is written: exit 2 with the table already on disk is a
+    # partial product
+    out = tmp_path / "products"
+    argv = ["arrivals", event / "single", "--sites", event / "sites.csv", "--out",
+            out / "arrivals.csv", "--timelines", out / "timelines"]
+    status = main([str(a) for a in argv])
+    err = capsys.readouterr().err
+    assert "Traceback" not in err
+    if status == 2:
+        assert err.startswith("error: ") and err.count("\n") == 1, err
+        assert not out.exists() or not any(out.rglob("*")), sorted(out.rglob("*"))
+    else:
+        assert status == 0, err
+        assert (out / "arrivals.csv").exists()
+        assert len(list((out / "timelines").glob("*.png"))) == len(SITES)
+
+
+def test_single_time_step_shift_is_complete(event, tmp_path, capsys):
+    _run_ok(["shift", event / "single", "--sites", event / "sites.csv", "--out", tmp_path,
+             "--quiet", "--maps-every-h", "0", "--max-sections", "1"], capsys)
+    folder = tmp_path / "shift_2031-02-03T00Z"
+    manifest = json.loads((folder / "manifest.json").read_text())
+    kinds = {f["kind"] for f in manifest["files"]}
+    assert {"fronts_geojson", "map", "arrivals_csv", "pack"} <= kinds
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]
+
+
+def test_timeline_says_which_fields_the_run_lacks(event, recwarn):
+    # the invented step files carry no 2 m temperature and no precipitation: the
+    # timeline's empty panels must say so, and drawing must not spill warnings
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from kit.arrivals import arrival_table
+    from kit.charts.timelines import timeline_figure
+    from kit.grids import open_run
+
+    ds = open_run(event / "constant")
+    assert "t2m" not in ds and "precip" not in ds
+    table, series = arrival_table([ds], SITES, return_series=True)
+    key = next(k for k in series if k[2] == "Harrowby Field")
+    fig = timeline_figure(series[key], table[table["site"] == "Harrowby Field"])
+    text = " ".join(t.get_text() for t in fig.findobj(matplotlib.text.Text)).lower()
+    assert "no 2 m" in text or "2 m temperature not in this run" in text, text
+    assert "no precipitation" in text or "precipitation not in this run" in text, text
+    assert "no front passage" in text, text  # the empty timeline says it is empty
+    assert not [w for w in recwarn if issubclass(w.category, UserWarning)], [
+        str(w.message) for w in recwarn]
+
+
 # --------------------------------------------------------------------------- missing patch
 def test_nan_patch_fronts_stay_out_of_the_missing_data(event, tmp_path, capsys):
     collection, _ = _fronts(event, "patch", tmp_path, capsys)
