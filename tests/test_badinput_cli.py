@@ -88,6 +88,15 @@ def _truncated(event):
     return folder
 
 
+def _corrupt(event):
+    """A file that starts like NetCDF-4 (HDF5 signature) and then is noise."""
+    path = event / "corrupt.nc"
+    if not path.exists():
+        noise = np.random.default_rng(7).integers(0, 256, 4096, dtype=np.uint8).tobytes()
+        path.write_bytes(b"\x89HDF\r\n\x1a\n" + noise)
+    return path
+
+
 def _drop_humidity(ds):
     return ds.drop_vars("td")
 
@@ -147,6 +156,7 @@ def _mixed(event, name, change_second):
 BAD_RUNS = {
     "text-file-named-nc": (_text_named_nc, ["notes.nc", "not a NetCDF file"]),
     "truncated-file": (_truncated, ["step_006.nc", "truncated or corrupt"]),
+    "corrupt-file": (_corrupt, ["corrupt.nc", "corrupt"]),
     "missing-humidity": (lambda e: _rewrite(e, "nohum", _drop_humidity),
                          ["step_000.nc", "humidity", "dew_point_temperature"]),
     "renamed-temperature": (lambda e: _rewrite(e, "renamed", _rename_temperature),
