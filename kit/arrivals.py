@@ -1207,6 +1207,23 @@ def weather_sequence(
 # ----------------------------------------------------------------------- spread
 
 
+def _missing_steps(series, level):
+    """Count the steps where the model has no data at the site: (missing, total).
+
+    A step is missing when the site's temperature or dew point on the fronts'
+    ``level`` [hPa] is NaN, or its whole temperature column, or its 2-m
+    temperature (where the run has one).
+    """
+    t = np.asarray(series["t"].transpose("time", ...).values, dtype=float)
+    bad = ~np.isfinite(t.reshape(t.shape[0], -1)).any(axis=1)
+    for var in ("t", "td"):
+        at_level = series[var].sel(level=float(level), method="nearest")
+        bad |= ~np.isfinite(np.asarray(at_level.transpose("time", ...).values, dtype=float))
+    if "t2m" in series:
+        bad |= ~np.isfinite(np.asarray(series["t2m"].values, dtype=float).reshape(t.shape[0]))
+    return int(bad.sum()), int(bad.size)
+
+
 def add_spread(table, *, max_match_h=24.0):
     """Earliest, median and latest passage over runs/members, and ``spread_h``.
 
@@ -1389,6 +1406,22 @@ def arrival_table(
             for _, site in sites.iterrows():
                 series = all_series[site["name"]]
                 store[(run, member, site["name"])] = series
+                base = {"site": site["name"], "run": run, "member": member}
+                n_miss, n_all = _missing_steps(series, level)
+                if n_miss == n_all:
+                    rows.append(
+                        {
+                            **base,
+                            "front_kind": "",
+                            "_passage_h": np.nan,
+                            "note": f"no model data at the site: values missing there at "
+                            f"{level:g} hPa or near the ground at every step; passage unknown",
+                        }
+                    )
+                    continue
+                gap = (
+                    f"model data missing at the site at {n_miss} of {n_all} steps" if n_miss else ""
+                )
                 found = find_passages(
                     mfronts,
                     series,
@@ -1399,7 +1432,6 @@ def arrival_table(
                     miss_report_km=miss_report_km,
                     centre_finder=finder,
                 )
-                base = {"site": site["name"], "run": run, "member": member}
                 if not found:
                     rows.append(
                         {
@@ -1407,7 +1439,7 @@ def arrival_table(
                             "front_kind": "",
                             "_passage_h": np.nan,
                             "note": f"no front passage {format_utc(first_h)} to "
-                            f"{format_utc(last_h + horizon_h)}",
+                            f"{format_utc(last_h + horizon_h)}" + (f"; {gap}" if gap else ""),
                         }
                     )
                     continue
@@ -1444,6 +1476,8 @@ def arrival_table(
                             r["note"] = (
                                 r["note"] + "; " if r["note"] else ""
                             ) + "site elevation not given: 0 m assumed"
+                    if gap:
+                        r["note"] = (r["note"] + "; " if r["note"] else "") + gap
                     rows.append(r)
     table = pd.DataFrame(rows)
     table = add_spread(table, max_match_h=max_match_h)

@@ -696,3 +696,17 @@ def test_light_wind_turn_flagged():
     ds["v10"] = ds["v10"] * 0.1
     row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
     assert "turn uncertain" in row["note"]
+
+
+def test_site_in_missing_data_says_so():
+    """A site where the run has no values (NaN patch) is not told 'no front passage'."""
+    ds, fronts = make_run(kind="cold", passage_h=12.0)
+    patch = dict(lat=slice(48.0, 52.0), lon=slice(-2.0, 2.0))
+    for var in ("t", "td", "t2m", "td2m"):
+        ds[var].loc[patch] = np.nan
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    assert row["passage_utc"] == "" and "no model data at the site" in row["note"]
+    ds, fronts = make_run(kind="cold", passage_h=12.0)
+    ds["t2m"][{"time": 0}] = np.nan  # one step missing: passage kept, gap named
+    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    assert row["passage_utc"] and "missing at the site at 1 of 13 steps" in row["note"]
