@@ -437,15 +437,15 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
                             f"maps/through_run_{_slug(label)}.png", "through_run",
                             pack=in_pack, run=label)
             # one map frame per run, redrawn per valid time (same colours through the run)
-            series = maps.MapSeries(ds, sites=sites, level=level, field=field)
+            frame = maps.MapSeries(ds, sites=sites, level=level, field=field)
             for t in map_times[k]:
-                png = series.draw(t, fronts, run=label)
+                png = frame.draw(t, fronts, run=label)
                 rel = f"maps/map_{_slug(label)}_{pd.Timestamp(t):%Y%m%dT%H%MZ}.png"
                 if in_pack is not None:
-                    in_pack.add_figure(series.fig, title="map")
+                    in_pack.add_figure(frame.fig, title="map")
                 products.add(write_bytes(tmp / rel, png), "map", run=label, valid_time=_iso(t),
-                             fronts=series.fig._frontshift.get("fronts", 0))
-            series.fig.clear()
+                             fronts=frame.fig._frontshift.get("fronts", 0))
+            frame.fig.clear()
 
         # sections through the sites across the passing fronts (newest run)
         for site, front, ds in section_jobs:
