@@ -888,6 +888,19 @@ def speeds_three_ways(
 # --------------------------------------------------------------------------
 # whole run
 # --------------------------------------------------------------------------
+#: a lazy (dask) run smaller than this is read into memory once before the
+#: analysis, which samples it many times; larger runs stay lazy [bytes]
+IN_MEMORY_BYTES = 2_000_000_000
+
+
+def _in_memory_if_small(ds):
+    """Read a lazy run into memory once when it is small enough (see IN_MEMORY_BYTES)."""
+    lazy = any(getattr(v.variable, "chunks", None) is not None for v in ds.data_vars.values())
+    if lazy and ds.nbytes <= IN_MEMORY_BYTES:
+        return ds.load()
+    return ds
+
+
 def analyse_run(ds, *, level=850.0, settings=None, member=None):
     """Fronts of a run with tracks, speeds three ways and slopes.
 
@@ -917,6 +930,7 @@ def analyse_run(ds, *, level=850.0, settings=None, member=None):
     from kit.structure import add_slopes
 
     settings = settings if settings is not None else FrontSettings()
+    ds = _in_memory_if_small(ds)
     if member is not None:
         members = [member]
     elif "member" in ds.dims:

@@ -730,12 +730,12 @@ def rerun_event(event_dir, *, level=850.0):
         observed.append(detect_passages(series, latitude=float(site["lat"])))
     observed = (pd.concat(observed, ignore_index=True) if observed
                 else pd.DataFrame(columns=_PASSAGE_COLUMNS))
-    runs = [open_run(p) for p in run_paths]
+    runs = [open_run(p).load() for p in run_paths]
     refs = {ds.attrs["run"]: pd.Timestamp(ds["reference_time"].values) for ds in runs}
-    forecast = arrival_table(runs, sites)
-    analysis = open_run(event / "analyses")
-    verifying = analyse_run(analysis, level=level)
-    fronts = [f for ds in runs for f in analyse_run(ds, level=level)]
+    fronts_by_run = [analyse_run(ds, level=level) for ds in runs]
+    forecast = arrival_table(runs, sites, fronts_by_run, level=level)
+    verifying = analyse_run(open_run(event / "analyses"), level=level)
+    fronts = [f for run_fronts in fronts_by_run for f in run_fronts]
     obs_out = observed.copy()
     obs_out.insert(0, "event", name)
     obs_out["passage_utc"] = obs_out["passage_utc"].map(_utc)
@@ -787,7 +787,7 @@ def rerun_events(event_dirs, *, scheduler=None, workers=2, level=850.0, progress
             ) from None
     else:
         cluster = LocalCluster(n_workers=max(1, int(workers)), threads_per_worker=1,
-                               processes=True, dashboard_address=None)
+                               processes=True, dashboard_address=":0")
         client = Client(cluster)
     try:
         futures = {client.submit(_rerun_task, str(e), level, pure=False): e for e in events}
