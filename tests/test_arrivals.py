@@ -710,3 +710,22 @@ def test_site_in_missing_data_says_so():
     ds["t2m"][{"time": 0}] = np.nan  # one step missing: passage kept, gap named
     row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
     assert row["passage_utc"] and "missing at the site at 1 of 13 steps" in row["note"]
+
+
+def test_timeline_of_one_step_without_surface_fields():
+    """A one-step run without 2-m fields and precipitation still draws: each empty
+    panel says what the run lacks and the figure says no front passed."""
+    pytest.importorskip("matplotlib")
+    from kit.charts.style import stamp_texts
+    from kit.charts.timelines import timeline_figure
+
+    ds, fronts = make_run(kind="cold", passage_h=60.0, hours=np.array([0]), grid_step=1.0)
+    ds = ds.drop_vars(["t2m", "td2m", "precip"])
+    table, store = arrival_table(
+        [ds], site_frame(name="Ollerby Cross"), [fronts], surface=False, return_series=True
+    )
+    fig = timeline_figure(store[("2027-01-14T00Z", None, "Ollerby Cross")], table)
+    texts = " | ".join(stamp_texts(fig))
+    assert "2 m temperature and dew point not in this run" in texts
+    assert "precipitation not in this run" in texts
+    assert "no front passage" in texts

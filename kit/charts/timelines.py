@@ -77,10 +77,8 @@ def timeline_figure(series, rows=None, *, title_extra=None):
     matplotlib.figure.Figure
         Stamped with run, valid period, lead range, source and kit.CAUTION.
     """
-    if "time" not in series.coords or series.sizes.get("time", 0) < 2:
-        raise InputError(
-            "timeline: site series has fewer than 2 times; expected a run's time series"
-        )
+    if "time" not in series.coords or series.sizes.get("time", 0) < 1:
+        raise InputError("timeline: site series has no times; expected a run's time series")
     if "member" in series.dims:
         raise InputError(
             "timeline: site series has a member dimension; expected one member selected"
@@ -100,6 +98,22 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         bottom_in=0.5,
     )
     ax_t, ax_p, ax_w, ax_h = axes[:, 0]
+    # model step [datetime64]; a one-step run is drawn with a 3-h step
+    step = np.median(np.diff(times)) if times.size > 1 else np.timedelta64(3, "h")
+
+    def absent(ax, what):
+        ax.set_yticks([])
+        ax.text(
+            0.5,
+            0.5,
+            f"{what} not in this run",
+            transform=ax.transAxes,
+            ha="center",
+            va="center",
+            fontsize=FONT["label"],
+            color=BRIEFING_COLOURS["muted"],
+        )
+
     with briefing_rc():
         # temperature and dew point
         if "t2m" in series:
@@ -120,19 +134,22 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             )
         ax_t.axhline(0.0, color=BRIEFING_COLOURS["muted"], lw=0.6, ls=":")
         ax_t.set_ylabel("2 m T, Td [C]")
-        ax_t.legend(
-            loc="best",
-            fontsize=FONT["small"],
-            frameon=True,
-            framealpha=0.95,
-            facecolor="white",
-            edgecolor="none",
-            ncol=2,
-        )
+        if "t2m" in series or "td2m" in series:
+            ax_t.legend(
+                loc="best",
+                fontsize=FONT["small"],
+                frameon=True,
+                framealpha=0.95,
+                facecolor="white",
+                edgecolor="none",
+                ncol=2,
+            )
+        else:
+            absent(ax_t, "2 m temperature and dew point")
         # precipitation bars over the step each rate covers
         if "precip" in series:
             width = np.diff(times) / np.timedelta64(1, "D")
-            width = np.concatenate([[width[0]], width])
+            width = np.concatenate([[step / np.timedelta64(1, "D")], width])
             left = mdates.date2num(times) - width
             ax_p.bar(
                 left,
@@ -152,7 +169,11 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 facecolor="white",
                 edgecolor="none",
             )
-            ax_p.set_ylim(0, max(1.0, float(np.nanmax(series["precip"].values))) * 1.3)
+            rates = np.asarray(series["precip"].values, dtype=float)
+            peak = float(np.nanmax(rates)) if np.isfinite(rates).any() else 0.0
+            ax_p.set_ylim(0, max(1.0, peak) * 1.3)
+        else:
+            absent(ax_p, "precipitation")
         ax_p.set_ylabel("[mm/h]")
         # wind barbs at 10 m [kt]
         if "wind_u_ms" in series:
@@ -181,16 +202,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                     color=INK,
                 )
         else:
-            ax_w.text(
-                0.5,
-                0.5,
-                "no wind in the run",
-                transform=ax_w.transAxes,
-                ha="center",
-                va="center",
-                fontsize=FONT["small"],
-                color=BRIEFING_COLOURS["muted"],
-            )
+            absent(ax_w, "wind")
         ax_w.set_ylim(0, 1.15)
         ax_w.set_yticks([])
         ax_w.set_ylabel("wind 10 m\n[deg/kt]")
@@ -206,6 +218,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 color=TIMELINE_COLOURS[key],
                 lw=1.8 if key == "freezing_level" else 1.3,
                 ls="-" if key == "freezing_level" else "--",
+                marker="o" if times.size == 1 else None,
                 label=label,
             )
         ax_h.plot(
@@ -220,8 +233,8 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         wl = np.isfinite(series["warm_layer_max_c"].values)
         first_span = True
         for k in np.nonzero(wl)[0]:
-            lo = times[k] - (times[1] - times[0]) / 2
-            hi = times[k] + (times[1] - times[0]) / 2
+            lo = times[k] - step / 2
+            hi = times[k] + step / 2
             ax_h.axvspan(
                 lo,
                 hi,
@@ -295,6 +308,24 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                             colour,
                         )
                     )
+        if not labels and rows is not None:  # say why no passage is marked
+            own_rows = rows[rows["run"].astype(str) == run] if "run" in rows else rows
+            why = [
+                str(r["note"])
+                for _, r in own_rows.iterrows()
+                if not r.get("passage_utc") and str(r.get("note", ""))
+            ]
+            ax_t.text(
+                0.5,
+                0.93,
+                why[0] if why else "no front passage in this run",
+                transform=ax_t.transAxes,
+                ha="center",
+                va="top",
+                fontsize=FONT["label"],
+                color=INK,
+                bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.9},
+            )
         for n, (tp, text, colour) in enumerate(sorted(labels, key=lambda x: x[0])):
             ax_t.annotate(
                 text,
@@ -319,7 +350,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 ax.get_legend().set_zorder(7)
         ax_h.xaxis.set_major_locator(mdates.HourLocator(byhour=range(0, 24, 6)))
         ax_h.xaxis.set_major_formatter(mdates.DateFormatter("%d/%HZ"))
-        ax_h.set_xlim(times[0] - (times[1] - times[0]), times[-1])
+        ax_h.set_xlim(times[0] - step, times[-1] + (step / 2 if times.size == 1 else 0 * step))
         ax_h.set_xlabel("valid time [UTC]")
         for ax in (ax_t, ax_p, ax_h):
             ax.grid(True, color=BRIEFING_COLOURS["graticule"], lw=0.4, alpha=0.6)
