@@ -155,16 +155,17 @@ def test_interrupted_run_keeps_earlier_products(products, event, monkeypatch, ca
     import kit.charts.maps as maps
 
     calls = {"n": 0}
-    real = maps.front_map
+    real = maps.MapSeries.draw
 
-    def interrupted(*args, **kwargs):
+    def interrupted(self, *args, **kwargs):  # Ctrl-C while the second map is drawn
         calls["n"] += 1
         if calls["n"] == 2:
             raise KeyboardInterrupt
-        return real(*args, **kwargs)
+        return real(self, *args, **kwargs)
 
-    monkeypatch.setattr(maps, "front_map", interrupted)
+    monkeypatch.setattr(maps.MapSeries, "draw", interrupted)
     assert _shift(event, out, *LIGHT_ARGS, **LIGHT) == 130
+    assert calls["n"] == 2
     assert "partial products kept in" in capsys.readouterr().err
     assert sorted(p.name for p in out.iterdir() if not p.name.startswith(".")) == folders_before
     assert {p: _sha(p) for p in first.rglob("*") if p.is_file()} == before
@@ -213,16 +214,38 @@ SAMPLE = REPO / "sample_grids"
 @pytest.mark.skipif(not (SAMPLE / "truth.json").exists() or not (SAMPLE / "sites.csv").exists(),
                     reason="sample grids not generated yet (python -m kit.scenario)")
 def test_shift_on_sample_grids(tmp_path):
+    """The README's demo on the invented scenario (regression against its truth file)."""
     runs = sorted(str(p) for p in (SAMPLE / "runs").iterdir() if p.is_dir())
     assert main(["shift", *runs, "--sites", str(SAMPLE / "sites.csv"), "--out", str(tmp_path),
                  "--quiet"]) == 0
-    folder = next(p for p in tmp_path.iterdir() if p.name.startswith("shift_"))
-    manifest = json.loads((folder / "manifest.json").read_text())
     truth = json.loads((SAMPLE / "truth.json").read_text())
-    assert len(manifest["runs"]) == len(runs)
+    newest = max((k for k in truth["sets"] if k != "analyses"),
+                 key=lambda k: truth["sets"][k]["reference_time"])
+    folder = tmp_path / f"shift_{newest}"
+    manifest = json.loads((folder / "manifest.json").read_text())
+    assert sorted(manifest["runs"]) == sorted(k for k in truth["sets"] if k != "analyses")
+    # both front kinds of the scenario are found in the newest run
+    gj = json.loads((folder / "fronts.geojson").read_text())
+    kinds = {f["properties"]["kind"] for f in gj["features"]
+             if f["properties"]["run"] == newest}
+    assert {"warm", "cold"} <= kinds
+    # every scenario passage at a site appears in the arrival table of the newest run
+    # within 3 h (regression against the invented truth; kit.arrivals' tests are tighter)
     table = pd.read_csv(folder / "arrivals.csv", keep_default_na=False)
+    rows = table[(table["run"] == newest) & (table["passage_utc"] != "")]
+    for site, passages in truth["sets"][newest]["passages"].items():
+        for kind, when in passages.items():
+            if not when:
+                continue
+            t_true = pd.Timestamp(when.rstrip("Z"))
+            got = [pd.Timestamp(t.rstrip("Z")) for t in
+                   rows[(rows["site"] == site) & (rows["front_kind"] == kind)]["passage_utc"]]
+            assert got and min(abs((g - t_true).total_seconds()) for g in got) <= 3 * 3600, (
+                site, kind, when, got)
+    # a section through each site across a passing front, and one timeline per site
     sites = pd.read_csv(SAMPLE / "sites.csv")
-    assert set(table["site"]) <= set(sites["name"])
-    assert (table["passage_utc"] != "").any()
-    assert truth  # the scenario's truth file is readable
+    for name in sites["name"]:
+        slug = name.replace(" ", "_")
+        assert list((folder / "sections").glob(f"section_{slug}_*.png"))
+        assert (folder / "timelines" / f"timeline_{slug}.png").exists()
     assert len(PdfReader(folder / "briefing_pack.pdf").pages) >= 5
