@@ -73,6 +73,8 @@ __all__ = [
     "CLOUD_RH",
     "SNOW_WBFL_M",
     "LIGHT_WIND_KT",
+    "TYPICAL_SLOPE_1_IN",
+    "ZONE_CENTRE_FACTOR",
     "site_series",
     "signed_distance_km",
     "find_passages",
