@@ -143,6 +143,15 @@ def test_truth_and_sites_equal_the_generator(truth):
     assert list(sites["name"]) == [s[0] for s in sc.SITES]
 
 
+def test_station_series_and_readme_equal_the_generator(tmp_path, truth):
+    # seeded noise: the committed station files are exactly what the generator writes
+    sc._write_stations(sc.Scenario(), tmp_path)
+    for name, *_ in sc.SITES:
+        new = (tmp_path / "stations" / f"{name}.csv").read_text()
+        assert new == (EVENT / "stations" / f"{name}.csv").read_text(), name
+    assert sc._readme(sc.Scenario(), truth) == (EVENT / "README.md").read_text()
+
+
 def test_files_cover_both_runs_and_the_analyses(truth):
     n = len(truth["valid_times"])
     assert n == 17
