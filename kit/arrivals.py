@@ -1299,6 +1299,25 @@ def add_spread(table, *, max_match_h=24.0):
 # ----------------------------------------------------------------------- table
 
 
+#: columns shown as whole numbers (degrees, knots, metres, feet, kilometres)
+_WHOLE_NUMBER_COLUMNS = [
+    "speed_kt",
+    "wind_before_deg",
+    "wind_after_deg",
+    "wind_turn_deg",
+    "freezing_level_before_m",
+    "freezing_level_after_m",
+    "surface_offset_km",
+    "zone_centre_offset_km",
+    "wind_before_kt",
+    "wind_after_kt",
+    "wet_bulb_freezing_level_before_m",
+    "wet_bulb_freezing_level_after_m",
+    "cloud_base_before_ft_agl",
+    "cloud_base_min_ft_agl",
+]
+
+
 def _members(ds):
     if "member" in ds.dims:
         return [int(m) for m in ds["member"].values]
@@ -1493,10 +1512,14 @@ def arrival_table(
         table.groupby("_group")["_passage_h"].transform("min"),
         table["_passage_h"],
     )
+    run_order = {str(ds.attrs.get("run", f"run{i + 1}")): i for i, ds in enumerate(runs)}
+    table["_run_order"] = table["run"].map(run_order)
     table = table.sort_values(
-        ["_site_order", "_g", "run", "member"], na_position="last", kind="stable"
+        ["_site_order", "_g", "_run_order", "member"], na_position="last", kind="stable"
     )
     table["member"] = table["member"].astype("Int64")
+    for c in _WHOLE_NUMBER_COLUMNS:  # whole numbers read as such; empty where missing
+        table[c] = pd.to_numeric(table[c], errors="coerce").round().astype("Int64")
     table["track"] = pd.to_numeric(table["track"], errors="coerce").astype("Int64")
     for c in [
         c
