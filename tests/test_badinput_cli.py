@@ -231,7 +231,7 @@ def assert_one_line_error(status, capsys, *needles, says_expected=True):
     for needle in needles:
         assert needle.lower() in line.lower(), f"{needle!r} not in {line!r}"
     if says_expected:
-        words = ("expected", "available", "known sites", "need", "covers")
+        words = ("expected", "available", "known sites", "need", "covers", "lacks")
         assert any(w in line.lower() for w in words), f"what was expected is not said: {line}"
     return line
 
@@ -271,6 +271,31 @@ def test_rerun_event_with_a_broken_run(event, tmp_path, capsys):
     out = tmp_path / "verif"
     status = main(["rerun", str(ev), "--out", str(out), "--workers", "1"])
     assert_one_line_error(status, capsys, "notes.nc", "not a NetCDF file")
+    assert not out.exists()
+
+
+@pytest.mark.parametrize(
+    ("text", "needles"),
+    [("time_utc,pressure_hpa,temperature_c,wind_dir_deg,wind_speed_kt\n"
+      "2031-02-03T00:00Z,1008,9,220,14\n", ["Harrowby Field.csv", "dewpoint_<unit>"]),
+     ("time_utc,pressure_hpa,temperature_c,dewpoint_c,wind_dir_deg,wind_speed_kt\n"
+      "2031-02-03T00:00Z,1008,9,6,220,14\nsensor reset,,,,,\n2031-02-03T00:20Z,abc,9,6,220,14\n",
+      ["Harrowby Field.csv", "usable rows", "at least 4"])],
+    ids=["missing-column", "too-few-usable-rows"],
+)
+def test_rerun_unusable_station_series(event, tmp_path, capsys, text, needles):
+    # gaps and garbage rows are reported, not fatal (test_badinput_products.py); a
+    # series that cannot be read at all stops the rerun with one line naming it
+    ev = tmp_path / "event"
+    (ev / "runs").mkdir(parents=True)
+    (ev / "stations").mkdir()
+    (ev / "runs" / "good").symlink_to(event / "good", target_is_directory=True)
+    (ev / "analyses").symlink_to(event / "good", target_is_directory=True)
+    (ev / "sites.csv").write_text("name,lat,lon\nHarrowby Field,50.2,-5.0\n")
+    (ev / "stations" / "Harrowby Field.csv").write_text(text)
+    out = tmp_path / "verif"
+    status = main(["rerun", str(ev), "--out", str(out), "--workers", "1"])
+    assert_one_line_error(status, capsys, *needles)
     assert not out.exists()
 
 
