@@ -20,7 +20,16 @@ LEVELS = np.array([1000.0, 925.0, 850.0, 700.0, 500.0])
 KAPPA = 0.2857
 
 
-def write_run(path, *, ref="2030-01-14T00", shift_km=0.0, wind_to_cold=6.0, steps=2):
+def write_run(
+    path,
+    *,
+    ref="2030-01-14T00",
+    shift_km=0.0,
+    wind_to_cold=6.0,
+    steps=2,
+    contrast_k=7.0,
+    empty_last=False,
+):
     """A CF run: tanh theta-w zone near 50 N, 10 E, moving east with the wind."""
     lat = np.arange(40.0, 60.01, 0.5)
     lon = np.arange(-5.0, 25.01, 0.5)
@@ -30,9 +39,11 @@ def write_run(path, *, ref="2030-01-14T00", shift_km=0.0, wind_to_cold=6.0, step
     t = np.empty((steps, LEVELS.size) + lat2.shape)
     for it in range(steps):
         x = e - shift_km - it * 100.0
-        theta = 285.0 + 7.0 * np.tanh(x / 120.0)
+        theta = 285.0 + contrast_k * np.tanh(x / 120.0)
         for k, p in enumerate(LEVELS):
             t[it, k] = theta * (p / 1000.0) ** KAPPA
+    if empty_last:
+        t[-1] = np.nan  # a step that came through empty
     td = t - 2.0
     u = np.full(t.shape, -wind_to_cold)  # cold side is west: blowing west = toward cold
     v = np.zeros(t.shape)
@@ -239,3 +250,23 @@ def test_fronts_command_on_a_lambert_cf_run(tmp_path):
     e_f, n_f = geo.local_east_north_km(lon_f, lat_f, 10.0, 50.0)
     x_f = e_f * np.cos(a) + n_f * np.sin(a)
     assert 60.0 < np.median(x_f) < 140.0
+
+
+def test_fronts_command_says_why_a_product_is_empty_or_thin(tmp_path, capsys):
+    flat = write_run(tmp_path / "flat.nc", contrast_k=0.0)
+    out = tmp_path / "flat.geojson"
+    assert main(["fronts", str(flat), "--out", str(out)]) == 0
+    gj = json.loads(out.read_text())
+    assert gj["features"] == [] and gj["properties"]["caution"] == CAUTION
+    assert "no front found on 850 hPa at any of the 2 valid times" in gj["properties"]["note"]
+    assert "note: no front found" in capsys.readouterr().out
+
+    gap = write_run(tmp_path / "gap.nc", steps=3, empty_last=True)
+    out = tmp_path / "gap.geojson"
+    assert main(["fronts", str(gap), "--out", str(out)]) == 0
+    gj = json.loads(out.read_text())
+    times = {f["properties"]["valid_time"] for f in gj["features"]}
+    assert times == {"2030-01-14T00:00:00Z", "2030-01-14T06:00:00Z"}
+    note = gj["properties"]["note"]
+    assert "no data on 850 hPa" in note and "2030-01-14T12:00Z" in note
+    assert "no front found at" not in note  # the empty step is named once, as missing data

@@ -10,6 +10,8 @@ that carries kit.CAUTION. A one-line summary goes to stdout.
 
 from pathlib import Path
 
+import numpy as np
+
 from kit import CAUTION
 from kit.errors import InputError, OutputError
 
@@ -118,14 +120,18 @@ def run(args):
         fronts.extend(_analyse(ds, args.level, settings))
     collection = fronts_to_geojson(fronts)
     pairs = list(zip(args.runs, runs, strict=True))
+    notes = _notes(runs, fronts, args.level, settings)
     collection["properties"] = {
         "product": "frontshift fronts",
         "level_hpa": float(args.level),
         "field": settings.field,
         "runs": [str(ds.attrs.get("run", Path(str(a)).name)) for a, ds in pairs],
         "source": "; ".join(str(ds.attrs.get("source", a)) for a, ds in pairs),
+        "valid_times_analysed": sum(int(ds.sizes.get("time", 1)) for ds in runs),
         "caution": CAUTION,
     }
+    if notes:
+        collection["properties"]["note"] = "; ".join(notes)
     write_json(out, collection, overwrite=args.overwrite)
     kinds = {k: sum(f.kind == k for f in fronts) for k in ("warm", "cold", "quasi-stationary")}
     times = len({str(f.valid_time) for f in fronts})
@@ -134,5 +140,62 @@ def run(args):
         f"{kinds['quasi-stationary']} quasi-stationary) at {times} valid times "
         f"on {args.level:g} hPa to {out}"
     )
+    for note in notes:
+        print(f"note: {note}")
     print(CAUTION)
     return 0
+
+
+def _iso_minutes(t):
+    return np.datetime_as_string(np.datetime64(t, "m"), unit="m") + "Z"
+
+
+def _empty_steps(ds, level):
+    """List the valid times (and members) whose analysis level holds no value at all."""
+    from kit.fronts import _level_index
+
+    t = ds["t"].isel(level=_level_index(ds, level, "level"))
+    spatial = [d for d in t.dims if d not in ("time", "member")]
+    empty = t.isnull().all(dim=spatial).compute()
+    out = []
+    if "member" in empty.dims:
+        for m in empty["member"].values:
+            for tt in empty["time"].values[np.asarray(empty.sel(member=m).values, dtype=bool)]:
+                out.append(f"{_iso_minutes(tt)} (member {int(m)})")
+    else:
+        for tt in empty["time"].values[np.atleast_1d(np.asarray(empty.values, dtype=bool))]:
+            out.append(_iso_minutes(tt))
+    return out
+
+
+def _notes(runs, fronts, level, settings):
+    """Write plain-words notes for the product: empty steps, times without fronts."""
+    notes = []
+    for ds in runs:
+        run = ds.attrs.get("run", "?")
+        empty = _empty_steps(ds, level)
+        if empty:
+            notes.append(
+                f"run {run}: no data on {level:g} hPa (every value missing) at "
+                + ", ".join(empty)
+                + "; those steps could not be analysed"
+            )
+    if not fronts:
+        n = sum(int(ds.sizes.get("time", 1)) for ds in runs)
+        notes.append(
+            f"no front found on {level:g} hPa at any of the {n} valid times analysed "
+            f"(no line of {settings.min_length_km:g} km or more passed the masks)"
+        )
+    else:
+        for ds in runs:
+            run = ds.attrs.get("run")
+            have = {np.datetime64(f.valid_time, "m") for f in fronts if f.run == run}
+            empty = set(_empty_steps(ds, level))
+            without = [
+                _iso_minutes(t)
+                for t in ds["time"].values
+                if np.datetime64(t, "m") not in have and _iso_minutes(t) not in empty
+            ]
+            if without:
+                notes.append(f"run {run}: no front found at " + ", ".join(without))
+    return notes
