@@ -211,7 +211,12 @@ class FrontPanel:
                                         value=f"{self.defaults.min_length_km:g}")
         self.apply_button = widgets.Button(description="Apply", icon="check",
                                            tooltip="find the fronts with these thresholds")
-        self.restore_button = widgets.Button(description="Restore defaults", icon="undo")
+        self.restore_button = widgets.Button(description="Restore defaults", icon="undo",
+                                             layout=lay(width="auto"))
+        self.units_note = widgets.HTML(
+            "<span style='font-size:85%;color:#5d6b75'>front masks: K1 [K (100 km)<sup>-2</sup>]"
+            " on the thermal front parameter, K2 [K (100 km)<sup>-1</sup>] on the gradient; "
+            "smoothing and shortest line [km]</span>")
         self.site_pick = widgets.Dropdown(description="Site", options=[("(none)", None)],
                                           layout=lay(width="34%"))
         self.front_pick = widgets.Dropdown(description="Front", options=[("(none)", None)],
@@ -258,6 +263,7 @@ class FrontPanel:
             widgets.HBox([self.play, self.time_slider]),
             widgets.HBox([self.k1_text, self.k2_text, self.smooth_text, self.minlen_text,
                           self.apply_button, self.restore_button]),
+            self.units_note,
             widgets.HBox([self.save_map_button, self.save_section_button,
                           self.save_fronts_button]),
             self.message,
