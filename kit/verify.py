@@ -303,6 +303,8 @@ def detect_passages(
     u, v = -spd * np.sin(rad), -spd * np.cos(rad)
     turn = np.full(len(reg), np.nan)
     for i in range(half, len(reg) - half):
+        if not (np.isfinite(u[i - half:i]).any() and np.isfinite(u[i:i + half]).any()):
+            continue  # a gap: no wind on one side
         ub, vb = np.nanmean(u[i - half:i]), np.nanmean(v[i - half:i])
         ua, va = np.nanmean(u[i:i + half]), np.nanmean(v[i:i + half])
         if np.hypot(ub, vb) > 1.0 and np.hypot(ua, va) > 1.0:
@@ -536,10 +538,12 @@ def timing_pairs(forecast, observed, reference_times, *, max_error_h=12.0, event
         ``false alarm``).
     """
     rows = []
-    fc = forecast.dropna(subset=["passage_utc"]).copy()
+    # the arrival table leaves passage_utc empty ("") where a front never arrives
+    fc = forecast[forecast["passage_utc"].replace("", np.nan).notna()].copy()
     fc["t"] = pd.to_datetime(fc["passage_utc"], utc=True).dt.tz_convert(None)
     ob = observed.copy()
-    ob["t"] = pd.to_datetime(ob["passage_utc"]).dt.tz_localize(None) if len(ob) else ob.get("t")
+    ob["t"] = pd.to_datetime(ob["passage_utc"], utc=True).dt.tz_convert(None).astype(
+        "datetime64[ns]")
     for run, fc_run in fc.groupby("run", sort=True):
         ref = pd.Timestamp(reference_times[run]).tz_localize(None)
         used = set()
@@ -607,12 +611,32 @@ def position_pairs(forecast_fronts, verifying_fronts, reference_times, *, event=
     return pd.DataFrame(rows, columns=cols)
 
 
-def _counts(group):
-    return pd.Series({
+def _outcome_counts(group):
+    return {
         "hits": int((group["outcome"] == "hit").sum()),
         "misses": int((group["outcome"] == "miss").sum()),
         "false_alarms": int((group["outcome"] == "false alarm").sum()),
-    })
+    }
+
+
+def _summary(pairs, value_cols, *, all_rows):
+    """Per (lead_bin, front_kind): n, means of ``value_cols`` over hits, outcome counts."""
+    rows = []
+    groups = [(key, g) for key, g in pairs[pairs["lead_bin"] != ""].groupby(
+        ["lead_bin", "front_kind"], sort=True)]
+    if all_rows:
+        groups += [(("all", kind), g) for kind, g in pairs.groupby("front_kind", sort=True)]
+    for (lead_bin, kind), g in groups:
+        hits = g[g["outcome"] == "hit"]
+        row = {"lead_bin": lead_bin, "front_kind": kind, "n": len(hits)}
+        for name, (col, how) in value_cols.items():
+            vals = hits[col].astype(float)
+            row[name] = (float(np.mean(np.abs(vals))) if how == "abs" else float(vals.mean())) \
+                if len(vals) else np.nan
+        row.update(_outcome_counts(g))
+        rows.append(row)
+    cols = ["lead_bin", "front_kind", "n", *value_cols, "hits", "misses", "false_alarms"]
+    return pd.DataFrame(rows, columns=cols)
 
 
 def summarise_timing(pairs):
@@ -625,33 +649,18 @@ def summarise_timing(pairs):
         the bin of a miss is unknown, so misses are counted in an ``all`` row
         per kind.
     """
-    hits = pairs[pairs["outcome"] == "hit"]
-    stats = hits.groupby(["lead_bin", "front_kind"]).agg(
-        n=("error_h", "size"), bias_h=("error_h", "mean"),
-        mae_h=("error_h", lambda e: float(np.mean(np.abs(e)))))
-    counts_bin = pairs[pairs["lead_bin"] != ""].groupby(["lead_bin", "front_kind"]).apply(
-        _counts, include_groups=False)
-    out = stats.join(counts_bin, how="outer")
-    overall = pairs.groupby("front_kind").apply(_counts, include_groups=False)
-    overall_stats = hits.groupby("front_kind").agg(
-        n=("error_h", "size"), bias_h=("error_h", "mean"),
-        mae_h=("error_h", lambda e: float(np.mean(np.abs(e)))))
-    overall = overall_stats.join(overall, how="outer")
-    overall.index = pd.MultiIndex.from_product([["all"], overall.index],
-                                               names=["lead_bin", "front_kind"])
-    out = pd.concat([out, overall]).reset_index()
+    out = _summary(pairs, {"bias_h": ("error_h", "mean"), "mae_h": ("error_h", "abs")},
+                   all_rows=True)
     return out.round({"bias_h": 2, "mae_h": 2})
 
 
 def summarise_position(pairs):
     """Mean position errors by lead-time bin and front kind (hits only, plus counts)."""
-    hits = pairs[pairs["outcome"] == "hit"]
-    stats = hits.groupby(["lead_bin", "front_kind"]).agg(
-        n=("mhd_km", "size"), mean_distance_km=("mean_distance_km", "mean"),
-        mhd_km=("mhd_km", "mean"), frac_within_100km=("frac_within_100km", "mean"))
-    counts = pairs.groupby(["lead_bin", "front_kind"]).apply(_counts, include_groups=False)
-    return stats.join(counts, how="outer").reset_index().round(
-        {"mean_distance_km": 1, "mhd_km": 1, "frac_within_100km": 3})
+    out = _summary(pairs, {"mean_distance_km": ("mean_distance_km", "mean"),
+                           "mhd_km": ("mhd_km", "mean"),
+                           "frac_within_100km": ("frac_within_100km", "mean")},
+                   all_rows=False)
+    return out.round({"mean_distance_km": 1, "mhd_km": 1, "frac_within_100km": 3})
 
 
 # --------------------------------------------------------------------------

@@ -17,7 +17,8 @@ def _window(*frames):
     for frame, col in frames:
         if len(frame):
             t = pd.to_datetime(frame[col].replace("", np.nan), utc=True).dropna()
-            times += [t.min(), t.max()]
+            if len(t):
+                times += [t.min(), t.max()]
     return (min(times), max(times)) if times else None
 
 
