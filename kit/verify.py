@@ -798,6 +798,7 @@ def rerun_events(event_dirs, *, scheduler=None, workers=2, level=850.0, progress
         cluster = LocalCluster(n_workers=max(1, int(workers)), threads_per_worker=1,
                                processes=True, dashboard_address=":0")
         client = Client(cluster)
+        client.wait_for_workers(max(1, int(workers)), timeout="120s")
     try:
         futures = {client.submit(_rerun_task, str(e), level, pure=False): e for e in events}
         results, where = [], set()
