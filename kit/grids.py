@@ -124,6 +124,7 @@ member) is kept as a scalar ``member`` coordinate.
 import functools
 import glob
 import os
+import re
 import warnings
 from pathlib import Path
 
@@ -697,6 +698,13 @@ def _step_dims(ds):
     return out
 
 
+def _short_reason(exc, path):
+    """Return the library's reason without the repeated path and errno noise."""
+    text = str(exc).replace(f"'{path}'", "").replace(str(path), "")
+    text = re.sub(r"\[Errno -?\d+\]\s*", "", text).strip(" :")
+    return text or type(exc).__name__
+
+
 def _open_file(path, chunks):
     _check_netcdf_file(path)
     kwargs = dict(engine="netcdf4", decode_timedelta=True, mask_and_scale=True)
@@ -716,7 +724,8 @@ def _open_file(path, chunks):
     except Exception as exc:
         raise _err(
             path,
-            f"cannot be read as NetCDF, truncated or corrupt? ({type(exc).__name__}: {exc})",
+            "cannot be read as NetCDF, truncated or corrupt "
+            f"({_short_reason(exc, path)}); expected a complete NetCDF file (copy it again)",
         ) from None
     return ds
 
