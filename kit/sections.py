@@ -1078,6 +1078,7 @@ def section_for_site(ds, site, time, *, front="nearest", fronts=None, length_km=
         ``level`` theta-w gradient (cold to warm) and ``front_kind`` is "".
     """
     t = select_time(_select_member(ds, member), time)
+    _require_data_at(_select_member(ds, member), t)
     if member is None and "member" in ds.dims and ds.sizes["member"] == 1:
         member = int(ds["member"].values[0])
     if fronts is None:
@@ -1092,6 +1093,19 @@ def section_for_site(ds, site, time, *, front="nearest", fronts=None, length_km=
             raise
         return _section_along_gradient(ds, site, t, member, length_km, spacing_km, level)
     return section_across_front(ds, f, site, length_km=length_km, spacing_km=spacing_km)
+
+
+def _require_data_at(ds, t):
+    """One-line error when every temperature value at valid time ``t`` is missing."""
+    if bool(ds["t"].sel(time=t).notnull().any()):
+        return
+    have = ds["t"].notnull().any([d for d in ds["t"].dims if d != "time"]).values
+    good = [_iso(x) for x, ok in zip(ds["time"].values, have, strict=True) if ok]
+    listed = ", ".join(good[:6]) + (" ..." if len(good) > 6 else "")
+    raise InputError(
+        f"--time {_iso(t)}: no data at this valid time (all values missing) in run "
+        f"{ds.attrs.get('run', '?')}; expected a time with data: {listed or 'none'}"
+    )
 
 
 def _section_along_gradient(ds, site, t, member, length_km, spacing_km, level):

@@ -193,6 +193,14 @@ def draw_section(ax, strip, sec):
                     fontsize=FONT["label"], color=BRIEFING_COLOURS["muted"], zorder=9,
                     bbox=dict(boxstyle="round,pad=0.2", fc="white", ec="none", alpha=0.9))
 
+    gap = ~np.isfinite(t) & ~outside[None, :]
+    if gap.any():  # missing inside the grid (levels below ground, masked data)
+        ax.contourf(dist, lev, gap.astype(float), levels=[0.5, 1.5], colors="none",
+                    hatches=["xx"], zorder=0.6)
+        ax.contour(dist, lev, gap.astype(float), levels=[0.5], colors="#8c8c8c",
+                   linewidths=0.6, zorder=0.6)
+        art["no-data"] = True
+
     ax.set_yscale("log")
     pmax = float(lev.max())
     ptop = float(max(lev.min(), 100.0))
@@ -336,6 +344,9 @@ def _legend_handles(art, sec):
                         ms=3.5, label="frontal surface"))
     if "rule-zone" in art:
         h.append(Patch(color=SECTION_COLOURS["zone_core"], label="rule-of-thumb rain zone"))
+    if "no-data" in art:
+        h.append(Patch(facecolor="white", edgecolor="#8c8c8c", hatch="xx",
+                       label="no model data (below ground or masked)"))
     return h
 
 
