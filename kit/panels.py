@@ -605,9 +605,14 @@ def section_panel(runs=None, sites=None, *, site=None, **kwargs):
     """
     panel = FrontPanel(runs, sites, **kwargs)
     names = [v for _, v in panel.site_pick.options if v is not None]
-    if names:
-        panel.site_pick.value = site if site in names else names[0]
     panel.views.selected_index = 1
+    if site is not None and site not in names:
+        # never a section through another site shown as if it were the one asked for
+        panel.say(f"site {site!r}: not in the site list; expected one of "
+                  f"{', '.join(map(str, names)) or '(no sites loaded)'}", "error")
+        return panel.widget
+    if names:
+        panel.site_pick.value = site if site is not None else names[0]
     if panel.runs and panel.front_pick.value is not None:
         panel._guard(panel.draw_section)
     return panel.widget
@@ -617,19 +622,14 @@ class _ArrivalsPanel:
     """Arrival table of the runs and one site's timeline."""
 
     def __init__(self, runs, sites, *, level=850.0, out_dir="products", dpi=80):
-        from kit.arrivals import arrival_table
-
-        self.runs = [_load_run(r) for r in runs]
-        self.sites = _load_sites(sites)
         self.out_dir = Path(out_dir)
         self.dpi = dpi
         self.message = widgets.HTML()
-        self.table, self.series = arrival_table(self.runs, self.sites, level=level,
-                                                return_series=True)
-        self.labels = [str(ds.attrs.get("run")) for ds in self.runs]
-        self.site_pick = widgets.Dropdown(description="Site", options=list(self.sites["name"]))
-        self.run_pick = widgets.Dropdown(description="Run", options=self.labels,
-                                         value=self.labels[-1])
+        self.runs, self.labels, self.series = [], [], {}
+        self.table = pd.DataFrame()
+        self.sites = pd.DataFrame(columns=["name", "lat", "lon"])
+        self.site_pick = widgets.Dropdown(description="Site", options=[])
+        self.run_pick = widgets.Dropdown(description="Run", options=[])
         self.table_html = widgets.HTML()
         self.timeline_image = widgets.Image(format="png")
         self.save_button = widgets.Button(description="Save table", icon="save",
@@ -642,11 +642,34 @@ class _ArrivalsPanel:
             self.message, self.table_html, self.timeline_image,
         ])
         self.widget.controller = self
-        self._guard(self.show)
+        # a bad run path or site file is one message in the panel, never a traceback
+        if self._guard(lambda: self._load(runs, sites, level)):
+            self._guard(self.show)
 
     _guard = FrontPanel._guard
     say = FrontPanel.say
     _quiet = False
+
+    def _load(self, runs, sites, level):
+        from kit.arrivals import arrival_table
+
+        self.sites = _load_sites(sites)
+        self.runs = [_load_run(r) for r in runs]
+        if not self.runs:
+            raise InputError("arrivals panel: no runs given; expected one or more RUN paths")
+        self.table, self.series = arrival_table(self.runs, self.sites, level=level,
+                                                return_series=True)
+        self.labels = [str(ds.attrs.get("run")) for ds in self.runs]
+        self._quiet = True
+        names = list(self.sites["name"])
+        if not names:
+            raise InputError("arrivals panel: the site list is empty; expected name,lat,lon rows")
+        self.site_pick.options = names
+        self.site_pick.value = names[0]
+        self.run_pick.options = self.labels
+        self.run_pick.value = self.labels[-1]
+        self._quiet = False
+        return True
 
     def show(self):
         """Show the picked site's rows and its timeline for the picked run."""

@@ -19,9 +19,10 @@ Writes into a NEW sub-folder of DIR (``shift_<newest run>``, then ``-2``, ``-3``
   what each is) and the caution.
 
 The set is built in a hidden ``.incomplete_...`` folder and renamed when
-complete, so a folder named ``shift_...`` always holds a whole set; an
-interrupted run leaves earlier folders untouched and its partial products in
-the hidden folder (reported on stderr). A progress bar goes to stderr; the
+complete, so a folder named ``shift_...`` always holds a whole set. Earlier
+folders are never touched: an interrupted run (Ctrl-C) keeps its partial
+products in the hidden folder (reported on stderr); a failed one (a full disk,
+unusable data) removes it and reports one error line. A progress bar goes to stderr; the
 finished folder is printed on stdout.
 """
 
@@ -499,10 +500,17 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
         manifest["files"] = products.files
         write_text(tmp / "index.html", _index_html(manifest))
         bar.update(1)
-    except BaseException:
+    except KeyboardInterrupt:
+        # interrupted by the forecaster: keep what was written, say where
         pack.abandon()
         bar.close()
         sys.stderr.write(f"partial products kept in {tmp}; earlier folders are untouched\n")
+        raise
+    except BaseException:
+        # a failure (full disk, bad data): nothing half-made is left; one error line
+        pack.abandon()
+        bar.close()
+        shutil.rmtree(tmp, ignore_errors=True)
         raise
     bar.close()
     return _finish_folder(tmp, parent, stamp, overwrite)
