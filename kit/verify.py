@@ -822,10 +822,14 @@ def rerun_events(event_dirs, *, scheduler=None, workers=2, level=850.0, progress
 
 
 def _rerun_task(event_dir, level):
+    import dask
     from dask.distributed import get_worker
 
     try:
         worker = get_worker().address
     except ValueError:
         worker = "local"
-    return rerun_event(event_dir, level=level), worker
+    # the lazy arrays of one event are computed inside this worker process;
+    # without this they would be sent back to the cluster as nested tasks
+    with dask.config.set(scheduler="threads"):
+        return rerun_event(event_dir, level=level), worker
