@@ -116,20 +116,9 @@ def synthetic_fields(
         order = ["member", "time", "level", "lat", "lon"]
         for n in ds.data_vars:
             ds[n] = ds[n].transpose(*[d for d in order if d in ds[n].dims])
-    units = {
-        "t": "K",
-        "td": "K",
-        "u": "m s-1",
-        "v": "m s-1",
-        "z": "m",
-        "mslp": "Pa",
-        "t2m": "K",
-        "td2m": "K",
-        "u10": "m s-1",
-        "v10": "m s-1",
-        "precip": "mm h-1",
-    }
-    for n, u in units.items():
+    from kit.grids import CANONICAL_UNITS
+
+    for n, u in CANONICAL_UNITS.items():
         ds[n].attrs["units"] = u
     ds.attrs["run"] = pd.Timestamp(ref).strftime("%Y-%m-%dT%HZ")
     ds.attrs["grid"] = "latlon"
