@@ -6,7 +6,6 @@ passages at the analysis passage times and each run's timing offset.
 """
 
 import json
-import os
 import shutil
 from pathlib import Path
 
@@ -20,10 +19,10 @@ EVENT = Path(__file__).resolve().parents[1] / "sample_grids"
 
 @pytest.fixture(scope="module")
 def both(tmp_path_factory):
-    """Two copies of the sample event (hard links) rerun on a 2-worker local cluster."""
+    """Two copies of the sample event rerun on a 2-worker local cluster."""
     top = tmp_path_factory.mktemp("events")
     for name in ("event_a", "event_b"):
-        shutil.copytree(EVENT, top / name, copy_function=os.link)
+        shutil.copytree(EVENT, top / name)
     return rerun_events([top], workers=2, progress=True)
 
 
