@@ -20,9 +20,9 @@ __all__ = ["COMMANDS", "main", "build_parser"]
 COMMANDS = [
     "fronts",
     "arrivals",
-    "rerun",
     "section",
     "shift",
+    "rerun",
 ]
 
 
