@@ -59,6 +59,12 @@ def _t(text):
     return pd.Timestamp(str(text).rstrip("Z")).to_datetime64()
 
 
+def _panel_legend(ax, loc):
+    """Draw the legend of one timeline panel in the briefing style (two columns, white box)."""
+    return ax.legend(loc=loc, fontsize=FONT["small"], frameon=True, framealpha=0.95,
+                     facecolor="white", edgecolor="none", ncol=2)
+
+
 def timeline_figure(series, rows=None, *, title_extra=None):
     """Draw the timeline of one site.
 
@@ -135,15 +141,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         ax_t.axhline(0.0, color=BRIEFING_COLOURS["muted"], lw=0.6, ls=":")
         ax_t.set_ylabel("2 m T, Td [C]")
         if "t2m" in series or "td2m" in series:
-            ax_t.legend(
-                loc="best",
-                fontsize=FONT["small"],
-                frameon=True,
-                framealpha=0.95,
-                facecolor="white",
-                edgecolor="none",
-                ncol=2,
-            )
+            _panel_legend(ax_t, "best")
         else:
             absent(ax_t, "2 m temperature and dew point")
         # precipitation bars over the step each rate covers
@@ -256,15 +254,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             )
         )
         ax_h.set_ylim(0, top * 1.45)  # headroom for the legend
-        ax_h.legend(
-            loc="upper left",
-            fontsize=FONT["small"],
-            frameon=True,
-            framealpha=0.95,
-            facecolor="white",
-            edgecolor="none",
-            ncol=2,
-        )
+        _panel_legend(ax_h, "upper left")
         # passages
         labels = []
         if rows is not None and len(rows):
