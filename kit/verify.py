@@ -40,8 +40,6 @@ __all__ = [
     "rerun_events",
 ]
 
-_EARTH_RADIUS_KM = 6371.0088
-
 # Column name stems and their accepted unit suffixes -> converter to kit units.
 _COLUMNS = {
     "pressure": {"hpa": lambda x: x, "mb": lambda x: x, "pa": lambda x: x / 100.0,
@@ -379,16 +377,11 @@ def detect_passages(
 # --------------------------------------------------------------------------
 
 def _to_local_km(lon, lat, lon0, lat0):
-    """Azimuthal equidistant projection about (lon0, lat0) [km] (pyproj)."""
-    from pyproj import Transformer
+    """Azimuthal equidistant plane about (lon0, lat0) [km], as (n, 2) points."""
+    from kit.geometry import local_east_north_km
 
-    tr = Transformer.from_crs(
-        "EPSG:4326",
-        f"+proj=aeqd +lat_0={lat0} +lon_0={lon0} +R={_EARTH_RADIUS_KM * 1000.0} +units=km",
-        always_xy=True,
-    )
-    x, y = tr.transform(np.asarray(lon, float), np.asarray(lat, float))
-    return np.column_stack([x, y])
+    east, north = local_east_north_km(np.asarray(lon, float), np.asarray(lat, float), lon0, lat0)
+    return np.column_stack([east, north])
 
 
 def _densify(xy, spacing_km):
