@@ -158,7 +158,7 @@ def main(argv=None):
     import pandas as pd
 
     from kit.errors import FrontshiftError
-    from kit.export import write_csv
+    from kit.products.files import write_csv
 
     frame = pd.DataFrame(rows, columns=COLUMNS)
     frame["measured"] = machine_line()

@@ -2,7 +2,7 @@
 
 Figures:
 
-- ``kit.fronts.find_fronts`` on one valid time of a global regular grid at
+- ``kit.science.fronts.find_fronts`` on one valid time of a global regular grid at
   0.5, 0.25 (1440 x 721) and 0.1 degree, from t/td/u/v to typed front lines
   (theta-w, smoothing, TFP, locating function, masks, contouring, per-vertex
   attributes), pinned to ONE core: seconds, and seconds per million points;
@@ -19,7 +19,7 @@ Figures:
 The fields are synthetic (a smooth global temperature with wavy frontal
 zones) stored as float32 like most model output, used for timing only. The
 machine may be shared: the load average is printed with the figures, and the
-best of several calls is reported. The theta-w share (kit.thermo) is shown
+best of several calls is reported. The theta-w share (kit.science.thermo) is shown
 apart from the rest of the analysis.
 """
 
@@ -32,8 +32,8 @@ import numpy as np
 import xarray as xr
 
 from benchmarks import best_time, figure
-from kit import fronts as F
-from kit import geometry as geo
+from kit.science import fronts as F
+from kit.science import geo
 
 RES = (0.5, 0.25, 0.1)
 
@@ -150,7 +150,7 @@ def run():
             n_fronts[res] = len(F.find_fronts(ds))
             del ds
         ds25 = synthetic_level(0.25)
-        from kit import thermo
+        from kit.science import thermo
 
         one = ds25.isel(time=0)
         t_thetaw = best_time(lambda: thermo.theta_w_of(one, 850.0).values, repeat=6, min_time=0.05)
@@ -177,7 +177,7 @@ def run():
             figure(f"fronts, {res} deg, per million points", times[res] / npts[res] * 1e6, "s/Mpt")
         )
         out.append(figure(f"fronts found on the {res} deg synthetic level", n_fronts[res], "lines"))
-    out.append(figure("  of which theta-w (kit.thermo.theta_w_of), 0.25 deg", t_thetaw, "s"))
+    out.append(figure("  of which theta-w (kit.science.thermo.theta_w_of), 0.25 deg", t_thetaw, "s"))
     rest = times[0.25] - t_thetaw
     out.append(figure("  the rest: smoothing, TFP, lines, typing, 0.25 deg", rest, "s"))
     x = np.log([npts[r] for r in RES])

@@ -1,6 +1,6 @@
 """Cost of front motion and structure: tracking, speeds three ways, slopes.
 
-Times each stage of :func:`kit.motion.analyse_run` after the fronts are found,
+Times each stage of :func:`kit.science.motion.analyse_run` after the fronts are found,
 on a synthetic event (a sloping frontal zone moving 10 m/s on a 0.25-degree
 grid, 17 valid times, 6 levels) and, where it exists, on one run of the sample
 event. Targets are this kit's own: the motion and structure stages should not
@@ -53,9 +53,9 @@ def _synthetic_event(n_times=17, grid=0.25):
 
 
 def _stages(ds, label):
-    from kit.fronts import FrontSettings, find_fronts
-    from kit.motion import speeds_three_ways, track_fronts
-    from kit.structure import add_slopes
+    from kit.science.fronts import FrontSettings, find_fronts
+    from kit.science.motion import speeds_three_ways, track_fronts
+    from kit.science.structure import add_slopes
 
     ds = ds.load()
     nt = ds.sizes["time"]

@@ -13,7 +13,7 @@ Figures (issue 8 targets):
 - one briefing map drawn from scratch (``kit.charts.maps.front_map`` and
   PNG), for comparison with the redraw.
 
-Needs ``sample_grids/`` (``python -m kit.scenario``); without it the figures
+Needs ``sample_grids/`` (``python -m tools.scenario``); without it the figures
 are reported as missing (NaN), not invented.
 """
 
@@ -86,7 +86,7 @@ def _redraw_figures():
                        target, None)]
     import io
 
-    from kit import panels
+    from kit.ui import panels
     from kit.charts import maps
 
     widget = panels.front_panel([runs[-1]], SAMPLE / "sites.csv",

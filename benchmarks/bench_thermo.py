@@ -14,7 +14,7 @@ Figures (issue 3 / issue 9 targets):
   ``wet_bulb_potential_temperature``;
 - wet-bulb temperature on a whole 3-D run shape (10 levels x 721 x 1440),
   float32, in seconds, and theta-w of a dask-backed canonical dataset of that
-  shape through ``kit.thermo.theta_w_of``.
+  shape through ``kit.science.thermo.theta_w_of``.
 
 The input fields are synthetic (smooth random temperature and humidity),
 used only for timing and for comparing two implementations on the same
@@ -27,7 +27,7 @@ import warnings
 import numpy as np
 
 from benchmarks import best_time, figure
-from kit import thermo
+from kit.science import thermo
 
 T0 = 273.15
 

@@ -17,7 +17,7 @@ __all__ = ["CAUTION", "FrontshiftError", "InputError", "OutputError", "open_run"
 
 
 def open_run(*args, **kwargs):
-    """Open one model run as the canonical Dataset; see :func:`kit.grids.open_run`."""
-    from kit.grids import open_run as _open_run
+    """Open one model run as the canonical Dataset; see :func:`kit.io.runs.open_run`."""
+    from kit.io.runs import open_run as _open_run
 
     return _open_run(*args, **kwargs)

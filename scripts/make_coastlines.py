@@ -16,7 +16,7 @@ What it derives with shapely:
 
 The files are written with pyshp in cartopy's Natural Earth layout
 (``shapefiles/natural_earth/{physical,cultural}/ne_110m_*.shp``) so that
-:mod:`kit.coast` can hand the folder to cartopy as pre-existing data.
+:mod:`kit.charts.coast` can hand the folder to cartopy as pre-existing data.
 """
 
 import argparse

@@ -8,17 +8,23 @@ Fixtures
 --------
 ``canonical_run``
     factory -> in-memory canonical Dataset (numpy-backed), as
-    :func:`kit.grids.open_run` returns it.
+    :func:`kit.io.runs.open_run` returns it.
 ``make_latlon_run``
     factory -> writes a regular latitude/longitude run as CF NetCDF files under
     ``tmp_path`` (one file per step by default) and returns the folder (or
     the file with ``one_file=True``).
 """
 
+import sys
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pytest
 import xarray as xr
+
+# the demo generator lives in tools/ (not installed): make it importable
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 LEVELS_HPA = (1000.0, 925.0, 850.0, 700.0, 500.0)
 
@@ -116,7 +122,7 @@ def synthetic_fields(
         order = ["member", "time", "level", "lat", "lon"]
         for n in ds.data_vars:
             ds[n] = ds[n].transpose(*[d for d in order if d in ds[n].dims])
-    from kit.grids import CANONICAL_UNITS
+    from kit.io.runs import CANONICAL_UNITS
 
     for n, u in CANONICAL_UNITS.items():
         ds[n].attrs["units"] = u
@@ -214,7 +220,7 @@ def make_latlon_run(tmp_path):
 
     Call as ``make_latlon_run(name="run", one_file=False, **synthetic_fields_kwargs)``;
     returns ``(path, canonical_dataset)`` where ``canonical_dataset`` is what
-    :func:`kit.grids.open_run` should give back (precipitation as a rate, NaN
+    :func:`kit.io.runs.open_run` should give back (precipitation as a rate, NaN
     where the first step has no accumulation start).
     """
 

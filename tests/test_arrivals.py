@@ -1,4 +1,4 @@
-"""Tests of kit.arrivals: passage timing, weather sequence, spread.
+"""Tests of kit.products.arrivals: passage timing, weather sequence, spread.
 
 Sources of expected values are given beside each check:
 [pub] published, [lib] reference library, [trade] common practice, no source,
@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 import xarray as xr
 
-from kit.arrivals import (
+from kit.products.arrivals import (
     CONTRACT_COLUMNS,
     _highest_zero,
     _warm_layer,
@@ -27,7 +27,7 @@ from kit.arrivals import (
     site_series,
 )
 from kit.errors import InputError
-from kit.fronts import Front
+from kit.science.fronts import Front
 
 R_KM = 6371.0088
 T0 = np.datetime64("2027-01-14T00:00", "ns")
@@ -241,7 +241,7 @@ def test_zone_centre_factor_against_tanh_zone():
     line-to-centre factor x / (|grad tau| / TFP) must equal ZONE_CENTRE_FACTOR."""
     from scipy.optimize import minimize_scalar
 
-    from kit.arrivals import ZONE_CENTRE_FACTOR
+    from kit.products.arrivals import ZONE_CENTRE_FACTOR
 
     def tfp(x):  # dT = L = 1; -d|grad tau|/dx on the warm side
         return np.tanh(x) / np.cosh(x) ** 2
@@ -547,7 +547,7 @@ def test_timeline_figure_content():
 
 
 # ---------------------------------------------------- regression: demo scenario
-# [regression] the invented demo scenario of kit.scenario (sample_grids/), not a
+# [regression] the invented demo scenario of tools.scenario (sample_grids/), not a
 # science reference: it checks that the whole chain (loader, front finding,
 # tracking, slopes, passages) reproduces the passages the scenario was built with.
 
@@ -557,7 +557,7 @@ ICAO_850_M = 44330.8 * (1.0 - (850.0 / 1013.25) ** 0.190263)  # ICAO (1993) heig
 
 @pytest.fixture(scope="module")
 def scenario_table():
-    from kit.grids import open_run
+    from kit.io.runs import open_run
 
     runs = [open_run(SAMPLE / "runs" / name) for name in ("2027-01-14T00Z", "2027-01-13T12Z")]
     table, store = arrival_table(runs, SAMPLE / "sites.csv", return_series=True)
@@ -626,7 +626,7 @@ def test_scenario_freezing_rain_site(scenario_table):
 
 
 def test_every_column_is_described():
-    from kit.arrivals import COLUMN_NOTES, EXTRA_COLUMNS
+    from kit.products.arrivals import COLUMN_NOTES, EXTRA_COLUMNS
 
     assert set(COLUMN_NOTES) == set(CONTRACT_COLUMNS + EXTRA_COLUMNS)
 

@@ -415,12 +415,12 @@ def test_unwritable_output_folder_shift(event, capsys):
 @pytest.fixture
 def full_disk(monkeypatch):
     """Every product write ends in 'no space left on device' (as on a full disk)."""
-    import kit.export
+    import kit.products.files
 
     def no_space(fd):
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
 
-    monkeypatch.setattr(kit.export.os, "fsync", no_space)
+    monkeypatch.setattr(kit.products.files.os, "fsync", no_space)
 
 
 @pytest.mark.parametrize("command", ["fronts", "arrivals", "section"])

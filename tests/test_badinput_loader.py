@@ -12,7 +12,7 @@ from conftest import synthetic_fields, to_cf, write_cf
 
 from kit.cli import main as cli_main
 from kit.errors import InputError
-from kit.grids import expand_run_arg, open_run, open_runs
+from kit.io.runs import expand_run_arg, open_run, open_runs
 
 
 def small():

@@ -26,7 +26,8 @@ import pytest
 import xarray as xr
 from charts_synthetic import make_run, write_cf_run
 
-from kit import CAUTION, panels
+from kit import CAUTION
+from kit.ui import panels
 from kit.cli import main
 
 SITES = pd.DataFrame({"name": ["Harrowby Field", "Kestrel Point", "Tor Heights"],
@@ -201,9 +202,9 @@ def test_timeline_says_which_fields_the_run_lacks(event):
     import matplotlib
 
     matplotlib.use("Agg")
-    from kit.arrivals import arrival_table
+    from kit.products.arrivals import arrival_table
     from kit.charts.timelines import timeline_figure
-    from kit.grids import open_run
+    from kit.io.runs import open_run
 
     ds = open_run(event / "constant")
     assert "t2m" not in ds and "precip" not in ds
@@ -245,7 +246,7 @@ def test_nan_patch_site_under_missing_data_is_not_told_no_front(event, tmp_path,
 
 
 def test_empty_last_step_is_named_in_the_fronts_product(event, tmp_path, capsys):
-    # the loader lets an all-NaN later step through (kit/grids.py docstring);
+    # the loader lets an all-NaN later step through (kit/io/runs.py docstring);
     # the product must not pass it over in silence
     collection, _ = _fronts(event, "emptystep", tmp_path, capsys)
     times = {f["properties"]["valid_time"] for f in collection["features"]}
@@ -275,8 +276,8 @@ def test_section_through_a_nan_patch_marks_the_gap(event):
 
     matplotlib.use("Agg")
     from kit.charts.sections import section_figure
-    from kit.grids import open_run
-    from kit.sections import section_for_site, select_time
+    from kit.io.runs import open_run
+    from kit.science.sections import section_for_site, select_time
 
     ds = open_run(event / "patch")
     site = SITES[SITES["name"] == "Tor Heights"].iloc[0]
@@ -358,7 +359,7 @@ def test_timing_figure_with_only_false_alarms():
 
     matplotlib.use("Agg")
     from kit.charts.verification import timing_error_figure
-    from kit.verify import timing_pairs
+    from kit.science.verification import timing_pairs
 
     forecast = pd.DataFrame({"site": ["Harrowby Field", "Kestrel Point"],
                              "front_kind": ["warm", "cold"], "run": ["2031-02-03T00Z"] * 2,
@@ -377,7 +378,7 @@ def test_timing_figure_with_only_false_alarms():
 @pytest.mark.parametrize("command", ["fronts", "arrivals"])
 def test_interrupted_command_keeps_the_earlier_product(event, tmp_path, capsys, monkeypatch,
                                                        command):
-    import kit.export
+    import kit.products.files
 
     earlier = b"earlier product, still wanted\n"
     out = tmp_path / ("f.geojson" if command == "fronts" else "a.csv")
@@ -386,7 +387,7 @@ def test_interrupted_command_keeps_the_earlier_product(event, tmp_path, capsys, 
     def interrupted(fd):  # Ctrl-C while the new product is being flushed to disk
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(kit.export.os, "fsync", interrupted)
+    monkeypatch.setattr(kit.products.files.os, "fsync", interrupted)
     argv = ["fronts", event / "good", "--out", out, "--overwrite"] if command == "fronts" else [
         "arrivals", event / "good", "--sites", event / "sites.csv", "--out", out, "--overwrite"]
     status = main([str(a) for a in argv])
@@ -397,8 +398,8 @@ def test_interrupted_command_keeps_the_earlier_product(event, tmp_path, capsys, 
 
 
 def test_disk_full_midway_keeps_the_earlier_product(tmp_path, monkeypatch):
-    # kit.export's own promise, checked with a real OSError from the operating system
-    import kit.export
+    # kit.products.files's own promise, checked with a real OSError from the operating system
+    import kit.products.files
     from kit.errors import OutputError
 
     out = tmp_path / "table.csv"
@@ -407,9 +408,9 @@ def test_disk_full_midway_keeps_the_earlier_product(tmp_path, monkeypatch):
     def no_space(fd):
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
 
-    monkeypatch.setattr(kit.export.os, "fsync", no_space)
+    monkeypatch.setattr(kit.products.files.os, "fsync", no_space)
     with pytest.raises(OutputError, match="No space left"):
-        kit.export.write_csv(out, pd.DataFrame({"a": [1]}), overwrite=True)
+        kit.products.files.write_csv(out, pd.DataFrame({"a": [1]}), overwrite=True)
     assert out.read_text() == "earlier\n"
     assert [p.name for p in tmp_path.iterdir()] == ["table.csv"]
 

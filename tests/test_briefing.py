@@ -8,7 +8,7 @@ from pypdf import PdfReader
 matplotlib.use("Agg")
 
 from kit import CAUTION  # noqa: E402
-from kit.briefing import BriefingPack, table_figures  # noqa: E402
+from kit.products.briefing import BriefingPack, table_figures  # noqa: E402
 from kit.charts import style  # noqa: E402
 from kit.errors import InputError, OutputError  # noqa: E402
 

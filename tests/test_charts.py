@@ -21,7 +21,7 @@ from metpy.plots import ColdFront, StationaryFront, WarmFront  # noqa: E402
 from kit import CAUTION  # noqa: E402
 from kit.charts import maps, style  # noqa: E402
 from kit.errors import InputError  # noqa: E402
-from kit.fronts import Front  # noqa: E402
+from kit.science.fronts import Front  # noqa: E402
 
 SITES = pd.DataFrame({"name": ["Harrowby Field", "Kestrel Point", "Sallow Cross"],
                       "lat": [50.2, 55.0, 47.5], "lon": [-5.0, 2.0, -12.0]})
@@ -34,7 +34,7 @@ def run():
 
 @pytest.fixture(scope="module")
 def fronts(run):
-    from kit.fronts import find_fronts
+    from kit.science.fronts import find_fronts
 
     found = find_fronts(run, level=850.0)
     assert found, "the invented run must hold fronts to draw"
@@ -232,7 +232,7 @@ def test_fronts_through_time_panels(run, fronts):
 
 
 def test_fronts_overview_tracks(run, fronts):
-    from kit.motion import track_fronts
+    from kit.science.motion import track_fronts
 
     tracked = track_fronts(fronts)
     fig = _draw(maps.fronts_overview(run, tracked, sites=SITES))

@@ -1,8 +1,8 @@
 """Tests of ``frontshift arrivals``: products, contract columns, one-line errors.
 
 The run is the analytic moving front of tests/test_arrivals.py written as CF
-NetCDF and read back through kit.grids; the tracked fronts come from the same
-analytic construction (kit.motion.analyse_run is replaced by them here, so the
+NetCDF and read back through kit.io.runs; the tracked fronts come from the same
+analytic construction (kit.science.motion.analyse_run is replaced by them here, so the
 command's plumbing is tested independently of front finding).
 """
 
@@ -15,9 +15,9 @@ import pytest
 from conftest import to_cf, write_cf
 from test_arrivals import EDGE_X, ZONE_L_KM, hours_of, make_run
 
-import kit.motion
+import kit.science.motion
 from kit import CAUTION
-from kit.arrivals import CONTRACT_COLUMNS
+from kit.products.arrivals import CONTRACT_COLUMNS
 from kit.cli import main
 
 HOURS = np.arange(0, 25, 3)  # 9 steps on a 1-degree grid keep the loader quick
@@ -34,7 +34,7 @@ def written_run(tmp_path_factory):
 @pytest.fixture
 def run_dir(written_run, monkeypatch):
     path, fronts = written_run
-    monkeypatch.setattr(kit.motion, "analyse_run", lambda ds, **kw: fronts)
+    monkeypatch.setattr(kit.science.motion, "analyse_run", lambda ds, **kw: fronts)
     return path
 
 
@@ -140,7 +140,7 @@ def test_member_run_spread_through_cli(tmp_path, sites_csv, monkeypatch):
         kind="cold", passage_h=12.0, members=[0.0, 1.5, -2.0], grid_step=1.0, hours=HOURS
     )
     path = write_cf(to_cf(ds), tmp_path / "ens")
-    monkeypatch.setattr(kit.motion, "analyse_run", lambda ds, **kw: fronts)
+    monkeypatch.setattr(kit.science.motion, "analyse_run", lambda ds, **kw: fronts)
     out = tmp_path / "ens.csv"
     assert (
         main(

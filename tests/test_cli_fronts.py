@@ -13,7 +13,7 @@ import pytest
 import xarray as xr
 
 from kit import CAUTION
-from kit import geometry as geo
+from kit.science import geo
 from kit.cli import main
 
 LEVELS = np.array([1000.0, 925.0, 850.0, 700.0, 500.0])

@@ -212,7 +212,7 @@ SAMPLE = REPO / "sample_grids"
 
 @pytest.mark.slow
 @pytest.mark.skipif(not (SAMPLE / "truth.json").exists() or not (SAMPLE / "sites.csv").exists(),
-                    reason="sample grids not generated yet (python -m kit.scenario)")
+                    reason="sample grids not generated yet (python -m tools.scenario)")
 def test_shift_on_sample_grids(tmp_path):
     """The README's demo on the invented scenario (regression against its truth file)."""
     runs = sorted(str(p) for p in (SAMPLE / "runs").iterdir() if p.is_dir())
@@ -230,7 +230,7 @@ def test_shift_on_sample_grids(tmp_path):
              if f["properties"]["run"] == newest}
     assert {"warm", "cold"} <= kinds
     # every scenario passage at a site appears in the arrival table of the newest run
-    # within 3 h (regression against the invented truth; kit.arrivals' tests are tighter)
+    # within 3 h (regression against the invented truth; kit.products.arrivals' tests are tighter)
     table = pd.read_csv(folder / "arrivals.csv", keep_default_na=False)
     rows = table[(table["run"] == newest) & (table["passage_utc"] != "")]
     for site, passages in truth["sets"][newest]["passages"].items():

@@ -13,7 +13,7 @@ import cartopy.crs as ccrs  # noqa: E402
 import cartopy.feature as cfeature  # noqa: E402
 import shapely  # noqa: E402
 
-from kit import coast  # noqa: E402
+from kit.charts import coast  # noqa: E402
 from kit.errors import InputError  # noqa: E402
 
 

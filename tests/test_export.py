@@ -7,7 +7,7 @@ import pytest
 
 from kit import CAUTION
 from kit.errors import OutputError
-from kit.export import (
+from kit.products.files import (
     atomic_write,
     new_product_dir,
     write_csv,

@@ -1,4 +1,4 @@
-"""Tests of kit.fronts: TFP, locating line, masks, typing, GeoJSON.
+"""Tests of kit.science.fronts: TFP, locating line, masks, typing, GeoJSON.
 
 Sources beside each expected value:
 [pub]    Renard & Clarke (1965) TFP definition; Hewson (1998) locating line and
@@ -24,8 +24,8 @@ from pyproj import CRS, Transformer
 from scipy import ndimage
 
 from kit import CAUTION
-from kit import fronts as F
-from kit import geometry as geo
+from kit.science import fronts as F
+from kit.science import geo
 from kit.errors import InputError
 
 R = geo.EARTH_RADIUS_M
@@ -580,7 +580,7 @@ def test_fronts_table_columns():
 
 
 # --------------------------------------------------------------------------- demo scenario
-# Regression against the invented demo event (sample_grids/, kit.scenario): the
+# Regression against the invented demo event (sample_grids/, tools.scenario): the
 # truth lines there are where the TFP of each analytic tanh zone peaks
 # (Hewson 1998 locating line, unsmoothed). These are scenario values, not
 # published ones: they check that the kit finds the fronts the scenario put in.
@@ -622,7 +622,7 @@ def _dist_to_lines_km(lon, lat, lines):
 @pytest.mark.slow
 @pytest.mark.parametrize("which", SETS)
 def test_demo_scenario_lines_and_types(which):
-    from kit.grids import open_run
+    from kit.io.runs import open_run
 
     truth = _truth()["sets"][which]
     ds = open_run(SAMPLE / truth["folder"], chunks=None)

@@ -19,8 +19,8 @@ from hypothesis import strategies as st
 from test_fronts import line_x_km, longest, make_ds, zone_latlon
 from test_fronts import settings as fsettings
 
-from kit import fronts as F
-from kit import geometry as geo
+from kit.science import fronts as F
+from kit.science import geo
 
 PROPS = settings(max_examples=6, deadline=None, derandomize=True,
                  suppress_health_check=[HealthCheck.too_slow])

@@ -1,4 +1,4 @@
-"""Tests of kit.geometry: grid lengths, gradients, smoothing, distances.
+"""Tests of kit.science.geo: grid lengths, gradients, smoothing, distances.
 
 Sources beside each expected value:
 [pub]  textbook spherical geometry (any text on the sphere: arc = R * angle,
@@ -13,7 +13,7 @@ import pytest
 import xarray as xr
 from pyproj import CRS, Geod, Transformer
 
-from kit import geometry as geo
+from kit.science import geo
 from kit.errors import InputError
 
 R = geo.EARTH_RADIUS_M

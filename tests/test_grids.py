@@ -1,4 +1,4 @@
-"""Tests of kit.grids: every file layout the loader accepts gives the canonical Dataset.
+"""Tests of kit.io.runs: every file layout the loader accepts gives the canonical Dataset.
 
 Sources beside each expected value:
 [lib]   pint / MetPy unit conversions and thermodynamics, pyproj projections and
@@ -24,7 +24,7 @@ from metpy.units import units
 from pyproj import CRS, Geod, Proj, Transformer
 
 from kit.errors import InputError
-from kit.grids import G0, expand_run_arg, open_run, open_runs, run_label, to_canonical
+from kit.io.runs import G0, expand_run_arg, open_run, open_runs, run_label, to_canonical
 
 REPO = Path(__file__).resolve().parents[1]
 CANON = ("t", "td", "u", "v", "z", "mslp", "t2m", "td2m", "u10", "v10", "precip")
@@ -321,7 +321,7 @@ def test_reanalysis_style_names_units_and_orders(tmp_path, base):
     )
     got = open_run(write(raw, tmp_path / "era.nc"))
     # td from RH: MetPy 1.7's saturation vapour pressure differs from Bolton (1980) Eq. 10
-    # (used by kit.thermo) by a few hundredths of a kelvin in dew point [lib]
+    # (used by kit.science.thermo) by a few hundredths of a kelvin in dew point [lib]
     assert_canonical_equal(got, base, skip=("td",), rtol=1e-6, atol=1e-6)
     np.testing.assert_allclose(got["td"].values, base["td"].values, atol=0.05)
     assert got.attrs["variables_from"].startswith("t<-t")
@@ -1149,7 +1149,7 @@ def test_precipitation_missing_at_lead_zero(tmp_path, make_latlon_run):
 
 
 def test_large_files_are_chunked_one_step_at_a_time(tmp_path, base, monkeypatch):
-    import kit.grids as grids
+    import kit.io.runs as grids
 
     path = write(raw_variant(base), tmp_path / "big.nc")
     monkeypatch.setattr(grids, "_SMALL_FILE_BYTES", 0)  # treat the file as large

@@ -1,4 +1,4 @@
-"""Tests of kit.motion: geostrophic wind, tracking, speeds three ways.
+"""Tests of kit.science.motion: geostrophic wind, tracking, speeds three ways.
 
 Where each expected value comes from is said beside it:
 [pub] a published formula or worked example, [lib] a reference library as a
@@ -15,9 +15,9 @@ import numpy as np
 import pytest
 import xarray as xr
 
-import kit.motion as motion
-from kit.fronts import Front
-from kit.motion import (
+import kit.science.motion as motion
+from kit.science.fronts import Front
+from kit.science.motion import (
     KT_PER_MS,
     coriolis_parameter,
     geostrophic_speed,
@@ -238,7 +238,7 @@ def test_tilted_line_moving_along_its_normal():
     # [derived] a straight line (in a local tangent plane) oriented 30 deg east
     # of north, moved 100 km per 3 h along its normal (27.8 km/h = 9.26 m/s);
     # plane-to-sphere distortion over 600 km is < 1 %, tolerance 3 %
-    from kit.geometry import local_to_lonlat
+    from kit.science.geo import local_to_lonlat
 
     ang = np.deg2rad(30.0)
     tx, ty = np.sin(ang), np.cos(ang)  # along the line
@@ -520,7 +520,7 @@ def test_point_sampler_periodic_global_grid():
 
 
 # --------------------------------------------------------------------------
-# the whole run on an analytic translating frontal zone (needs kit.fronts)
+# the whole run on an analytic translating frontal zone (needs kit.science.fronts)
 # --------------------------------------------------------------------------
 Z_STD = {1000.0: 110.0, 925.0: 760.0, 850.0: 1460.0, 700.0: 3010.0, 600.0: 4200.0, 500.0: 5570.0}
 
@@ -530,7 +530,7 @@ DPDX = 1.5  # MSLP gradient of the zone runs [Pa km-1], pushing the way the wind
 
 def saturated_t_for_theta_w(theta_w, p_hpa):
     """Temperature [K] of saturated air at p with the given theta-w (inverted by table)."""
-    from kit.thermo import wet_bulb_potential_temperature
+    from kit.science.thermo import wet_bulb_potential_temperature
 
     t_tab = np.linspace(210.0, 320.0, 2201)
     tw_tab = np.asarray(wet_bulb_potential_temperature(t_tab, t_tab, np.full_like(t_tab, p_hpa)))
@@ -589,7 +589,7 @@ def zone_dataset(
     "kind, c_ms, v_wind, n_slope", [("warm", 9.0, 13.5, 150.0), ("cold", -13.0, -13.0, 50.0)]
 )
 def test_analyse_run_translating_zone(kind, c_ms, v_wind, n_slope, hemisphere):
-    from kit.motion import analyse_run
+    from kit.science.motion import analyse_run
 
     ds = zone_dataset(c_ms=c_ms, n_slope=n_slope, v_wind=v_wind, hemisphere=hemisphere)
     fronts = analyse_run(ds)
@@ -647,7 +647,7 @@ def test_doctests():
 def test_analyse_run_members_tracked_apart():
     # two members of one run moving at different speeds: one track each, each
     # with its own speed [derived]
-    from kit.motion import analyse_run
+    from kit.science.motion import analyse_run
 
     a = zone_dataset(c_ms=8.0, n_slope=150.0, v_wind=12.0, n_times=3)
     b = zone_dataset(c_ms=11.0, n_slope=150.0, v_wind=16.0, n_times=3)
@@ -693,7 +693,7 @@ def sample_truth():
 @pytest.fixture(scope="module")
 def sample_run_fronts(sample_truth):
     import kit
-    from kit.motion import analyse_run
+    from kit.science.motion import analyse_run
 
     run = sorted(sample_truth["timing_offsets_h"].keys() - {"analyses"})[-1]  # the newest run
     ds = kit.open_run(SAMPLE / sample_truth["sets"][run]["folder"])
@@ -728,7 +728,7 @@ def test_sample_event_speeds_regression(sample_truth, sample_run_fronts):
 def test_empty_inputs():
     assert track_fronts([]) == []
     assert speeds_three_ways([], speed_dataset(50.0)) == []
-    from kit.structure import add_slopes
+    from kit.science.structure import add_slopes
 
     assert add_slopes([], speed_dataset(50.0)) == []
 
@@ -759,7 +759,7 @@ def test_analyse_run_on_a_projected_grid():
     # the translating, sloping theta-w zone of test_analyse_run_translating_zone
     # on a Lambert conformal grid (2-D lat/lon, 30 km): same answers [derived]
     pyproj = pytest.importorskip("pyproj")
-    from kit.motion import analyse_run
+    from kit.science.motion import analyse_run
 
     crs = pyproj.CRS.from_proj4("+proj=lcc +lat_1=40 +lat_2=55 +lat_0=48 +lon_0=-10 +R=6371008.8")
     tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)

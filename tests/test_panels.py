@@ -9,8 +9,9 @@ import pandas as pd
 import pytest
 from charts_synthetic import make_run
 
-from kit import CAUTION, panels
-from kit.fronts import FrontSettings, default_thresholds, effective_smoothing_km
+from kit import CAUTION
+from kit.ui import panels
+from kit.science.fronts import FrontSettings, default_thresholds, effective_smoothing_km
 
 PNG = b"\x89PNG\r\n\x1a\n"
 SITES = pd.DataFrame({"name": ["Harrowby Field", "Kestrel Point"], "lat": [50.2, 55.0],

@@ -1,4 +1,4 @@
-"""Tests of the invented demo event (kit.scenario and the committed sample_grids/).
+"""Tests of the invented demo event (tools.scenario and the committed sample_grids/).
 
 Which checks are which:
 - [pub] published equations (hypsometric, geostrophic, map projection);
@@ -26,7 +26,7 @@ from scipy.interpolate import RegularGridInterpolator
 from scipy.optimize import curve_fit
 
 from kit import CAUTION
-from kit import scenario as sc
+from tools.scenario import event as sc
 
 EVENT = Path(__file__).resolve().parents[1] / "sample_grids"
 RUN_A, RUN_B = "2027-01-14T00Z", "2027-01-13T12Z"

@@ -1,4 +1,4 @@
-"""Tests of kit.sections (computation) and kit.charts.sections (figure).
+"""Tests of kit.science.sections (computation) and kit.charts.sections (figure).
 
 Sources of expected values are marked beside each check:
 [pub] published formula or definition, [lib] reference library as a second
@@ -18,9 +18,9 @@ import pytest
 import xarray as xr
 
 import kit
-import kit.sections as S
+import kit.science.sections as S
 from kit.errors import InputError
-from kit.fronts import Front
+from kit.science.fronts import Front
 
 LEVELS = np.array([1000.0, 925.0, 850.0, 700.0, 600.0, 500.0, 400.0, 300.0, 250.0, 200.0])
 REF = np.datetime64("2027-01-13T18:00", "ns")
@@ -148,7 +148,7 @@ def test_section_matches_metpy_cross_section(smooth_run):
                                    ref.transpose("level", "index").values, rtol=1e-10, atol=1e-9)
     # PV is computed on a window of the grid around the section; it must equal PV of the
     # whole grid cut by MetPy's cross_section [lib] (same points, bilinear)
-    from kit.thermo import potential_temperature
+    from kit.science.thermo import potential_temperature
 
     one = smooth_run.sel(time=TIMES[1])
     pv = S.potential_vorticity(potential_temperature(one["t"], one["level"]), one["u"],
@@ -243,7 +243,7 @@ def test_potential_vorticity_against_metpy(smooth_run):
     import metpy.calc as mpcalc
     from metpy.units import units
 
-    from kit.thermo import potential_temperature
+    from kit.science.thermo import potential_temperature
 
     one = smooth_run.sel(time=TIMES[0])
     theta = potential_temperature(one["t"], one["level"]).transpose("level", "lat", "lon")
@@ -262,7 +262,7 @@ def test_potential_vorticity_against_metpy(smooth_run):
     inner = (slice(None), slice(1, -1), slice(1, -1))
     # [lib] MetPy potential_vorticity_baroclinic (spherical grid, same earth radius);
     # interior points: both centred second-order differences (edges differ by design:
-    # kit.geometry is one-sided first order there)
+    # kit.science.geo is one-sided first order there)
     np.testing.assert_allclose(pv.values[inner], ref[inner], rtol=1e-4, atol=1e-3)
     assert np.nanmax(np.abs(ref)) > 1.0  # the comparison covers PV of tropopause size
 
@@ -298,8 +298,8 @@ def test_freezing_level_of_a_linear_lapse_rate():
     # linear interpolation in z is exact for a linear profile
     np.testing.assert_allclose(sec["freezing_level_m"].values, (t_sfc - 273.15) / gamma,
                                atol=1e-6)
-    # second implementation inside the kit: kit.thermo.freezing_level on the same columns
-    from kit.thermo import freezing_level
+    # second implementation inside the kit: kit.science.thermo.freezing_level on the same columns
+    from kit.science.thermo import freezing_level
 
     fl = freezing_level(sec["t"], sec["z"], dim="level")
     np.testing.assert_allclose(sec["freezing_level_m"].values, np.asarray(fl), atol=1.0)
@@ -507,7 +507,7 @@ def test_figure_content(figure_and_section):
 
 
 def test_figure_svg_keeps_the_marks(figure_and_section, tmp_path):
-    from kit.export import save_figure
+    from kit.products.files import save_figure
 
     fig, _ = figure_and_section
     out = save_figure(fig, tmp_path / "s.svg")
@@ -518,11 +518,11 @@ def test_figure_svg_keeps_the_marks(figure_and_section, tmp_path):
 
 # ----------------------------------------------------------------------------- sample event
 # Consistency checks of the whole chain on the invented sample event: the expected
-# positions come from truth.json, i.e. from how kit.scenario built the fields (scenario
+# positions come from truth.json, i.e. from how tools.scenario built the fields (scenario
 # regression values, not science references); the physical expectations are [trade].
 _HAVE_SAMPLE = (SAMPLE / "truth.json").exists()
 _no_sample = pytest.mark.skipif(not _HAVE_SAMPLE, reason="sample_grids/ not generated yet "
-                                "(python -m kit.scenario); synthetic tests above cover the code")
+                                "(python -m tools.scenario); synthetic tests above cover the code")
 
 
 def _crossing_km(sec, lon, lat):
@@ -551,8 +551,8 @@ _OPENED = {}
 
 def _sample_case(kind):
     """(ds, truth, set entry, site row, valid time) for a section before a passage."""
-    from kit.grids import open_run
-    from kit.sites import read_sites
+    from kit.io.runs import open_run
+    from kit.io.sites import read_sites
 
     truth = json.loads((SAMPLE / "truth.json").read_text())
     sites = read_sites(SAMPLE / "sites.csv")

@@ -1,11 +1,11 @@
-"""Tests of kit.sites: reading site lists and placing sites on grids."""
+"""Tests of kit.io.sites: reading site lists and placing sites on grids."""
 
 import numpy as np
 import pytest
 import xarray as xr
 
 from kit.errors import InputError
-from kit.sites import check_sites_on_grid, grid_position, read_sites
+from kit.io.sites import check_sites_on_grid, grid_position, read_sites
 
 
 def write(tmp_path, text, name="sites.csv"):

@@ -1,4 +1,4 @@
-"""Tests of kit.structure: slope from the 3-D field and the Margules slope.
+"""Tests of kit.science.structure: slope from the 3-D field and the Margules slope.
 
 Sources beside each expected value: [pub] published formula or worked
 example, [trade] common practice, no source, [derived] follows exactly from
@@ -12,15 +12,15 @@ import numpy as np
 import pytest
 import xarray as xr
 
-import kit.structure as structure
-from kit.fronts import Front
-from kit.motion import G0, coriolis_parameter
-from kit.structure import add_slopes, front_margules_slope, front_slope, margules_slope
+import kit.science.structure as structure
+from kit.science.fronts import Front
+from kit.science.motion import G0, coriolis_parameter
+from kit.science.structure import add_slopes, front_margules_slope, front_slope, margules_slope
 
 R_KM = 6371.0088
 T0 = np.datetime64("2030-02-03T00:00", "ns")
 Z_STD = {1000.0: 110.0, 925.0: 760.0, 850.0: 1460.0, 700.0: 3010.0, 600.0: 4200.0, 500.0: 5570.0}
-KAPPA = 0.2854  # Rd/cp of Bolton (1980) Eq. 7, as kit.thermo uses
+KAPPA = 0.2854  # Rd/cp of Bolton (1980) Eq. 7, as kit.science.thermo uses
 
 
 def make_front(lon, lat, ne, nn, *, kind="warm", level=850.0, time=T0):
@@ -179,7 +179,7 @@ def test_slope_of_a_rotated_zone():
     # [derived] the same sloping zone (1 in 100) lying SW-NE with the cold air
     # to the north-west, built in a local azimuthal-equidistant plane; the
     # vertex normals are the plane's normal carried to each vertex
-    from kit.geometry import local_east_north_km, local_to_lonlat
+    from kit.science.geo import local_east_north_km, local_to_lonlat
 
     n_slope, l_km = 100.0, 100.0
     beta = np.deg2rad(-50.0)
@@ -262,7 +262,7 @@ def test_add_slopes_props():
 
 
 def test_slope_with_theta_w_field():
-    # the default field is theta-w (kit.thermo); a zone in theta with moist,
+    # the default field is theta-w (kit.science.thermo); a zone in theta with moist,
     # uniform dew-point depression keeps its slope in theta-w (within 10 %)
     ds = sloping_zone(150.0)
     lat_f = 45.0 + np.rad2deg(150.0 * 1.46 / R_KM)
@@ -332,7 +332,7 @@ def test_sample_event_slopes_regression():
     from pathlib import Path
 
     import kit
-    from kit.fronts import FrontSettings, find_fronts
+    from kit.science.fronts import FrontSettings, find_fronts
 
     sample = Path(__file__).resolve().parents[1] / "sample_grids"
     truth = json.loads((sample / "truth.json").read_text())

@@ -1,4 +1,4 @@
-"""Tests for kit.thermo.
+"""Tests for kit.science.thermo.
 
 Where each expected value comes from is written beside it:
 [pub] a published formula, table or stated accuracy (authors, year);
@@ -19,7 +19,7 @@ import xarray as xr
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
-from kit import thermo
+from kit.science import thermo
 from kit.errors import InputError
 
 T0 = 273.15
@@ -38,7 +38,7 @@ T0 = 273.15
 # (standard values, from memory). Saturation vapour pressure from Bolton (1980)
 # Eq. 10, the curve his theta-e was fitted with. The lifting condensation
 # level is found by root finding (dry adiabat, conserved mixing ratio), not by
-# Bolton's Eq. 15, so the only shared ingredient with kit.thermo is e_s.
+# Bolton's Eq. 15, so the only shared ingredient with kit.science.thermo is e_s.
 RD, CPD, RV, CPV, CL, LV0 = 287.04, 1005.7, 461.5, 1875.0, 4190.0, 2.501e6
 EPS = RD / RV
 KAP = RD / CPD
@@ -721,7 +721,7 @@ def test_profiles_accept_plain_level_arrays_beside_xarray():
 # ---------------------------------------------------------------------------
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_grids"
 needs_sample = pytest.mark.skipif(
-    not (SAMPLE / "truth.json").exists(), reason="sample_grids not written (python -m kit.scenario)"
+    not (SAMPLE / "truth.json").exists(), reason="sample_grids not written (python -m tools.scenario)"
 )
 
 

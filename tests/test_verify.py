@@ -18,7 +18,7 @@ from pyproj import Geod
 from scipy.spatial.distance import directed_hausdorff
 
 from kit.errors import InputError
-from kit.verify import (
+from kit.science.verification import (
     _densify,
     _to_local_km,
     detect_passages,

@@ -12,7 +12,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from kit.verify import rerun_events, summarise_position, summarise_timing
+from kit.science.verification import rerun_events, summarise_position, summarise_timing
 
 EVENT = Path(__file__).resolve().parents[1] / "sample_grids"
 

@@ -48,7 +48,7 @@ __all__ = [
     "MapSeries",
 ]
 
-#: fields a map can shade: key -> (label, kit.thermo name)
+#: fields a map can shade: key -> (label, kit.science.thermo name)
 FIELDS = {
     "theta_w": ("\u03b8w", "theta_w"),
     "theta": ("\u03b8", "theta"),
@@ -125,7 +125,7 @@ def level_field_c(ds_t, field="theta_w", level=850.0):
     level : float
         Pressure level [hPa].
     """
-    from kit import thermo
+    from kit.science import thermo
 
     if field not in FIELDS:
         raise InputError(f"field {field!r}: unknown; expected one of {', '.join(FIELDS)}")
@@ -330,7 +330,7 @@ def symbol_side(front):
 
     Parameters
     ----------
-    front : kit.fronts.Front
+    front : kit.science.fronts.Front
 
     Returns
     -------
@@ -381,7 +381,7 @@ def draw_fronts(ax, fronts, *, size=7.0, linewidth=2.2, labels=True):
     Parameters
     ----------
     ax : cartopy GeoAxes
-    fronts : list of kit.fronts.Front
+    fronts : list of kit.science.fronts.Front
     size : float
         Symbol size [points].
     linewidth : float
@@ -546,9 +546,9 @@ def front_map(ds, fronts=None, *, time, level=850.0, field="theta_w", sites=None
     ----------
     ds : xarray.Dataset
         Canonical run.
-    fronts : list of kit.fronts.Front, optional
+    fronts : list of kit.science.fronts.Front, optional
         Fronts of the run (any times; those at ``time`` are drawn). Found with
-        :func:`kit.fronts.find_fronts` when None.
+        :func:`kit.science.fronts.find_fronts` when None.
     time : datetime-like
         Valid time (UTC).
     level : float
@@ -572,12 +572,12 @@ def front_map(ds, fronts=None, *, time, level=850.0, field="theta_w", sites=None
     -------
     matplotlib.figure.Figure
     """
-    from kit.coast import add_coastlines
+    from kit.charts.coast import add_coastlines
 
     member = _member_of(ds, member)
     ds_t, valid = select_time(ds, time, member=member)
     if fronts is None:
-        from kit.fronts import find_fronts
+        from kit.science.fronts import find_fronts
 
         fronts = find_fronts(ds, level=level, times=[valid], member=member)
     drawn = _fronts_at(fronts, valid, level, member)
@@ -619,7 +619,7 @@ def fronts_through_time(ds, fronts, *, times=None, level=850.0, field="theta_w",
     ----------
     ds : xarray.Dataset
         Canonical run.
-    fronts : list of kit.fronts.Front
+    fronts : list of kit.science.fronts.Front
         Fronts of the run at any valid times.
     times : list of datetime-like, optional
         Valid times to show; default up to ``max_panels`` spread over the run.
@@ -636,7 +636,7 @@ def fronts_through_time(ds, fronts, *, times=None, level=850.0, field="theta_w",
     -------
     matplotlib.figure.Figure
     """
-    from kit.coast import add_coastlines
+    from kit.charts.coast import add_coastlines
 
     member = _member_of(ds, member)
     all_times = _times(ds)
@@ -706,7 +706,7 @@ def fronts_overview(ds, fronts, *, level=850.0, sites=None, member=None, width_i
     ----------
     ds : xarray.Dataset
         Canonical run.
-    fronts : list of kit.fronts.Front
+    fronts : list of kit.science.fronts.Front
         Fronts of the run at any valid times (tracked ones carry ``track``).
     level, sites, member
         As :func:`front_map`.
@@ -719,7 +719,7 @@ def fronts_overview(ds, fronts, *, level=850.0, sites=None, member=None, width_i
     """
     import matplotlib.colors as mcolors
 
-    from kit.coast import add_coastlines
+    from kit.charts.coast import add_coastlines
 
     member = _member_of(ds, member)
     times = _times(ds)
@@ -780,7 +780,7 @@ class MapSeries:
     only the weather layer (shading, isobars, fronts, header) and lays the
     overlay on top. The shading levels are the same for every valid time, so
     colours compare through the run. After :meth:`draw`, :attr:`fig` is the
-    complete, stamped figure (for a PDF page or :func:`kit.export.save_figure`).
+    complete, stamped figure (for a PDF page or :func:`kit.products.files.save_figure`).
 
     Parameters
     ----------
@@ -807,7 +807,7 @@ class MapSeries:
         import matplotlib.colors as mcolors
         from matplotlib.cm import ScalarMappable
 
-        from kit.coast import add_coastlines
+        from kit.charts.coast import add_coastlines
 
         if field not in FIELDS:
             raise InputError(f"field {field!r}: unknown; expected one of {', '.join(FIELDS)}")
@@ -853,7 +853,7 @@ class MapSeries:
         ----------
         time : datetime-like
             Valid time (UTC), one of the run's.
-        fronts : list of kit.fronts.Front
+        fronts : list of kit.science.fronts.Front
             Fronts of the run (those at ``time``, on the level and member, are drawn).
         site : pandas.Series, optional
             A site to ring (``lat``, ``lon``).

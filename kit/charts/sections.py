@@ -10,7 +10,7 @@ precipitation strip below with the rule-of-thumb rain zone. Every element
 carries a ``gid`` (``rh``, ``theta-w``, ``isotachs``, ``jet-core``,
 ``isotherm-0c``, ``wet-bulb-0c``, ``pv2``, ``frontal-surface``,
 ``surface-front``, ``site``, ``rule-zone``, ``precip``) so products can be
-checked by content. The section itself comes from :mod:`kit.sections`.
+checked by content. The section itself comes from :mod:`kit.science.sections`.
 """
 
 from kit.charts import _require
@@ -33,7 +33,7 @@ from kit.charts.style import (  # noqa: E402
     stamp,
 )
 from kit.errors import InputError  # noqa: E402
-from kit.sections import NM_KM, RULE_ZONES_NM  # noqa: E402
+from kit.science.sections import NM_KM, RULE_ZONES_NM  # noqa: E402
 
 __all__ = ["section_figure", "draw_section", "RH_LEVELS", "RH_CMAP", "SECTION_COLOURS"]
 
@@ -72,7 +72,7 @@ def _need(sec, *names):
     missing = [n for n in names if n not in sec]
     if missing:
         raise InputError(f"section: field(s) {', '.join(missing)} missing; expected a section "
-                         "from kit.sections (section_between / section_across_front)")
+                         "from kit.science.sections (section_between / section_across_front)")
 
 
 def _p_of_height(levels, zmean, z_m):
@@ -94,7 +94,7 @@ def draw_section(ax, strip, sec):
         Axes below ``ax`` sharing its x axis, for precipitation and the rule
         zone; None leaves them out.
     sec : xarray.Dataset
-        A section from :mod:`kit.sections`.
+        A section from :mod:`kit.science.sections`.
 
     Returns
     -------
@@ -356,9 +356,9 @@ def section_figure(sec, *, figsize=(11.0, 7.6)):
     Parameters
     ----------
     sec : xarray.Dataset
-        A section from :func:`kit.sections.section_across_front`,
-        :func:`kit.sections.section_for_site` or
-        :func:`kit.sections.section_between`.
+        A section from :func:`kit.science.sections.section_across_front`,
+        :func:`kit.science.sections.section_for_site` or
+        :func:`kit.science.sections.section_between`.
     figsize : (float, float)
         Width, height [inches].
 
@@ -366,7 +366,7 @@ def section_figure(sec, *, figsize=(11.0, 7.6)):
     -------
     matplotlib.figure.Figure
         Stamped with run, valid time, lead time, source and :data:`kit.CAUTION`;
-        save it with :func:`kit.export.save_figure`.
+        save it with :func:`kit.products.files.save_figure`.
     """
     _need(sec, "rh", "theta_w")
     fig, ax = new_figure(figsize=figsize, left_in=0.75, right_in=1.95, bottom_in=0.95,

@@ -71,9 +71,9 @@ def timeline_figure(series, rows=None, *, title_extra=None):
     Parameters
     ----------
     series : xarray.Dataset
-        :func:`kit.arrivals.site_series` of one run (one member selected).
+        :func:`kit.products.arrivals.site_series` of one run (one member selected).
     rows : pandas.DataFrame, optional
-        Rows of :func:`kit.arrivals.arrival_table` for this site (any runs); rows
+        Rows of :func:`kit.products.arrivals.arrival_table` for this site (any runs); rows
         of the drawn run are solid lines, others dashed.
     title_extra : str, optional
         Appended to the product line of the header.

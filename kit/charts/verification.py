@@ -37,7 +37,7 @@ def timing_error_figure(pairs, *, title_run, source):
     Parameters
     ----------
     pairs : pandas.DataFrame
-        :func:`kit.verify.timing_pairs` output (one or many events).
+        :func:`kit.science.verification.timing_pairs` output (one or many events).
     title_run : str
         Run or event label for the header.
     source : str
@@ -75,7 +75,7 @@ def position_error_figure(pairs, *, title_run, source):
     Parameters
     ----------
     pairs : pandas.DataFrame
-        :func:`kit.verify.position_pairs` output.
+        :func:`kit.science.verification.position_pairs` output.
     title_run, source : str
         Header label and data source line.
 

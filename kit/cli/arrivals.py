@@ -1,7 +1,7 @@
 """``frontshift arrivals RUN... --sites SITES.csv --out FILE.csv``: the site arrival table.
 
 One row per site and front passage (per run and member), with the weather
-sequence and the spread over runs (see :mod:`kit.arrivals`). ``--out`` ending
+sequence and the spread over runs (see :mod:`kit.products.arrivals`). ``--out`` ending
 in ``.csv`` writes CSV (the last column, ``caution``, carries kit.CAUTION on
 every row); ``.html`` writes a page with a title and the caution.
 ``--timelines DIR`` also writes one timeline figure per site (PNG) of the
@@ -85,10 +85,10 @@ def _slug(name):
 
 def run(args):
     """Build the arrival table (and timelines) and write the products; return 0."""
-    from kit.arrivals import arrival_table
+    from kit.products.arrivals import arrival_table
     from kit.cli.common import load_runs, output_path
-    from kit.export import write_csv, write_html_table
-    from kit.sites import check_sites_on_grid, read_sites
+    from kit.products.files import write_csv, write_html_table
+    from kit.io.sites import check_sites_on_grid, read_sites
 
     out = output_path(args.out, _SUFFIXES)
     if out.exists() and not args.overwrite:
@@ -128,7 +128,7 @@ def run(args):
     print(f"{n_pass} passages at {len(sites)} sites from {len(runs)} run(s) written to {out}")
     if tl_dir is not None:
         from kit.charts.timelines import timeline_figure
-        from kit.export import save_figure
+        from kit.products.files import save_figure
 
         first = str(runs[0].attrs.get("run", "run1"))
         for _, site in sites.iterrows():

@@ -42,7 +42,7 @@ def output_path(value, suffixes):
 
 
 def load_runs(run_args, member=None):
-    """Open every RUN argument with :func:`kit.grids.open_run`; list of canonical Datasets."""
-    from kit.grids import open_run
+    """Open every RUN argument with :func:`kit.io.runs.open_run`; list of canonical Datasets."""
+    from kit.io.runs import open_run
 
     return [open_run(arg, member=member) for arg in run_args]

@@ -1,10 +1,10 @@
 """``frontshift fronts RUN... [--level 850] --out FILE.geojson``: objective fronts as GeoJSON.
 
 Every RUN (a NetCDF file, glob or folder of one model run; several are runs or
-members of one event) is opened with :func:`kit.grids.open_run`; its fronts
-are found at every valid time (:func:`kit.motion.analyse_run`: location,
+members of one event) is opened with :func:`kit.io.runs.open_run`; its fronts
+are found at every valid time (:func:`kit.science.motion.analyse_run`: location,
 type, tracks over lead time, speeds three ways, slopes) and written as one
-RFC 7946 FeatureCollection of LineStrings (:func:`kit.fronts.fronts_to_geojson`)
+RFC 7946 FeatureCollection of LineStrings (:func:`kit.science.fronts.fronts_to_geojson`)
 that carries kit.CAUTION. A one-line summary goes to stdout.
 """
 
@@ -79,7 +79,7 @@ def add_parser(subparsers):
 
 
 def _settings(args):
-    from kit.fronts import FrontSettings
+    from kit.science.fronts import FrontSettings
 
     kw = {"field": args.field}
     if args.smoothing_km is not None:
@@ -90,11 +90,11 @@ def _settings(args):
 
 
 def _analyse(ds, level, settings):
-    """Fronts with tracks/speeds/slopes where kit.motion offers them."""
+    """Fronts with tracks/speeds/slopes where kit.science.motion offers them."""
     try:
-        from kit.motion import analyse_run
+        from kit.science.motion import analyse_run
     except ImportError:  # motion not installed in this tree: location and type only
-        from kit.fronts import find_fronts
+        from kit.science.fronts import find_fronts
 
         return find_fronts(ds, level=level, settings=settings)
     return analyse_run(ds, level=level, settings=settings)
@@ -103,8 +103,8 @@ def _analyse(ds, level, settings):
 def run(args):
     """Find the fronts of every RUN and write the GeoJSON; return 0."""
     from kit.cli.common import load_runs, output_path
-    from kit.export import write_json
-    from kit.fronts import fronts_to_geojson
+    from kit.products.files import write_json
+    from kit.science.fronts import fronts_to_geojson
 
     out = output_path(args.out, _SUFFIXES)
     if out.exists() and not args.overwrite:
@@ -152,7 +152,7 @@ def _iso_minutes(t):
 
 def _empty_steps(ds, level):
     """List the valid times (and members) whose analysis level holds no value at all."""
-    from kit.fronts import _level_index
+    from kit.science.fronts import _level_index
 
     t = ds["t"].isel(level=_level_index(ds, level, "level"))
     spatial = [d for d in t.dims if d not in ("time", "member")]

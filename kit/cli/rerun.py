@@ -31,8 +31,8 @@ def add_parser(subparsers):
 
 def run(args):
     """Run the verification and write its products; return 0."""
-    from kit.export import new_product_dir, save_figure, write_csv, write_html_table
-    from kit.verify import rerun_events, summarise_position, summarise_timing
+    from kit.products.files import new_product_dir, save_figure, write_csv, write_html_table
+    from kit.science.verification import rerun_events, summarise_position, summarise_timing
 
     if args.workers < 1:
         raise InputError(f"--workers {args.workers}: expected 1 or more")

@@ -118,7 +118,7 @@ def lookup_site(sites, name, where):
     Parameters
     ----------
     sites : pandas.DataFrame
-        From :func:`kit.sites.read_sites`.
+        From :func:`kit.io.sites.read_sites`.
     name : str
         Site name.
     where : str or Path
@@ -144,7 +144,7 @@ def section_to_netcdf_bytes(sec):
     Parameters
     ----------
     sec : xarray.Dataset
-        A section from :mod:`kit.sections`.
+        A section from :mod:`kit.science.sections`.
 
     Returns
     -------
@@ -170,10 +170,10 @@ def section_to_netcdf_bytes(sec):
 def run(args):
     """Build the section and write the product; return 0."""
     from kit.cli.common import output_path
-    from kit.export import save_figure, write_bytes
-    from kit.grids import open_run
-    from kit.sections import section_for_site, select_time
-    from kit.sites import check_sites_on_grid, read_sites
+    from kit.products.files import save_figure, write_bytes
+    from kit.io.runs import open_run
+    from kit.science.sections import section_for_site, select_time
+    from kit.io.sites import check_sites_on_grid, read_sites
 
     out = output_path(args.out, _SUFFIXES)
     if out.exists() and not args.overwrite:

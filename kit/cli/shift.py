@@ -144,7 +144,7 @@ class _Products:
         return path
 
     def figure(self, fig, rel, kind, pack=None, **info):
-        from kit.export import save_figure
+        from kit.products.files import save_figure
 
         path = save_figure(fig, self.folder / rel)
         if pack is not None:
@@ -155,8 +155,8 @@ class _Products:
 
 
 def _load(run_args, sites_path):
-    from kit.grids import open_run
-    from kit.sites import check_sites_on_grid, read_sites
+    from kit.io.runs import open_run
+    from kit.io.sites import check_sites_on_grid, read_sites
 
     sites = read_sites(sites_path)
     runs = []
@@ -181,13 +181,13 @@ def _load(run_args, sites_path):
 
 
 def _analyse(runs, level, field):
-    from kit.fronts import FrontSettings
+    from kit.science.fronts import FrontSettings
 
     settings = FrontSettings(field=field)
     try:
-        from kit.motion import analyse_run
+        from kit.science.motion import analyse_run
     except ImportError:
-        from kit.fronts import find_fronts
+        from kit.science.fronts import find_fronts
 
         return [find_fronts(ds, level=level, settings=settings) for ds in runs], settings
     return [analyse_run(ds, level=level, settings=settings) for ds in runs], settings
@@ -315,9 +315,9 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
     """
     from tqdm import tqdm
 
-    from kit.briefing import BriefingPack
+    from kit.products.briefing import BriefingPack
     from kit.charts import maps
-    from kit.export import (
+    from kit.products.files import (
         new_product_dir,
         write_bytes,
         write_csv,
@@ -325,7 +325,7 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
         write_json,
         write_text,
     )
-    from kit.fronts import fronts_table, fronts_to_geojson
+    from kit.science.fronts import fronts_table, fronts_to_geojson
 
     if not 100.0 <= float(level) <= 1050.0:
         raise InputError(f"--level {level:g}: expected a pressure level 100 to 1050 hPa")
@@ -346,7 +346,7 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
 
     table, series = None, {}
     try:
-        from kit.arrivals import arrival_table
+        from kit.products.arrivals import arrival_table
     except ImportError:
         arrival_table = None
     if arrival_table is not None:
@@ -356,7 +356,7 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
     bar.update(1)
     try:
         from kit.charts.sections import section_figure
-        from kit.sections import section_across_front
+        from kit.science.sections import section_across_front
     except ImportError:
         section_across_front = section_figure = None
     section_jobs = (_section_jobs(table, fronts_by_run, labels, runs, sites, max_sections)

@@ -18,7 +18,7 @@ then look at the images, tables and messages it updated).
 
 Bad input (a wrong path, a threshold that is not a number) is shown as one
 plain line in the panel's message area, never a traceback. Products are
-written only through :mod:`kit.export` (new file names; an existing file is
+written only through :mod:`kit.products.files` (new file names; an existing file is
 never overwritten silently).
 """
 
@@ -31,7 +31,7 @@ import pandas as pd
 
 from kit.charts import _require
 
-_require(("ipywidgets", "matplotlib", "cartopy"), "kit.panels")
+_require(("ipywidgets", "matplotlib", "cartopy"), "kit.ui.panels")
 
 import ipywidgets as widgets  # noqa: E402
 
@@ -111,7 +111,7 @@ def _load_run(run):
         return run
     if not isinstance(run, (str, Path)):
         raise InputError(f"run {run!r}: expected a path (file, glob or folder) or a Dataset")
-    from kit.grids import open_run
+    from kit.io.runs import open_run
 
     return open_run(str(run))
 
@@ -121,7 +121,7 @@ def _load_sites(sites):
         return pd.DataFrame(columns=["name", "lat", "lon", "elevation_m"])
     if isinstance(sites, pd.DataFrame):
         return sites
-    from kit.sites import read_sites
+    from kit.io.sites import read_sites
 
     return read_sites(sites)
 
@@ -144,9 +144,9 @@ class FrontPanel:
     Parameters
     ----------
     runs : list of (str, Path or xarray.Dataset), optional
-        Runs to offer (RUN paths are opened with :func:`kit.grids.open_run`).
+        Runs to offer (RUN paths are opened with :func:`kit.io.runs.open_run`).
     sites : str, Path or pandas.DataFrame, optional
-        Site list (CSV path or :func:`kit.sites.read_sites` frame).
+        Site list (CSV path or :func:`kit.io.sites.read_sites` frame).
     level : float
         Initial front level [hPa].
     field : {"theta_w", "theta"}
@@ -161,7 +161,7 @@ class FrontPanel:
 
     def __init__(self, runs=None, sites=None, *, level=850.0, field="theta_w",
                  out_dir="products", width_in=9.0, dpi=80):
-        from kit.fronts import FrontSettings
+        from kit.science.fronts import FrontSettings
 
         self.defaults = FrontSettings(field=field)
         self.runs, self.labels = [], []
@@ -292,7 +292,7 @@ class FrontPanel:
     def add_run(self, run):
         """Open a run (path or Dataset) and offer it in the run picker; return its label."""
         ds = _load_run(run)
-        from kit.sites import check_sites_on_grid
+        from kit.io.sites import check_sites_on_grid
 
         if len(self.sites):
             check_sites_on_grid(self.sites, ds)
@@ -357,7 +357,7 @@ class FrontPanel:
     # --- analysis (cached) -------------------------------------------------------------------
     def settings(self):
         """FrontSettings from the threshold boxes (one-line InputError on bad values)."""
-        from kit.fronts import FrontSettings
+        from kit.science.fronts import FrontSettings
 
         smoothing = _float(self.smooth_text, "smoothing [km]", lo=0.0)
         min_len = _float(self.minlen_text, "shortest line [km]", lo=0.0)
@@ -368,7 +368,7 @@ class FrontPanel:
 
     def _show_default_thresholds(self):
         """Fill K1/K2 with the defaults for the smoothing typed (on this grid)."""
-        from kit.fronts import FrontSettings, default_thresholds, effective_smoothing_km
+        from kit.science.fronts import FrontSettings, default_thresholds, effective_smoothing_km
 
         ds, _, _ = self.current
         try:
@@ -389,7 +389,7 @@ class FrontPanel:
         key = (label, member, float(self.level_pick.value), s.field, s.k1, s.k2,
                s.smoothing_km, s.min_length_km)
         if key not in self._analysis:
-            from kit.motion import analyse_run
+            from kit.science.motion import analyse_run
 
             self._analysis[key] = analyse_run(ds, level=float(self.level_pick.value),
                                               settings=s, member=member)
@@ -467,7 +467,7 @@ class FrontPanel:
     def draw_section(self):
         """Cross-section of the front picked through the site picked (or its middle)."""
         from kit.charts.sections import section_figure
-        from kit.sections import section_across_front
+        from kit.science.sections import section_across_front
 
         ds, _, _ = self.current
         k = self.front_pick.value
@@ -516,7 +516,7 @@ class FrontPanel:
 
     # --- exports (never overwriting) -------------------------------------------------------
     def _product_path(self, stem, suffix):
-        from kit.export import new_product_dir  # noqa: F401  (folder rules live there)
+        from kit.products.files import new_product_dir  # noqa: F401  (folder rules live there)
 
         self.out_dir.mkdir(parents=True, exist_ok=True)
         for n in range(1, 1000):
@@ -527,7 +527,7 @@ class FrontPanel:
 
     def save_map(self):
         """Write the map shown as PNG into the export folder (new name); return the Path."""
-        from kit.export import save_figure
+        from kit.products.files import save_figure
 
         ds, label, member = self.current
         self.redraw()
@@ -541,7 +541,7 @@ class FrontPanel:
 
     def save_section(self):
         """Write the section shown as PNG (new name); return the Path."""
-        from kit.export import save_figure
+        from kit.products.files import save_figure
 
         if self._section_fig is None:
             raise InputError("Save section: no section drawn yet; pick a front and press Section")
@@ -554,8 +554,8 @@ class FrontPanel:
 
     def save_fronts(self):
         """Write the run's fronts (all times) as GeoJSON (new name); return the Path."""
-        from kit.export import write_json
-        from kit.fronts import fronts_to_geojson
+        from kit.products.files import write_json
+        from kit.science.fronts import fronts_to_geojson
 
         _, label, _ = self.current
         collection = fronts_to_geojson(self.fronts())
@@ -651,7 +651,7 @@ class _ArrivalsPanel:
     _quiet = False
 
     def _load(self, runs, sites, level):
-        from kit.arrivals import arrival_table
+        from kit.products.arrivals import arrival_table
 
         self.sites = _load_sites(sites)
         self.runs = [_load_run(r) for r in runs]
@@ -673,7 +673,7 @@ class _ArrivalsPanel:
 
     def show(self):
         """Show the picked site's rows and its timeline for the picked run."""
-        from kit.briefing import TABLE_COLUMNS
+        from kit.products.briefing import TABLE_COLUMNS
         from kit.charts.timelines import timeline_figure
 
         name = self.site_pick.value
@@ -692,7 +692,7 @@ class _ArrivalsPanel:
 
     def save(self):
         """Write the whole arrival table as CSV and HTML (new names); return the Paths."""
-        from kit.export import write_csv, write_html_table
+        from kit.products.files import write_csv, write_html_table
 
         self.out_dir.mkdir(parents=True, exist_ok=True)
         stem = f"arrivals_{_slug(self.labels[-1])}"
@@ -746,7 +746,7 @@ class _RerunPanel:
     def verify(self):
         """Rerun the event and show the error summaries and figures."""
         from kit.charts.verification import position_error_figure, timing_error_figure
-        from kit.verify import rerun_event, summarise_position, summarise_timing
+        from kit.science.verification import rerun_event, summarise_position, summarise_timing
 
         event = Path(self.path_text.value.strip())
         if not event.is_dir():

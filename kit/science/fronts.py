@@ -59,7 +59,7 @@ import pandas as pd
 import xarray as xr
 
 from kit import CAUTION
-from kit import geometry as geo
+from kit.science import geo
 from kit.errors import InputError
 
 __all__ = [
@@ -129,7 +129,7 @@ class Front:
     member : int or None
         Ensemble member where the run has several.
     track : int or None
-        Track id shared over lead times (set by :mod:`kit.motion`).
+        Track id shared over lead times (set by :mod:`kit.science.motion`).
     props : dict
         Further per-front properties (speeds three ways, slopes...), exported
         into GeoJSON as they are.
@@ -256,7 +256,7 @@ def effective_smoothing_km(ds, settings=None):
     Parameters
     ----------
     ds : xarray.Dataset
-        Canonical Dataset (its grid length X, :func:`kit.geometry.grid_length_km`).
+        Canonical Dataset (its grid length X, :func:`kit.science.geo.grid_length_km`).
     settings : FrontSettings, optional
 
     Returns
@@ -762,7 +762,7 @@ def _check_dataset(ds, what="find_fronts"):
     if not isinstance(ds, xr.Dataset):
         raise InputError(
             f"{what}: got {type(ds).__name__}; expected the canonical xarray Dataset "
-            "(kit.grids.open_run)"
+            "(kit.io.runs.open_run)"
         )
     for name in ("t", "u", "v"):
         if name not in ds:
@@ -811,7 +811,7 @@ def _select_times(ds, times):
 
 
 def _tau_of(ds, level, settings):
-    from kit import thermo
+    from kit.science import thermo
 
     if settings.field == "theta_w":
         if "td" not in ds:
@@ -930,7 +930,7 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
     list of Front
         In order of member, valid time, then length (longest first).
         ``run`` is ``ds.attrs["run"]``; ``track`` is left None (set by
-        :mod:`kit.motion`).
+        :mod:`kit.science.motion`).
 
     Notes
     -----

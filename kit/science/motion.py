@@ -200,9 +200,9 @@ def geostrophic_wind(
 
     with :math:`f = 2\Omega\sin\varphi` (any dynamics text; Eq. Vg,
     [REFERENCES, Front motion]). Gradients come from
-    :func:`kit.geometry.gradient` (on the sphere, or on the projection).
+    :func:`kit.science.geo.gradient` (on the sphere, or on the projection).
     """
-    from kit.geometry import gradient
+    from kit.science.geo import gradient
 
     if kind not in ("height", "mslp"):
         raise InputError(f"geostrophic_wind: kind={kind!r} unknown; expected 'height' or 'mslp'")
@@ -251,7 +251,7 @@ def _density_from_t(p, ds):
 
 
 # --------------------------------------------------------------------------
-# spherical helpers (vectorised over many origins, which kit.geometry's
+# spherical helpers (vectorised over many origins, which kit.science.geo's
 # single-origin local_east_north_km does not do)
 # --------------------------------------------------------------------------
 def _haversine_km(lon1, lat1, lon2, lat2):
@@ -568,7 +568,7 @@ def track_fronts(
 
     Parameters
     ----------
-    fronts : list of kit.fronts.Front
+    fronts : list of kit.science.fronts.Front
         Fronts of any runs, members, levels and times; changed in place.
     max_gap_km : float, optional
         Largest normal displacement [km] between two consecutive times that
@@ -582,7 +582,7 @@ def track_fronts(
 
     Returns
     -------
-    list of kit.fronts.Front
+    list of kit.science.fronts.Front
         The same fronts, with ``front.track`` (int, unique over the list) and
         ``front.props``: ``speed_tracked_ms`` [m s-1] (front-normal, positive
         toward the cold side; the length-weighted median of the vertex speeds,
@@ -782,7 +782,7 @@ def speeds_three_ways(
 
     Parameters
     ----------
-    fronts : list of kit.fronts.Front
+    fronts : list of kit.science.fronts.Front
         Fronts of the run ``ds`` (tracked first with :func:`track_fronts` for
         ``speed_tracked_ms``); changed in place.
     ds : xarray.Dataset
@@ -810,7 +810,7 @@ def speeds_three_ways(
 
     Returns
     -------
-    list of kit.fronts.Front
+    list of kit.science.fronts.Front
         The same fronts with props ``speed_tracked_ms`` (kept, or None),
         ``speed_wind_ms``, ``speed_geostrophic_rule_ms``,
         ``speed_geostrophic_normal_ms`` (the normal geostrophic component
@@ -913,7 +913,7 @@ def analyse_run(ds, *, level=850.0, settings=None, member=None):
         Canonical dataset of one run (DEVELOPERS.md).
     level : float
         Level the fronts are located on [hPa].
-    settings : kit.fronts.FrontSettings, optional
+    settings : kit.science.fronts.FrontSettings, optional
         Front-finding settings (smoothing, thresholds, steering level,
         quasi-stationary speed, field).
     member : int, optional
@@ -921,13 +921,13 @@ def analyse_run(ds, *, level=850.0, settings=None, member=None):
 
     Returns
     -------
-    list of kit.fronts.Front
+    list of kit.science.fronts.Front
         Every front at every valid time, with ``track`` and props of
         :func:`track_fronts`, :func:`speeds_three_ways` and
-        :func:`kit.structure.add_slopes`.
+        :func:`kit.science.structure.add_slopes`.
     """
-    from kit.fronts import FrontSettings, find_fronts
-    from kit.structure import add_slopes
+    from kit.science.fronts import FrontSettings, find_fronts
+    from kit.science.structure import add_slopes
 
     settings = settings if settings is not None else FrontSettings()
     ds = _in_memory_if_small(ds)
@@ -959,18 +959,18 @@ def motion_table(fronts):
 
     Parameters
     ----------
-    fronts : list of kit.fronts.Front
+    fronts : list of kit.science.fronts.Front
         Analysed fronts (:func:`analyse_run`).
 
     Returns
     -------
     pandas.DataFrame
-        :func:`kit.fronts.fronts_table` (without the per-vertex
+        :func:`kit.science.fronts.fronts_table` (without the per-vertex
         ``vn_tracked``) plus ``speed_tracked_kt``,
         ``speed_wind_kt``, ``speed_geostrophic_rule_kt`` [kt] (positive toward
         the cold side); ``attrs["caution"]`` holds :data:`kit.CAUTION`.
     """
-    from kit.fronts import fronts_table
+    from kit.science.fronts import fronts_table
 
     df = fronts_table(fronts)
     df = df.drop(

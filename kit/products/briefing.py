@@ -1,7 +1,7 @@
 """The briefing pack: one PDF with a cover, maps, sections, arrival tables, timelines.
 
 Pages are added as the products are made (:class:`BriefingPack`), held in
-memory and written in one atomic step through :mod:`kit.export` when the pack
+memory and written in one atomic step through :mod:`kit.products.files` when the pack
 is closed, so an interrupted run never leaves a half-written PDF and an
 earlier pack is never replaced silently. Every page carries the run, valid
 time, the data source and :data:`kit.CAUTION`: figures must be stamped
@@ -11,7 +11,7 @@ pages are stamped here.
 Examples
 --------
 >>> import pandas as pd
->>> from kit.briefing import BriefingPack
+>>> from kit.products.briefing import BriefingPack
 >>> pack = BriefingPack("/tmp/doctest_pack.pdf", runs=["2031-02-03T00Z"],
 ...                     valid_window=("2031-02-03T00Z", "2031-02-05T00Z"), source="demo",
 ...                     overwrite=True)
@@ -323,7 +323,7 @@ class BriefingPack:
             return self.path
         self._pdf.close()
         self._closed = True
-        from kit.export import write_bytes
+        from kit.products.files import write_bytes
 
         return write_bytes(self.path, self._buffer.getvalue(), overwrite=self.overwrite)
 

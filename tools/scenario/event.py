@@ -1,6 +1,6 @@
 """The invented demo scenario: a deepening frontal depression, written as CF NetCDF.
 
-``python -m kit.scenario [--out sample_grids]`` writes the sample event folder
+``python -m tools.scenario [--out sample_grids]`` writes the sample event folder
 described in DEVELOPERS.md (two forecast runs, verifying analyses, invented
 sites, station series with noise, ``truth.json`` and a README). Everything is
 invented: the sites, the dates (January 2027) and the weather. The fields are
@@ -788,7 +788,7 @@ def _write_file(path, scen, fields, accum, valid, reference, label, kind):
         nc.Conventions = "CF-1.8"
         nc.title = f"frontshift invented demo scenario: {kind} {label}"
         nc.source = (
-            "frontshift invented demo scenario (kit.scenario): analytic fields, "
+            "frontshift invented demo scenario (tools.scenario): analytic fields, "
             "invented weather, not a real model run"
         )
         nc.institution = "frontshift demo (invented)"
@@ -1039,7 +1039,7 @@ def truth(spec=None):
             "dates and weather are invented. Lines are (lon, lat) lists in degrees; times UTC."
         ),
         "caution": CAUTION,
-        "generator": "python -m kit.scenario",
+        "generator": "python -m tools.scenario",
         "valid_times": [
             _iso(scen.start + np.timedelta64(h, "h")) for h in range(0, s.hours + 1, s.step_h)
         ],
@@ -1048,7 +1048,7 @@ def truth(spec=None):
             "warm": {
                 "normal_speed_ms": s.warm_speed_ms,
                 "normal_speed_note": (
-                    "constant normal speed on the conformal plane of kit.scenario; "
+                    "constant normal speed on the conformal plane of tools.scenario; "
                     "the earth speed differs by the map scale factor (< 1 %), "
                     "see speed_earth_ms per time"
                 ),
@@ -1198,8 +1198,8 @@ def _readme(scen, facts):
 
 > {CAUTION}
 > Everything here is invented: the sites, the dates and the weather. It is not
-> a real model run and not real data. It was written by `python -m kit.scenario`
-> (regenerate with `python -m kit.scenario --out sample_grids --overwrite`).
+> a real model run and not real data. It was written by `python -m tools.scenario`
+> (regenerate with `python -m tools.scenario --out sample_grids --overwrite`).
 
 ## The event
 A frontal depression crosses the domain ({s.lat_range[0]:g}-{s.lat_range[1]:g} N,
@@ -1325,9 +1325,9 @@ def write_sample_event(out="sample_grids", spec=None, overwrite=False):
 
 
 def main(argv=None):
-    """Command line: ``python -m kit.scenario [--out sample_grids] [--overwrite]``."""
+    """Command line: ``python -m tools.scenario [--out sample_grids] [--overwrite]``."""
     parser = argparse.ArgumentParser(
-        prog="python -m kit.scenario",
+        prog="python -m tools.scenario",
         description="Write the invented frontshift demo event.",
         epilog=CAUTION,
     )

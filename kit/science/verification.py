@@ -12,7 +12,7 @@ signal on its own - a theta-w (or dew-point) step, a wind turn, a pressure
 trough - and combining the signals that fall within a lag window, because the
 wind shift and the pressure trough can lead the temperature change by hours
 (Sanders 1999; Schultz 2004). Forecast passages come from
-:func:`kit.arrivals.arrival_table`; forecast lines are compared with the lines
+:func:`kit.products.arrivals.arrival_table`; forecast lines are compared with the lines
 located on the verifying analyses by mean distance and the modified Hausdorff
 distance (Dubuisson & Jain 1994).
 """
@@ -277,7 +277,7 @@ def detect_passages(
     confidence. Thresholds are defaults chosen for mid-latitude synoptic
     fronts (common practice, no source); tune them per climate.
     """
-    from kit.thermo import wet_bulb_potential_temperature
+    from kit.science.thermo import wet_bulb_potential_temperature
 
     df = station.data
     step = df.index.to_series().diff().median()
@@ -378,7 +378,7 @@ def detect_passages(
 
 def _to_local_km(lon, lat, lon0, lat0):
     """Azimuthal equidistant plane about (lon0, lat0) [km], as (n, 2) points."""
-    from kit.geometry import local_east_north_km
+    from kit.science.geo import local_east_north_km
 
     east, north = local_east_north_km(np.asarray(lon, float), np.asarray(lat, float), lon0, lat0)
     return np.column_stack([east, north])
@@ -459,7 +459,7 @@ def match_lines(forecast, verifying, *, max_mhd_km=600.0):
 
     Parameters
     ----------
-    forecast, verifying : list of kit.fronts.Front
+    forecast, verifying : list of kit.science.fronts.Front
     max_mhd_km : float
         A pair further apart than this (modified Hausdorff) is a miss [km].
 
@@ -712,10 +712,10 @@ def rerun_event(event_dir, *, level=850.0):
         ``observed`` (passages found in the station series), ``station_problems``,
         ``timing`` (:func:`timing_pairs`) and ``position`` (:func:`position_pairs`).
     """
-    from kit.arrivals import arrival_table
-    from kit.grids import open_run
-    from kit.motion import analyse_run
-    from kit.sites import read_sites
+    from kit.products.arrivals import arrival_table
+    from kit.io.runs import open_run
+    from kit.science.motion import analyse_run
+    from kit.io.sites import read_sites
 
     event = Path(event_dir)
     run_paths = _check_event(event)

@@ -49,8 +49,8 @@ Dew point
 ``td`` is taken as given when the file has dew point; otherwise it is derived
 from relative humidity (clipped to 0.001..1, so super-saturation gives td = t)
 or from specific humidity (floored at 1e-7 kg kg-1) with
-:func:`kit.thermo.dewpoint_from_relative_humidity` /
-:func:`kit.thermo.dewpoint_from_specific_humidity` (Bolton 1980, Eq. 10
+:func:`kit.science.thermo.dewpoint_from_relative_humidity` /
+:func:`kit.science.thermo.dewpoint_from_specific_humidity` (Bolton 1980, Eq. 10
 inverted). ``td2m`` likewise from 2 m humidity.
 
 Precipitation
@@ -2225,7 +2225,7 @@ def _finish(parts, ref, where_all, member, chunks):
         ref_for = ref if isinstance(ref, np.datetime64) else None
         ds["precip"] = _precip_rate(ds["precip"], times, ref_for, lower, where_all)
     # derived dew points
-    from kit import thermo
+    from kit.science import thermo
 
     if "_rh" in ds:
         rh = ds["_rh"].clip(min=0.001, max=1.0)

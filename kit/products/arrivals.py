@@ -63,7 +63,7 @@ import xarray as xr
 
 from kit import CAUTION
 from kit.errors import InputError
-from kit.sites import _extent_text, _local_en, grid_positions, read_sites
+from kit.io.sites import _extent_text, _local_en, grid_positions, read_sites
 
 __all__ = [
     "CONTRACT_COLUMNS",
@@ -250,8 +250,8 @@ def format_utc(value):
 
 
 def _thermo():
-    """Point thermodynamics of kit.thermo on numpy arrays (K and hPa in; K or fraction out)."""
-    from kit import thermo
+    """Point thermodynamics of kit.science.thermo on numpy arrays (K and hPa in; K or fraction out)."""
+    from kit.science import thermo
 
     return {
         "rh": lambda t, td: np.asarray(thermo.relative_humidity(t, td), dtype=float),
@@ -341,7 +341,7 @@ def _site_fields(site):
     except (KeyError, TypeError, ValueError):
         raise InputError(
             f"site {site!r}: expected a mapping with name, lat, lon[, elevation_m] "
-            "(a kit.sites.read_sites row)"
+            "(a kit.io.sites.read_sites row)"
         ) from None
     elev = site.get("elevation_m", np.nan) if hasattr(site, "get") else np.nan
     elev = float(elev) if elev is not None and np.isfinite(float(elev)) else np.nan
@@ -427,7 +427,7 @@ def site_series(ds, site):
     site : mapping or pandas.Series or pandas.DataFrame
         ``name``, ``lat``, ``lon`` [degrees] and optionally ``elevation_m`` [m
         above mean sea level; taken as 0 m when missing, noted in the attrs].
-        A DataFrame of sites (kit.sites.read_sites) gives a dict
+        A DataFrame of sites (kit.io.sites.read_sites) gives a dict
         ``{name: Dataset}``, read from the files in one pass.
 
     Returns
@@ -636,7 +636,7 @@ def signed_distance_km(front, lat, lon):
 
     Parameters
     ----------
-    front : kit.fronts.Front
+    front : kit.science.fronts.Front
     lat, lon : float
         Point (the site) [degrees].
 
@@ -729,12 +729,12 @@ class _ZoneCentre:
     normal on the cold side of the line (where the thermal front parameter
     changes sign), sampled with cubic interpolation every 2 km out to
     ``max_km``; the smoothing and thermal field are those of the front finder
-    (kit.fronts.FrontSettings). Falls back to the tanh estimate
+    (kit.science.fronts.FrontSettings). Falls back to the tanh estimate
     (:func:`_zone_centre_km`) where no maximum is found.
     """
 
     def __init__(self, ds, settings=None, max_km=_MAX_CENTRE_KM, step_km=2.0):
-        from kit import fronts as kf
+        from kit.science import fronts as kf
 
         self.ds = ds
         self.settings = settings if settings is not None else kf.FrontSettings()
@@ -746,9 +746,9 @@ class _ZoneCentre:
         if key not in self._cache:
             from scipy.ndimage import spline_filter
 
-            from kit import fronts as kf
-            from kit import geometry as geo
-            from kit import thermo
+            from kit.science import fronts as kf
+            from kit.science import geo
+            from kit.science import thermo
 
             if key[0] not in self._levels:  # read the level once for every time
                 keep = [v for v in ("t", "td") if v in self.ds]
@@ -769,7 +769,7 @@ class _ZoneCentre:
         """Offset [km] toward the cold side at the vertex nearest to (lat, lon); NaN if none."""
         from scipy.ndimage import map_coordinates
 
-        from kit import geometry as geo
+        from kit.science import geo
 
         if front.level_hpa is None:
             return np.nan
@@ -832,8 +832,8 @@ def find_passages(
 
     Parameters
     ----------
-    fronts : list of kit.fronts.Front
-        Fronts of ONE run and member, with ``track`` ids (kit.motion).
+    fronts : list of kit.science.fronts.Front
+        Fronts of ONE run and member, with ``track`` ids (kit.science.motion).
     series : xarray.Dataset
         :func:`site_series` of the same run (member already selected); gives the
         site position, elevation and the height of the front's level.
@@ -872,7 +872,7 @@ def find_passages(
         if f.track is None:
             raise InputError(
                 f"front {f.kind} at {format_utc(f.valid_time)}: no track id; expected fronts "
-                "from kit.motion.analyse_run (tracked over lead time)"
+                "from kit.science.motion.analyse_run (tracked over lead time)"
             )
         tracks.setdefault(f.track, []).append(f)
     zlev = series["z"] if "z" in series else None
@@ -1326,7 +1326,7 @@ def _members(ds):
 
 def _fronts_for(fronts_by_run, i, ds, level, settings):
     if fronts_by_run is None:
-        from kit.motion import analyse_run
+        from kit.science.motion import analyse_run
 
         return analyse_run(ds, level=level, settings=settings)
     if isinstance(fronts_by_run, dict):
@@ -1367,10 +1367,10 @@ def arrival_table(
     runs : xarray.Dataset or list of xarray.Dataset
         Canonical datasets (kit.open_run), several runs and/or with members.
     sites : pandas.DataFrame or str or Path
-        Site list (kit.sites.read_sites) or its CSV path.
+        Site list (kit.io.sites.read_sites) or its CSV path.
     fronts_by_run : list of list of Front, or dict, optional
         Tracked fronts of each run (same order as ``runs``, or keyed by run
-        label); computed with :func:`kit.motion.analyse_run` when None.
+        label); computed with :func:`kit.science.motion.analyse_run` when None.
     level : float
         Pressure level the fronts are located on [hPa].
     surface : bool
@@ -1388,7 +1388,7 @@ def arrival_table(
         Misses whose line end stays farther from the site are left out [km].
     precip_threshold_mmh : float
         Precipitation rate counted as wet [mm h-1].
-    settings : kit.fronts.FrontSettings, optional
+    settings : kit.science.fronts.FrontSettings, optional
         Passed to analyse_run.
     max_match_h : float
         Largest timing difference when matching a front across runs [h].

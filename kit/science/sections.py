@@ -169,7 +169,7 @@ def _latlon_targets(ds, lat, lon):
     glon = ds["lon"].values.astype(float)
     if glon.size > 1 and np.any(np.diff(glon) <= 0):
         raise InputError(f"run {ds.attrs.get('run', '?')}: longitudes not ascending; expected "
-                         "the canonical grid (kit.grids.open_run)")
+                         "the canonical grid (kit.io.runs.open_run)")
     dlon = float(np.median(np.diff(glon))) if glon.size > 1 else 360.0
     plon = glon[0] + np.mod(lon - glon[0], 360.0)
     is_global = abs(glon[-1] - glon[0] + dlon - 360.0) < 0.5 * dlon
@@ -370,11 +370,11 @@ def potential_vorticity(theta, u, v, grid):
     + (u/a)\tan\varphi` on a latitude/longitude grid (the last term is the metric
     term of the sphere): Ertel's potential vorticity in the hydrostatic form on
     pressure levels, as used by [Hoskins1985]. Horizontal derivatives come from
-    :func:`kit.geometry.gradient`; the pressure derivative is second order with
+    :func:`kit.science.geo.gradient`; the pressure derivative is second order with
     one-sided ends, ``p`` in Pa. MetPy's ``potential_vorticity_baroclinic`` is a
     second implementation (tests/test_sections.py).
     """
-    from kit.geometry import gradient
+    from kit.science.geo import gradient
 
     p_pa = theta["level"].astype(float) * 100.0
 
@@ -600,7 +600,7 @@ def fit_frontal_slope(position_km, height_m):
     -----
     Position is regressed on height (heights are known exactly on pressure
     levels); N = |d s / d z| with both in the same unit. Own regression:
-    :mod:`kit.structure` fits fronts on the grid, not along a section.
+    :mod:`kit.science.structure` fits fronts on the grid, not along a section.
     """
     s = np.asarray(position_km, float)
     z = np.asarray(height_m, float) / 1000.0
@@ -619,7 +619,7 @@ def fit_frontal_slope(position_km, height_m):
 # ---------------------------------------------------------------------------
 def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
            reference_hpa=850.0, front_kind=None, smoothing_km=None):
-    from kit import thermo
+    from kit.science import thermo
 
     one, t_valid = _at_time(ds, time, member)
     if _is_projected(one):
@@ -817,7 +817,7 @@ def section_between(ds, start, end, *, steps=None, spacing_km=10.0, time=None, m
     Parameters
     ----------
     ds : xarray.Dataset
-        Canonical run (:func:`kit.grids.open_run`), regular or projected grid.
+        Canonical run (:func:`kit.io.runs.open_run`), regular or projected grid.
     start, end : (float, float)
         ``(lat, lon)`` of the ends [degrees].
     steps : int, optional
@@ -913,7 +913,7 @@ def pick_front(fronts, point, *, kind="nearest", time=None):
 
     Parameters
     ----------
-    fronts : list of kit.fronts.Front
+    fronts : list of kit.science.fronts.Front
         Candidate fronts.
     point : (float, float)
         ``(lat, lon)`` [degrees].
@@ -924,7 +924,7 @@ def pick_front(fronts, point, *, kind="nearest", time=None):
 
     Returns
     -------
-    kit.fronts.Front
+    kit.science.fronts.Front
     """
     if kind not in ("nearest", "warm", "cold", "quasi-stationary"):
         raise InputError(f"front kind {kind!r}: expected warm, cold, quasi-stationary or nearest")
@@ -957,7 +957,7 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
     ----------
     ds : xarray.Dataset
         Canonical run the front was found in.
-    front : kit.fronts.Front
+    front : kit.science.fronts.Front
         The front to cut across; its valid time and member select the fields.
     site_or_point : (lat, lon), dict or pandas row, optional
         Site or point the section passes through [degrees]; default the
@@ -978,7 +978,7 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
         ``front_level_hpa``, ``front_km`` (where the front line crosses the
         section), ``site_km``/``site_name`` and ``rule_zone_*``; and the
         fields ``wind_normal_to_front`` (positive toward the cold side, as
-        :attr:`kit.fronts.Front.vn`) and ``wind_along_front`` [m s-1].
+        :attr:`kit.science.fronts.Front.vn`) and ``wind_along_front`` [m s-1].
 
     Notes
     -----
@@ -1030,7 +1030,7 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
     sec["wind_normal_to_front"] = -sec["v_along"]
     sec["wind_normal_to_front"].attrs = {"units": "m s-1", "long_name": "wind component normal "
                                          "to the front, positive toward the cold side (as "
-                                         "kit.fronts.Front.vn)"}
+                                         "kit.science.fronts.Front.vn)"}
     sec["wind_along_front"] = sec["v_across"]
     sec["wind_along_front"].attrs = {"units": "m s-1", "long_name": "wind component along the "
                                      "front, positive to the right looking from the cold side "
@@ -1060,8 +1060,8 @@ def section_for_site(ds, site, time, *, front="nearest", fronts=None, length_km=
         Valid time (UTC).
     front : {"nearest", "warm", "cold", "quasi-stationary"}
         Which front to cut across.
-    fronts : list of kit.fronts.Front, optional
-        Fronts already found; default :func:`kit.fronts.find_fronts` at
+    fronts : list of kit.science.fronts.Front, optional
+        Fronts already found; default :func:`kit.science.fronts.find_fronts` at
         ``level`` and ``time``.
     length_km, spacing_km : float
         Section length and point spacing [km].
@@ -1082,7 +1082,7 @@ def section_for_site(ds, site, time, *, front="nearest", fronts=None, length_km=
     if member is None and "member" in ds.dims and ds.sizes["member"] == 1:
         member = int(ds["member"].values[0])
     if fronts is None:
-        from kit.fronts import find_fronts
+        from kit.science.fronts import find_fronts
 
         fronts = find_fronts(ds, level=level, times=[t], member=member)
     pt = _point_of(site)

@@ -29,7 +29,7 @@ import numpy as np
 import xarray as xr
 
 from kit.errors import InputError
-from kit.motion import (
+from kit.science.motion import (
     G0,
     _destination,
     _json_float,
@@ -122,13 +122,13 @@ def _levels_present(ds, levels):
 
 
 def _smoothing_km(ds, settings):
-    """Smoothing scale [km]: the fronts' own (kit.fronts.effective_smoothing_km) where known."""
-    from kit.geometry import grid_length_km
+    """Smoothing scale [km]: the fronts' own (kit.science.fronts.effective_smoothing_km) where known."""
+    from kit.science.geo import grid_length_km
 
     if settings is None or hasattr(settings, "smoothing_grid_lengths"):
         try:
-            from kit.fronts import effective_smoothing_km
-        except ImportError:  # older kit.fronts
+            from kit.science.fronts import effective_smoothing_km
+        except ImportError:  # older kit.science.fronts
             effective_smoothing_km = None
         if effective_smoothing_km is not None:
             return float(effective_smoothing_km(ds, settings))
@@ -143,7 +143,7 @@ def _tfp_2d(tau, ds):
 
     TFP = -grad|grad tau| . grad tau / |grad tau|  (Renard & Clarke 1965).
     """
-    from kit.geometry import gradient
+    from kit.science.geo import gradient
 
     ge, gn = gradient(tau, ds)
     mag = np.hypot(ge, gn)
@@ -174,8 +174,8 @@ class _Fields:
     def level(self, time, member, level):
         key = (np.datetime64(time, "ns"), member, float(level))
         if key not in self._cache:
-            from kit.geometry import smooth
-            from kit.thermo import level_field
+            from kit.science.geo import smooth
+            from kit.science.thermo import level_field
 
             if self.field is not None:
                 tau = _select(
@@ -250,7 +250,7 @@ def front_slope(
 
     Parameters
     ----------
-    front : kit.fronts.Front
+    front : kit.science.fronts.Front
         The front (its vertices, cold-side normals, valid time, member).
     ds : xarray.Dataset
         Canonical dataset of the run: ``t``, ``td`` (or ``field``) and ``z``
@@ -258,9 +258,9 @@ def front_slope(
     levels : sequence of float
         Pressure levels to locate the front on [hPa]; those missing from the
         dataset are skipped (at least three are needed).
-    settings : kit.fronts.FrontSettings, optional
+    settings : kit.science.fronts.FrontSettings, optional
         The smoothing scale of the fronts
-        (:func:`kit.fronts.effective_smoothing_km`); ``settings.field`` is
+        (:func:`kit.science.fronts.effective_smoothing_km`); ``settings.field`` is
         used only when ``field_name`` is None.
     field : xarray.DataArray, optional
         A thermal field [K] with a ``level`` dimension to use instead.
@@ -396,7 +396,7 @@ def front_margules_slope(front, ds, *, level=None, offset_km=250.0, max_vertices
 
     Parameters
     ----------
-    front : kit.fronts.Front
+    front : kit.science.fronts.Front
         The front.
     ds : xarray.Dataset
         Canonical dataset with ``t`` and ``z`` on ``level``.
@@ -417,7 +417,7 @@ def front_margules_slope(front, ds, *, level=None, offset_km=250.0, max_vertices
     Notes
     -----
     :func:`margules_slope` with ``T`` from ``t`` and ``v`` the geostrophic wind
-    from ``z`` (:func:`kit.motion.geostrophic_wind`) at the two points. The
+    from ``z`` (:func:`kit.science.motion.geostrophic_wind`) at the two points. The
     Margules axis runs from cold to warm, i.e. along :math:`-\hat n`, so the
     Margules along-front wind is :math:`v = u_g n_n - v_g n_e`.
     """
@@ -466,11 +466,11 @@ def add_slopes(
 
     Parameters
     ----------
-    fronts : list of kit.fronts.Front
+    fronts : list of kit.science.fronts.Front
         Fronts of the run ``ds``; changed in place.
     ds : xarray.Dataset
         Canonical dataset of the run.
-    settings : kit.fronts.FrontSettings, optional
+    settings : kit.science.fronts.FrontSettings, optional
         As for :func:`front_slope`.
     levels : sequence of float
         Levels for :func:`front_slope` [hPa].
@@ -481,7 +481,7 @@ def add_slopes(
 
     Returns
     -------
-    list of kit.fronts.Front
+    list of kit.science.fronts.Front
         The same fronts with props ``slope_1_in``, ``slope_scatter``,
         ``slope_margules_1_in`` and ``slope_typical_1_in`` (N of 1 in N;
         None where not available).

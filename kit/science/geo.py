@@ -11,7 +11,7 @@ Two kinds of grid are understood, as the canonical Dataset defines them
   grid lengths ``ds.attrs["dx_m"]`` and ``["dy_m"]`` (or 1-D ``x``/``y``
   coordinates in metres). Map factors are ignored unless the Dataset carries
   a ``map_factor`` coordinate (or ``map_factor_x`` and ``map_factor_y``, as
-  :func:`kit.grids.open_run` writes them) or one is passed; gradients are rotated from the
+  :func:`kit.io.runs.open_run` writes them) or one is passed; gradients are rotated from the
   grid axes to earth-relative east/north with the local grid convergence taken
   from the 2-D latitude/longitude.
 
@@ -94,7 +94,7 @@ class _Grid:
             if name not in ds.coords and not (isinstance(ds, xr.Dataset) and name in ds):
                 raise InputError(
                     f"grid: no '{name}' coordinate; expected the canonical Dataset "
-                    "(lat/lon in degrees, see kit.grids.open_run)"
+                    "(lat/lon in degrees, see kit.io.runs.open_run)"
                 )
         lat = np.asarray(ds["lat"].values, dtype=np.float64)
         lon = np.asarray(ds["lon"].values, dtype=np.float64)

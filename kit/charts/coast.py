@@ -35,7 +35,7 @@ __all__ = [
 ]
 
 #: the bundled folder, laid out as cartopy's Natural Earth data folder
-COAST_DIR = Path(__file__).resolve().parent / "data" / "coast"
+COAST_DIR = Path(__file__).resolve().parent.parent / "data" / "coast"
 
 #: bundled layers: our name -> (Natural Earth category, Natural Earth name)
 BUNDLED = {
@@ -164,7 +164,7 @@ def _make_offline_gshhs():
         def path(self, format_dict):
             raise InputError(
                 "GSHHS coastlines: not bundled and frontshift maps never download; "
-                "expected kit.coast.add_coastlines (bundled Natural Earth 110 m)"
+                "expected kit.charts.coast.add_coastlines (bundled Natural Earth 110 m)"
             )
 
     return NoGSHHS()

@@ -1,0 +1,1 @@
+"""Pure computation: no plotting, no widgets, no file formats."""

@@ -1,0 +1,1 @@
+"""ipywidgets panels for the notebooks (call products, never the command line)."""

@@ -1,0 +1,1 @@
+"""Development tools that are not installed with the kit."""

@@ -1,0 +1,1 @@
+"""The invented demo event generator (not installed): ``python -m tools.scenario``."""
