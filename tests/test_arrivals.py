@@ -27,7 +27,9 @@ from kit.products.arrivals import (
     site_series,
 )
 from kit.errors import InputError
-from kit.science.fronts import Front
+from kit.model import Analysis, Front, FrontStructure, TrackLink
+from kit.pipeline import analyse
+from kit.science.fronts import FrontSettings
 
 R_KM = 6371.0088
 T0 = np.datetime64("2027-01-14T00:00", "ns")
@@ -162,7 +164,7 @@ def make_run(
                     run=run,
                     member=(m if members is not None else None),
                     track=1,
-                    props={"speed_tracked_ms": sp},
+                    link=TrackLink("continues", 1, sp),
                 )
             )
     coords = {"time": times, "level": LEVELS, "lat": lat, "lon": lon}
@@ -192,6 +194,14 @@ def make_run(
     return ds, fronts
 
 
+def analysis_of(ds, fronts, level=850.0):
+    """The Analysis a product takes, made by hand from a synthetic run and its fronts."""
+    members = tuple(int(m) for m in ds["member"].values) if "member" in ds.dims else (None,)
+    return Analysis(fronts=tuple(fronts), run=ds.attrs.get("run"), level_hpa=level,
+                    settings=FrontSettings(), valid_times=tuple(ds["time"].values),
+                    members=members, dataset=ds)
+
+
 def site_frame(lat=50.0, lon=0.0, name="Testsite", elevation_m=0.0):
     return pd.DataFrame({"name": [name], "lat": [lat], "lon": [lon], "elevation_m": [elevation_m]})
 
@@ -211,7 +221,7 @@ def test_analytic_passage_between_steps(kind):
     Tolerance 10 minutes (the task's requirement).
     """
     ds, fronts = make_run(kind=kind, passage_h=7.6)
-    table = arrival_table([ds], site_frame(), [fronts], surface=False)
+    table = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False)
     row = table.iloc[0]
     assert row["front_kind"] == kind
     assert abs(hours_of(row["passage_utc"]) - 7.6) <= 10 / 60
@@ -227,9 +237,8 @@ def test_surface_projection_from_slope():
     over a 0 m site: 72.9 km ahead, at 10 m/s 2.02 h earlier [analytic].
     """
     ds, fronts = make_run(kind="cold", passage_h=12.0)
-    for f in fronts:
-        f.props["slope_1_in"] = 50.0
-    row = arrival_table([ds], site_frame(), [fronts], surface=True).iloc[0]
+    fronts = [f.replace(structure=FrontStructure(50.0, None, None, 50.0)) for f in fronts]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=True).iloc[0]
     shift_km = std_height(850.0) * 50.0 / 1000.0
     assert row["surface_offset_km"] == pytest.approx(shift_km, abs=1.0)
     assert hours_of(row["passage_utc"]) == pytest.approx(12.0 - shift_km / 36.0, abs=10 / 60)
@@ -261,8 +270,8 @@ def test_warm_edge_versus_zone_centre(kind):
     zone centre: at 10 m/s its passage is 1.10 h earlier (cold front, warm side
     ahead) or later (warm front, warm side behind) than the centre's."""
     ds, fronts = make_run(kind=kind, passage_h=12.0)
-    centre = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
-    edge = arrival_table([ds], site_frame(), [fronts], surface=False, zone_centre=False).iloc[0]
+    centre = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
+    edge = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False, zone_centre=False).iloc[0]
     lag = EDGE_X * ZONE_L_KM / 36.0
     assert abs(hours_of(centre["passage_utc"]) - 12.0) <= 10 / 60
     assert centre["zone_centre_offset_km"] == pytest.approx(EDGE_X * ZONE_L_KM, abs=1.0)
@@ -274,11 +283,11 @@ def test_extrapolation_flagged_and_limited():
     """[analytic] passage 4 h after the last step is extrapolated; 20 h after is not."""
     hours = np.arange(0, 25, 3)
     ds, fronts = make_run(kind="cold", passage_h=28.0, hours=hours)
-    row = arrival_table([ds], site_frame(), [fronts], surface=False, horizon_h=12).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False, horizon_h=12).iloc[0]
     assert row["extrapolated"] == "yes"
     assert abs(hours_of(row["passage_utc"]) - 28.0) <= 10 / 60
     ds, fronts = make_run(kind="cold", passage_h=44.0, hours=hours)
-    row = arrival_table([ds], site_frame(), [fronts], surface=False, horizon_h=12).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False, horizon_h=12).iloc[0]
     assert row["front_kind"] == "" and row["passage_utc"] == ""
     assert "no front passage" in row["note"]
 
@@ -288,21 +297,19 @@ def test_front_misses_site():
     note row; a line ending 6 degrees north (> miss_report_km) is not worth a row."""
 
     def cut(fronts, lat_min):
-        for f in fronts:
-            keep = f.lat > lat_min
-            for a in ("lon", "lat", "tfp", "grad", "normal_east", "normal_north", "vn"):
-                setattr(f, a, getattr(f, a)[keep])
+        names = ("lon", "lat", "tfp", "grad", "normal_east", "normal_north", "vn")
+        return [f.replace(**{a: getattr(f, a)[f.lat > lat_min] for a in names}) for f in fronts]
 
     ds, fronts = make_run(kind="cold", passage_h=10.0)
-    cut(fronts, 53.0)
-    table = arrival_table([ds], site_frame(), [fronts], surface=False)
+    fronts = cut(fronts, 53.0)
+    table = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False)
     assert len(table) == 1
     row = table.iloc[0]
     assert row["passage_utc"] == "" and row["front_kind"] == "cold"
     assert "cold front passes" in row["note"] and " N of site" in row["note"]
     ds, fronts = make_run(kind="cold", passage_h=10.0)
-    cut(fronts, 56.0)
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    fronts = cut(fronts, 56.0)
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     assert row["front_kind"] == "" and "no front passage" in row["note"]
 
 
@@ -311,8 +318,7 @@ def test_signed_distance_sign_and_size():
     perpendicular foot agrees within 0.5 km; sign positive on the cold side."""
     pyproj = pytest.importorskip("pyproj")
     ds, fronts = make_run(kind="cold", passage_h=100.0)  # front far west at t=0
-    f = fronts[0]
-    f.lon = np.full_like(f.lat, -1.0)
+    f = fronts[0].replace(lon=np.full_like(fronts[0].lat, -1.0))
     g = signed_distance_km(f, 50.0, 0.0)
     # site east of a cold front: warm side -> negative
     assert g["d_km"] < 0
@@ -326,10 +332,9 @@ def test_signed_distance_sign_and_size():
 
 def test_no_track_ids_is_input_error():
     ds, fronts = make_run()
-    for f in fronts:
-        f.track = None
+    fronts = [f.replace(track=None) for f in fronts]
     with pytest.raises(InputError, match="no track id"):
-        arrival_table([ds], site_frame(), [fronts])
+        arrival_table([analysis_of(ds, fronts)], site_frame())
 
 
 # ------------------------------------------------------------ weather sequence
@@ -340,9 +345,9 @@ def test_wind_turn_veers_nh_backs_sh():
     backs in the southern (REFERENCES.md, 'the sense of turning reverses').
     Prescribed winds: SW (225) ahead, NW (315) behind -> +90 [analytic]."""
     ds, fronts = make_run(kind="cold", passage_h=12.0)
-    nh = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    nh = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     ds, fronts = make_run(kind="cold", passage_h=12.0, lat_site=-50.0)
-    sh = arrival_table([ds], site_frame(lat=-50.0), [fronts], surface=False).iloc[0]
+    sh = arrival_table([analysis_of(ds, fronts)], site_frame(lat=-50.0), surface=False).iloc[0]
     assert nh["wind_before_deg"] == pytest.approx(225, abs=1)
     assert nh["wind_after_deg"] == pytest.approx(315, abs=1)
     assert nh["wind_turn_deg"] == pytest.approx(90, abs=1)
@@ -359,7 +364,7 @@ def test_precip_start_end_total():
     speed 36 km/h: wet from 1.4 h before to 4.2 h after passage; the field is
     sampled every 3 h, so start and end are right to within one step."""
     ds, fronts = make_run(kind="cold", passage_h=12.0)
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     start, end = hours_of(row["precip_start_utc"]), hours_of(row["precip_end_utc"])
     assert abs(start - (12.0 - 1.4)) <= 3.0
     assert abs(end - (12.0 + 4.2)) <= 3.0
@@ -374,7 +379,7 @@ def test_precip_start_end_total():
 def test_warm_front_rule_of_thumb_onset():
     """[trade] warm front rain onset 200-300 nm ahead: onset = passage - distance/speed."""
     ds, fronts = make_run(kind="warm", passage_h=24.0, speed_ms=8.0)
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     kt = 8 * 3600 / 1852  # the prescribed speed [analytic]
     tp = hours_of(row["passage_utc"])
     assert abs(tp - 24.0) <= 10 / 60
@@ -387,12 +392,12 @@ def test_freezing_rain_window_found_and_absent():
     """Winter profile: -6 C at 2 m, +3.35 C at 925 hPa -> a warm layer aloft over sub-zero
     air, the freezing-rain / ice-pellet set-up [trade]; the ordinary profile has none."""
     ds, fronts = make_run(kind="warm", passage_h=24.0, speed_ms=8.0, winter=True)
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     assert row["fzra_start_utc"] != "" and row["fzra_end_utc"] != ""
     assert hours_of(row["fzra_start_utc"]) <= hours_of(row["fzra_end_utc"]) <= 24.0 + 3
     assert row["fzra_warm_layer_max_c"] == pytest.approx(276.5 - 273.15, abs=0.05)
     ds, fronts = make_run(kind="warm", passage_h=24.0, speed_ms=8.0, winter=False)
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     assert row["fzra_start_utc"] == "" and np.isnan(row["fzra_warm_layer_max_c"])
 
 
@@ -415,12 +420,12 @@ def test_snow_risk_when_wet_bulb_zero_low():
     ds, fronts = make_run(kind="cold", passage_h=12.0)
     for var in ("t", "td", "t2m", "td2m"):
         ds[var] = ds[var] - 12.0
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     assert row["snow_risk"].startswith("yes")
     ds, fronts = make_run(kind="cold", passage_h=12.0)
     for var in ("t", "td", "t2m", "td2m"):  # +6 K: cold air 7.85 C at 2 m, wet-bulb 0 C > 900 m
         ds[var] = ds[var] + 6.0
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     assert row["snow_risk"] == "no"
 
 
@@ -451,7 +456,7 @@ def test_site_series_dateline_grid():
 def test_site_off_grid_is_input_error():
     ds, fronts = make_run()
     with pytest.raises(InputError, match=r"site 'Farside' .* off the grid"):
-        arrival_table([ds], site_frame(lat=10.0, name="Farside"), [fronts])
+        arrival_table([analysis_of(ds, fronts)], site_frame(lat=10.0, name="Farside"))
 
 
 # -------------------------------------------------------------------- spread
@@ -461,7 +466,7 @@ def test_members_spread():
     """[analytic] three members whose fronts pass 0, +1.5 and -2 h apart: earliest,
     median, latest and spread 3.5 h."""
     ds, fronts = make_run(kind="cold", passage_h=12.0, members=[0.0, 1.5, -2.0])
-    table = arrival_table([ds], site_frame(), [fronts], surface=False)
+    table = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False)
     assert len(table) == 3
     assert set(table["member"]) == {0, 1, 2}
     assert table["spread_h"].tolist() == pytest.approx([3.5] * 3, abs=10 / 60)
@@ -477,7 +482,7 @@ def test_two_runs_spread_and_unmatched():
     stays alone with no spread."""
     a, fa = make_run(kind="cold", passage_h=12.0, run="2027-01-14T00Z")
     b, fb = make_run(kind="cold", passage_h=14.5, run="2027-01-13T12Z")
-    table = arrival_table([a, b], site_frame(), [fa, fb], surface=False)
+    table = arrival_table([analysis_of(a, fa), analysis_of(b, fb)], site_frame(), surface=False)
     assert table["spread_h"].tolist() == pytest.approx([2.5, 2.5], abs=10 / 60)
     t = pd.DataFrame(
         {
@@ -495,7 +500,7 @@ def test_two_runs_spread_and_unmatched():
 
 def test_contract_columns_and_formats():
     ds, fronts = make_run(kind="cold", passage_h=12.0)
-    table = arrival_table([ds], site_frame(), [fronts], surface=False)
+    table = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False)
     assert list(table.columns[: len(CONTRACT_COLUMNS)]) == CONTRACT_COLUMNS
     for c in [c for c in table.columns if c.endswith("_utc")]:
         vals = [v for v in table[c] if v]
@@ -520,8 +525,7 @@ def test_timeline_figure_content():
     b, fb = make_run(
         kind="warm", passage_h=14.5, speed_ms=8.0, winter=True, grid_step=1.0, run="2027-01-13T12Z"
     )
-    table, store = arrival_table(
-        [a, b], site_frame(name="Harrowdene"), [fa, fb], surface=False, return_series=True
+    table, store = arrival_table([analysis_of(a, fa), analysis_of(b, fb)], site_frame(name="Harrowdene"), surface=False, return_series=True
     )
     fig = timeline_figure(store[("2027-01-14T00Z", None, "Harrowdene")], table)
     texts = " | ".join(stamp_texts(fig))
@@ -560,7 +564,8 @@ def scenario_table():
     from kit.io.runs import open_run
 
     runs = [open_run(SAMPLE / "runs" / name) for name in ("2027-01-14T00Z", "2027-01-13T12Z")]
-    table, store = arrival_table(runs, SAMPLE / "sites.csv", return_series=True)
+    table, store = arrival_table([analyse(ds) for ds in runs], SAMPLE / "sites.csv",
+                                 return_series=True)
     truth = json.loads((SAMPLE / "truth.json").read_text())
     return table, store, truth
 
@@ -636,7 +641,7 @@ def test_passage_across_the_dateline_southern_hemisphere():
     the dateline (165..195 E), site given as -179.5: passage at the prescribed 07:36Z
     within 10 minutes; the wind backs (southern hemisphere) [trade]."""
     ds, fronts = make_run(kind="cold", passage_h=7.6, lat_site=-45.0, lon_site=180.5)
-    table = arrival_table([ds], site_frame(lat=-45.0, lon=-179.5), [fronts], surface=False)
+    table = arrival_table([analysis_of(ds, fronts)], site_frame(lat=-45.0, lon=-179.5), surface=False)
     row = table.iloc[0]
     assert row["front_kind"] == "cold"
     assert abs(hours_of(row["passage_utc"]) - 7.6) <= 10 / 60
@@ -694,7 +699,7 @@ def test_light_wind_turn_flagged():
     ds, fronts = make_run(kind="cold", passage_h=12.0)
     ds["u10"] = ds["u10"] * 0.1  # 1.5 m/s = 2.9 kt
     ds["v10"] = ds["v10"] * 0.1
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     assert "turn uncertain" in row["note"]
 
 
@@ -704,11 +709,11 @@ def test_site_in_missing_data_says_so():
     patch = dict(lat=slice(48.0, 52.0), lon=slice(-2.0, 2.0))
     for var in ("t", "td", "t2m", "td2m"):
         ds[var].loc[patch] = np.nan
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     assert row["passage_utc"] == "" and "no model data at the site" in row["note"]
     ds, fronts = make_run(kind="cold", passage_h=12.0)
     ds["t2m"][{"time": 0}] = np.nan  # one step missing: passage kept, gap named
-    row = arrival_table([ds], site_frame(), [fronts], surface=False).iloc[0]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
     assert row["passage_utc"] and "missing at the site at 1 of 13 steps" in row["note"]
 
 
@@ -721,8 +726,7 @@ def test_timeline_of_one_step_without_surface_fields():
 
     ds, fronts = make_run(kind="cold", passage_h=60.0, hours=np.array([0]), grid_step=1.0)
     ds = ds.drop_vars(["t2m", "td2m", "precip"])
-    table, store = arrival_table(
-        [ds], site_frame(name="Ollerby Cross"), [fronts], surface=False, return_series=True
+    table, store = arrival_table([analysis_of(ds, fronts)], site_frame(name="Ollerby Cross"), surface=False, return_series=True
     )
     fig = timeline_figure(store[("2027-01-14T00Z", None, "Ollerby Cross")], table)
     texts = " | ".join(stamp_texts(fig))

@@ -29,6 +29,7 @@ from charts_synthetic import make_run, write_cf_run
 from kit import CAUTION
 from kit.ui import panels
 from kit.cli import main
+from kit.pipeline import analyse
 
 SITES = pd.DataFrame({"name": ["Harrowby Field", "Kestrel Point", "Tor Heights"],
                       "lat": [50.2, 55.0, 48.0], "lon": [-5.0, 2.0, -12.0],
@@ -208,7 +209,7 @@ def test_timeline_says_which_fields_the_run_lacks(event):
 
     ds = open_run(event / "constant")
     assert "t2m" not in ds and "precip" not in ds
-    table, series = arrival_table([ds], SITES, return_series=True)
+    table, series = arrival_table([analyse(ds)], SITES, return_series=True)
     key = next(k for k in series if k[2] == "Harrowby Field")
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -277,12 +278,12 @@ def test_section_through_a_nan_patch_marks_the_gap(event):
     matplotlib.use("Agg")
     from kit.charts.sections import section_figure
     from kit.io.runs import open_run
-    from kit.science.sections import section_for_site, select_time
+    from kit.products.sections import section
 
     ds = open_run(event / "patch")
     site = SITES[SITES["name"] == "Tor Heights"].iloc[0]
-    sec = section_for_site(ds, site, select_time(ds, "2031-02-03T06:00Z"), front="nearest",
-                           length_km=1200.0, spacing_km=10.0, level=850.0, member=None)
+    sec = section(analyse(ds), site, "2031-02-03T06:00Z", front="nearest",
+                  length_km=1200.0, spacing_km=10.0, member=None)
     assert float(sec["t"].isnull().mean()) > 0.2  # the patch is on the section
     fig = section_figure(sec)
     words = [t.get_text() for t in fig.findobj(matplotlib.text.Text)]

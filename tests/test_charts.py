@@ -21,7 +21,7 @@ from metpy.plots import ColdFront, StationaryFront, WarmFront  # noqa: E402
 from kit import CAUTION  # noqa: E402
 from kit.charts import maps, style  # noqa: E402
 from kit.errors import InputError  # noqa: E402
-from kit.science.fronts import Front  # noqa: E402
+from kit.model import Front  # noqa: E402
 
 SITES = pd.DataFrame({"name": ["Harrowby Field", "Kestrel Point", "Sallow Cross"],
                       "lat": [50.2, 55.0, 47.5], "lon": [-5.0, 2.0, -12.0]})

@@ -2,7 +2,7 @@
 
 The run is the analytic moving front of tests/test_arrivals.py written as CF
 NetCDF and read back through kit.io.runs; the tracked fronts come from the same
-analytic construction (kit.science.motion.analyse_run is replaced by them here, so the
+analytic construction (kit.pipeline.analyse, as the command calls it, is replaced by them here, so the
 command's plumbing is tested independently of front finding).
 """
 
@@ -13,9 +13,9 @@ import numpy as np
 import pandas as pd
 import pytest
 from conftest import to_cf, write_cf
-from test_arrivals import EDGE_X, ZONE_L_KM, hours_of, make_run
+from test_arrivals import EDGE_X, ZONE_L_KM, analysis_of, hours_of, make_run
 
-import kit.science.motion
+import kit.cli.arrivals
 from kit import CAUTION
 from kit.products.arrivals import CONTRACT_COLUMNS
 from kit.cli import main
@@ -34,7 +34,7 @@ def written_run(tmp_path_factory):
 @pytest.fixture
 def run_dir(written_run, monkeypatch):
     path, fronts = written_run
-    monkeypatch.setattr(kit.science.motion, "analyse_run", lambda ds, **kw: fronts)
+    monkeypatch.setattr(kit.cli.arrivals, "analyse", lambda ds, **kw: analysis_of(ds, fronts))
     return path
 
 
@@ -140,7 +140,7 @@ def test_member_run_spread_through_cli(tmp_path, sites_csv, monkeypatch):
         kind="cold", passage_h=12.0, members=[0.0, 1.5, -2.0], grid_step=1.0, hours=HOURS
     )
     path = write_cf(to_cf(ds), tmp_path / "ens")
-    monkeypatch.setattr(kit.science.motion, "analyse_run", lambda ds, **kw: fronts)
+    monkeypatch.setattr(kit.cli.arrivals, "analyse", lambda ds, **kw: analysis_of(ds, fronts))
     out = tmp_path / "ens.csv"
     assert (
         main(

@@ -16,6 +16,7 @@ The synthetic zones are analytic fields built here, not reference values.
 import json
 import math
 from pathlib import Path
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -27,6 +28,9 @@ from kit import CAUTION
 from kit.science import fronts as F
 from kit.science import geo
 from kit.errors import InputError
+from kit.model import FrontMotion, fronts_table
+from kit.timefmt import iso_seconds
+from kit.products.fronts import fronts_to_geojson
 
 R = geo.EARTH_RADIUS_M
 T0 = np.datetime64("2030-01-01T00:00", "ns")
@@ -235,7 +239,7 @@ def test_southern_hemisphere_mirror():
             settings=settings(),
         )
     )
-    mirrored = F.Front(**{**north.__dict__, "lat": -north.lat})
+    mirrored = north.replace(lat=-north.lat)
     assert mean_distance_km(south, mirrored) < 0.25 * 27.8
     assert south.kind == north.kind == "warm"
     assert south.speed_ms == pytest.approx(north.speed_ms, rel=0.02)
@@ -249,7 +253,7 @@ def test_dateline_contiguous_grid_and_global_seam():
     at180 = longest(
         F.find_fronts(zone_latlon(40.0, 180.0, 0.5, angle=20.0), level=1000.0, settings=settings())
     )
-    moved = F.Front(**{**at0.__dict__, "lon": at0.lon + 180.0})
+    moved = at0.replace(lon=at0.lon + 180.0)
     assert mean_distance_km(at180, moved) < 1.0  # the same line, shifted by 180 degrees
     assert at180.kind == at0.kind
 
@@ -271,7 +275,7 @@ def test_dateline_contiguous_grid_and_global_seam():
     assert np.max(np.abs(np.diff(fr.lon))) < 1.0  # contiguous across 180
     wrapped = (fr.lon + 180.0) % 360.0 - 180.0
     assert np.ptp(wrapped) > 300.0  # ...and it does cross the antimeridian
-    gj = F.fronts_to_geojson([fr])
+    gj = fronts_to_geojson([fr])
     assert len(gj["features"]) == 2
     for feat in gj["features"]:
         lons = [c[0] for c in feat["geometry"]["coordinates"]]
@@ -540,9 +544,11 @@ def test_bad_settings():
 def test_geojson_contract():
     ds = zone_latlon(50.0, 0.0, 0.5, angle=30.0)
     fronts = F.find_fronts(ds, level=1000.0, settings=settings())
-    fronts[0].track = 7
-    fronts[0].props["speed_wind_ms"] = float("nan")
-    gj = F.fronts_to_geojson(fronts)
+    fronts[0] = fronts[0].replace(
+        track=7,
+        motion=FrontMotion(None, float("nan"), None, None, "mslp", ""),
+    )
+    gj = fronts_to_geojson(fronts)
     text = json.dumps(gj, allow_nan=False)  # RFC 7946 is JSON: no NaN
     back = json.loads(text)
     assert back["type"] == "FeatureCollection" and back["caution"] == CAUTION
@@ -562,7 +568,7 @@ def test_geojson_contract():
 
 def test_fronts_table_columns():
     fronts = F.find_fronts(zone_latlon(50.0, 0.0, 0.5), level=1000.0, settings=settings())
-    df = F.fronts_table(fronts)
+    df = fronts_table(fronts)
     assert list(df.columns[:9]) == [
         "kind",
         "valid_time",
@@ -576,7 +582,7 @@ def test_fronts_table_columns():
     ]
     assert "tfp_mean_K_100km2" in df.columns and df.attrs["caution"] == CAUTION
     assert df["speed_kt"].iloc[0] == pytest.approx(df["speed_ms"].iloc[0] * 3600 / 1852)
-    assert list(F.fronts_table([]).columns[:3]) == ["kind", "valid_time", "level_hpa"]
+    assert list(fronts_table([]).columns[:3]) == ["kind", "valid_time", "level_hpa"]
 
 
 # --------------------------------------------------------------------------- demo scenario
@@ -629,7 +635,7 @@ def test_demo_scenario_lines_and_types(which):
     fronts = F.find_fronts(ds, level=850.0)
     by_time = {}
     for fr in fronts:
-        by_time.setdefault(F._iso_z(fr.valid_time), []).append(fr)
+        by_time.setdefault(iso_seconds(fr.valid_time), []).append(fr)
     assert set(by_time) == set(truth["times"]), "a valid time without fronts"
     for t, tv in truth["times"].items():
         found = by_time[t]
@@ -653,7 +659,7 @@ def test_demo_scenario_lines_and_types(which):
             # and the found lines of that kind lie on the truth where the truth runs
             for f in same:
                 dd = _dist_to_lines_km(
-                    f.lon, f.lat, [F.Front(**{**f.__dict__, "lon": lon, "lat": lat})]
+                    f.lon, f.lat, [SimpleNamespace(lon=lon, lat=lat)]
                 )
                 on_truth = dd < 150.0
                 if on_truth.sum() > 3:
@@ -663,9 +669,7 @@ def test_demo_scenario_lines_and_types(which):
             near = {}
             for kind in ("warm", "cold"):
                 line = tv["850hPa_locating"][kind]
-                tl = F.Front(
-                    **{**f.__dict__, "lon": np.asarray(line["lon"]), "lat": np.asarray(line["lat"])}
-                )
+                tl = SimpleNamespace(lon=np.asarray(line["lon"]), lat=np.asarray(line["lat"]))
                 near[kind] = np.median(_dist_to_lines_km(f.lon, f.lat, [tl]))
             kind = min(near, key=near.get)
             if near[kind] < 100.0:

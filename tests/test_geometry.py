@@ -13,10 +13,11 @@ import pytest
 import xarray as xr
 from pyproj import CRS, Geod, Transformer
 
-from kit.science import geo
+from kit.constants import EARTH_RADIUS_M
 from kit.errors import InputError
+from kit.science import geo
 
-R = geo.EARTH_RADIUS_M
+R = EARTH_RADIUS_M
 SPHERE = Geod(a=R, b=R)
 WGS84 = Geod(ellps="WGS84")
 
@@ -100,6 +101,121 @@ def test_local_plane_distances_and_round_trip():
     lon_b, lat_b = geo.local_to_lonlat(e, n, lon0, lat0)
     np.testing.assert_allclose(lon_b, lon, atol=1e-9)
     np.testing.assert_allclose(lat_b, lat, atol=1e-9)
+
+
+def test_sphere_functions_against_pyproj_geod_sphere_and_wgs84():
+    """pyproj Geod as independent implementation, on the kit's sphere (radius
+    kit.constants.EARTH_RADIUS_M) and on WGS84 (expected within ~0.5 %, the
+    flattening 1/298 of the ellipsoid)."""
+    rng = np.random.default_rng(7)
+    lon1, lon2 = rng.uniform(-180, 180, (2, 300))
+    lat1, lat2 = rng.uniform(-80, 80, (2, 300))
+    az, _, d = SPHERE.inv(lon1, lat1, lon2, lat2)
+    far = (d > 1.0) & (d < 0.99 * np.pi * R)
+    # [lib] sphere: same quantity, independent code
+    np.testing.assert_allclose(geo.great_circle_km(lon1, lat1, lon2, lat2), d / 1e3,
+                               rtol=1e-9, atol=1e-6)
+    np.testing.assert_allclose(geo.bearing_deg(lon1, lat1, lon2, lat2)[far], az[far] % 360.0,
+                               atol=1e-6)
+    brg, dist_km = rng.uniform(0, 360, 300), rng.uniform(0, 3000, 300)
+    lon_f, lat_f, _ = SPHERE.fwd(lon1, lat1, brg, dist_km * 1e3)
+    got_lon, got_lat = geo.destination(lon1, lat1, brg, dist_km)
+    np.testing.assert_allclose(got_lat, lat_f, atol=1e-7)
+    np.testing.assert_allclose((got_lon - lon_f + 180.0) % 360.0 - 180.0, 0.0, atol=1e-7)
+    # [lib] WGS84: the sphere within ~0.5 % in distance for the same end points
+    _, _, d84 = WGS84.inv(lon1, lat1, lon2, lat2)
+    np.testing.assert_allclose(geo.great_circle_km(lon1, lat1, lon2, lat2), d84 / 1e3, rtol=6e-3)
+
+
+def test_destination_negative_distance_and_continuous_longitude():
+    # [derived] a negative distance is the same great circle the other way
+    a = geo.destination(10.0, 50.0, 60.0, -500.0)
+    b = geo.destination(10.0, 50.0, 240.0, 500.0)
+    assert a == pytest.approx(b, abs=1e-9)
+    # [lib] pyproj Geod on the sphere, east across the dateline, longitude kept continuous
+    lon_f, lat_f, _ = SPHERE.fwd(179.0, 20.0, 80.0, 400e3)
+    lon_c, lat_c = geo.destination(179.0, 20.0, 80.0, 400.0, wrap=False)
+    assert lon_c > 180.0 and lon_c - 360.0 == pytest.approx(lon_f, abs=1e-7)
+    assert lat_c == pytest.approx(lat_f, abs=1e-7)
+    assert geo.direction_bearing_deg(0.0, -2.0) == pytest.approx(180.0)
+
+
+def test_local_plane_broadcasts_over_origins_and_matches_pyproj_aeqd():
+    # [lib] pyproj's azimuthal equidistant projection on the same sphere
+    from pyproj import Proj
+
+    lon0 = np.array([[-10.0], [5.0], [170.0]])
+    lat0 = np.array([[45.0], [60.0], [-40.0]])
+    lon = np.array([[-12.0, 0.0, 8.0, 175.0]])
+    lat = np.array([[44.0, 50.0, 62.0, -38.0]])
+    e, n = geo.local_east_north_km(lon, lat, lon0, lat0)
+    assert e.shape == (3, 4)
+    for k in range(3):
+        proj = Proj(proj="aeqd", lon_0=lon0[k, 0], lat_0=lat0[k, 0], R=R)
+        x, y = proj(lon[0], lat[0])
+        np.testing.assert_allclose(e[k], x / 1e3, rtol=1e-8, atol=1e-6)
+        np.testing.assert_allclose(n[k], y / 1e3, rtol=1e-8, atol=1e-6)
+    back_lon, back_lat = geo.local_to_lonlat(e, n, lon0, lat0, wrap=False)
+    np.testing.assert_allclose((back_lon - lon + 180.0) % 360.0 - 180.0, 0.0, atol=1e-9)
+    np.testing.assert_allclose(back_lat, np.broadcast_to(lat, (3, 4)), atol=1e-9)
+
+
+# ----------------------------------------------------------------- point sampler
+def test_point_sampler_linear_field_regular_global_and_descending():
+    # [derived] bilinear interpolation is exact for a field linear in lat and lon
+    lat, lon = np.arange(30.0, 60.01, 1.0), np.arange(-20.0, 10.01, 1.0)
+    ds = latlon_ds(lat, lon)
+    f = 2.0 * lat[:, None] - 0.5 * lon[None, :]
+    pts_lon, pts_lat = np.array([-19.5, 0.25, 9.9, 30.0]), np.array([30.5, 45.1, 59.0, 40.0])
+    s = geo.PointSampler(ds)
+    got = s.sample(np.stack([f, 2 * f]), pts_lon, pts_lat)
+    expect = 2.0 * pts_lat - 0.5 * pts_lon
+    np.testing.assert_allclose(got[0, :3], expect[:3], atol=1e-12)
+    np.testing.assert_allclose(got[1, :3], 2 * expect[:3], atol=1e-12)
+    assert np.isnan(got[:, 3]).all()  # off the grid
+    # the same with latitude descending
+    dsr = latlon_ds(lat[::-1], lon)
+    np.testing.assert_allclose(geo.PointSampler(dsr).sample(f[::-1], pts_lon[:3], pts_lat[:3]),
+                               expect[:3], atol=1e-12)
+    # global grid: the cell between the last and first column wraps, any longitude convention
+    g = latlon_ds(np.arange(-80.0, 80.1, 2.0), np.arange(-180.0, 180.0, 2.0))
+    fg = np.cos(np.deg2rad(g.lon.values))[None, :] + 0 * g.lat.values[:, None]
+    sg = geo.PointSampler(g)
+    assert sg.periodic
+    v = sg.sample(fg, [179.0, -181.0, 539.0], [0.0, 0.0, 0.0])
+    # [derived] midway between 178 and -180: the mean of the two columns
+    np.testing.assert_allclose(v, 0.5 * (np.cos(np.deg2rad(178.0)) - 1.0), atol=1e-12)
+
+
+def test_point_sampler_projected_against_pyproj_and_nan_rules():
+    # [lib] pyproj Transformer: the fractional index of a point on the Lambert grid
+    ds = lambert_ds()
+    to_xy = Transformer.from_crs(
+        f"+proj=longlat +R={R}",
+        CRS.from_proj4(f"+proj=lcc +lat_1=45 +lat_2=55 +lat_0=50 +lon_0=10 +R={R}"),
+        always_xy=True,
+    )
+    rng = np.random.default_rng(3)
+    lon, lat = rng.uniform(0.0, 20.0, 200), rng.uniform(44.0, 56.0, 200)
+    j, i = geo.PointSampler(ds).index(lon, lat)
+    x, y = to_xy.transform(lon, lat)
+    # positional error of inverting bilinear lat/lon over 25 km cells: < 0.005 cell
+    np.testing.assert_allclose(i, (x - ds.x.values[0]) / 25e3, atol=5e-3)
+    np.testing.assert_allclose(j, (y - ds.y.values[0]) / 25e3, atol=5e-3)
+    # [derived] NaN rules: one missing corner -> NaN, or the mean of the other three
+    f = np.ones(ds.lat.shape)
+    f[10, 10] = np.nan
+    s = geo.PointSampler(ds)
+    vals = s.sample_index(f, [10.5, 20.0], [10.5, 20.0])
+    assert np.isnan(vals[0]) and vals[1] == 1.0
+    assert s.sample_index(f, [10.5], [10.5], nan="skip")[0] == pytest.approx(1.0)
+    assert np.isnan(s.sample_index(f, [10.4], [10.4], method="nearest")[0])  # the missing one
+    assert s.sample_index(f, [10.6], [9.4], method="nearest")[0] == 1.0
+    # dataset path (reads only the corners) equals the array path
+    dsf = ds.assign(t=(("y", "x"), rng.normal(size=ds.lat.shape)))
+    one = s.sample_dataset(dsf, lon[:7], lat[:7], nan="propagate")
+    np.testing.assert_allclose(one["t"].values, s.sample(dsf["t"].values, lon[:7], lat[:7]),
+                               rtol=1e-12)
 
 
 # ----------------------------------------------------------------- grid lengths [pub]

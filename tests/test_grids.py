@@ -23,8 +23,9 @@ from hypothesis import strategies as st
 from metpy.units import units
 from pyproj import CRS, Geod, Proj, Transformer
 
+from kit.constants import G0
 from kit.errors import InputError
-from kit.io.runs import G0, expand_run_arg, open_run, open_runs, run_label, to_canonical
+from kit.io.runs import expand_run_arg, open_run, open_runs, run_label, to_canonical
 
 REPO = Path(__file__).resolve().parents[1]
 CANON = ("t", "td", "u", "v", "z", "mslp", "t2m", "td2m", "u10", "v10", "precip")
@@ -1149,10 +1150,10 @@ def test_precipitation_missing_at_lead_zero(tmp_path, make_latlon_run):
 
 
 def test_large_files_are_chunked_one_step_at_a_time(tmp_path, base, monkeypatch):
-    import kit.io.runs as grids
+    import kit.io.netcdf as netcdf
 
     path = write(raw_variant(base), tmp_path / "big.nc")
-    monkeypatch.setattr(grids, "_SMALL_FILE_BYTES", 0)  # treat the file as large
+    monkeypatch.setattr(netcdf, "_SMALL_FILE_BYTES", 0)  # treat the file as large
     got = open_run(path)
     # one valid time per chunk: the value checks read the first step only
     assert got["t"].chunks[0] == (1,) * base.sizes["time"]

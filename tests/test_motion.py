@@ -16,7 +16,8 @@ import pytest
 import xarray as xr
 
 import kit.science.motion as motion
-from kit.science.fronts import Front
+from kit.model import Front, FrontMotion, TrackLink, motion_table
+from kit.pipeline import analyse
 from kit.science.motion import (
     KT_PER_MS,
     coriolis_parameter,
@@ -205,7 +206,7 @@ def test_tracked_speed_uniform_motion(speed, hemisphere):
         d = speed * i * dt_h * 3600 / 1e3
         lat = hemisphere * lat_after(45.0, d)
         fronts.append(parallel_front(lat, i * dt_h, hemisphere=hemisphere))
-    track_fronts(fronts)
+    fronts = track_fronts(fronts)
     assert len({f.track for f in fronts}) == 1
     for f in fronts:
         assert f.props["speed_tracked_ms"] == pytest.approx(speed, rel=0.01)
@@ -225,7 +226,7 @@ def test_centred_difference_on_accelerating_front():
     for th in times_h:
         ts = th * 3600
         fronts.append(parallel_front(lat_after(45.0, a * ts**2), th))
-    track_fronts(fronts, max_gap_km=500.0)
+    fronts = track_fronts(fronts, max_gap_km=500.0)
     mid = fronts[1].props["speed_tracked_ms"]
     assert mid == pytest.approx(2 * a * 3 * 3600 * 1e3, rel=0.01)
     first = fronts[0].props["speed_tracked_ms"]
@@ -250,7 +251,7 @@ def test_tilted_line_moving_along_its_normal():
         n = s * ty + ny * 100.0 * i
         lon, lat = local_to_lonlat(e, n, -15.0, 50.0)
         fronts.append(make_front(lon, lat, nx, ny, hours(3 * i), kind="cold"))
-    track_fronts(fronts)
+    fronts = track_fronts(fronts)
     for f in fronts:
         assert f.props["speed_tracked_ms"] == pytest.approx(100e3 / (3 * 3600), rel=0.03)
     assert len({f.track for f in fronts}) == 1
@@ -264,7 +265,7 @@ def test_tracking_across_the_dateline():
     for i in range(3):
         lat = lat_after(48.0, 8.0 * i * 3 * 3600 / 1e3)
         fronts.append(make_front(lon, np.full(lon.size, lat), 0.0, 1.0, hours(3 * i)))
-    track_fronts(fronts)
+    fronts = track_fronts(fronts)
     for f in fronts:
         assert f.props["speed_tracked_ms"] == pytest.approx(8.0, rel=0.01)
 
@@ -273,7 +274,7 @@ def test_split_keeps_id_on_largest_overlap():
     a = parallel_front(50.0, 0.0, lon0=-20.0, lon1=0.0)
     b1 = parallel_front(50.3, 3.0, lon0=-20.0, lon1=-8.0)  # 12 deg of overlap
     b2 = parallel_front(50.3, 3.0, lon0=-6.0, lon1=0.0)  # 6 deg
-    track_fronts([a, b1, b2])
+    a, b1, b2 = track_fronts([a, b1, b2])
     assert b1.track == a.track
     assert b2.track != a.track
     assert b2.props["track_event"] == "split"
@@ -283,13 +284,9 @@ def test_split_keeps_id_on_largest_overlap():
 def test_merge_keeps_older_id():
     old = parallel_front(49.7, 0.0, lon0=-20.0, lon1=-10.0)
     a1 = parallel_front(50.0, 3.0, lon0=-20.0, lon1=-10.0)  # continues `old`
-    a2 = parallel_front(50.0, 3.0, lon0=-9.0, lon1=0.0)  # a new line, longer
-    a2.lon = np.arange(-9.0, 3.0, 0.25)
-    a2.lat = np.full(a2.lon.size, 50.0)
-    a2.normal_east = np.zeros(a2.lon.size)
-    a2.normal_north = np.ones(a2.lon.size)
+    a2 = parallel_front(50.0, 3.0, lon0=-9.0, lon1=2.75)  # a new line, longer
     b = parallel_front(50.3, 6.0, lon0=-20.0, lon1=3.0)
-    track_fronts([old, a1, a2, b])
+    old, a1, a2, b = track_fronts([old, a1, a2, b])
     assert a1.track == old.track
     assert a2.track != a1.track
     assert b.track == old.track  # the older id, though a2 overlaps more
@@ -300,8 +297,8 @@ def test_opposite_polarity_lines_are_not_linked():
     # a line whose cold side faces the other way is another front
     a = parallel_front(50.0, 0.0)
     b = parallel_front(50.2, 3.0)
-    b.normal_north = -b.normal_north
-    track_fronts([a, b])
+    b = b.replace(normal_north=-b.normal_north)
+    a, b = track_fronts([a, b])
     assert a.track != b.track
     assert a.props["speed_tracked_ms"] is None
     assert b.props["track_event"] == "new"
@@ -315,7 +312,7 @@ def test_runs_members_and_levels_tracked_apart():
                 fronts.append(
                     parallel_front(lat_after(45.0, 36.0 * i), 3 * i, run=run, member=member)
                 )
-    track_fronts(fronts)
+    fronts = track_fronts(fronts)
     ids = {(f.run, f.member): set() for f in fronts}
     for f in fronts:
         ids[(f.run, f.member)].add(f.track)
@@ -329,7 +326,7 @@ def test_far_lines_start_new_tracks():
     # 1500 km in 3 h would be 139 m/s: beyond any front (max_speed_ms 30)
     a = parallel_front(45.0, 0.0)
     b = parallel_front(lat_after(45.0, 1500.0), 3.0)
-    track_fronts([a, b])
+    a, b = track_fronts([a, b])
     assert a.track != b.track
 
 
@@ -364,7 +361,7 @@ def test_speeds_three_ways_wind_and_rule(lat0, vg_pub, hemisphere):
     lon = np.arange(-12.0, -7.99, 0.1)
     warm = make_front(lon, np.full(lon.size, hemisphere * lat0), 0.0, hemisphere, T0, kind="warm")
     cold = make_front(lon, np.full(lon.size, hemisphere * lat0), 0.0, hemisphere, T0, kind="cold")
-    speeds_three_ways([warm, cold], ds)
+    warm, cold = speeds_three_ways([warm, cold], ds)
     # [derived] uniform 15 m/s poleward wind (toward the cold side): the
     # front-normal wind is exactly 15 m/s; bilinear sampling is exact
     assert warm.props["speed_wind_ms"] == pytest.approx(15.0, abs=1e-6)
@@ -394,7 +391,7 @@ def test_rule_from_1000_hpa_heights_without_mslp():
     ds["z"] = (ds["z"].dims, z)
     lon_f = np.arange(-12.0, -7.99, 0.1)
     fr = make_front(lon_f, np.full(lon_f.size, 45.0), 0.0, 1.0, T0, kind="cold")
-    speeds_three_ways([fr], ds)
+    [fr] = speeds_three_ways([fr], ds)
     assert fr.props["speed_rule_source"] == "z1000"
     assert fr.props["speed_geostrophic_rule_ms"] == pytest.approx(15.5, abs=0.06)
 
@@ -404,7 +401,7 @@ def test_missing_steering_level_is_one_line_input_error():
     lon_f = np.arange(-12.0, -7.99, 0.1)
     fr = make_front(lon_f, np.full(lon_f.size, 50.0), 0.0, 1.0, T0)
     with pytest.raises(motion.InputError) as err:
-        speeds_three_ways([fr], ds, steering_level_hpa=300.0)
+        [fr] = speeds_three_ways([fr], ds, steering_level_hpa=300.0)
     msg = str(err.value)
     assert "\n" not in msg and "300 hPa" in msg and "levels" in msg
 
@@ -413,15 +410,15 @@ def test_speed_flags_in_plain_words():
     ds = speed_dataset(50.0, v=0.5, dpdx_pa_per_km=0.05)
     lon = np.arange(-12.0, -7.99, 0.1)
     qs = make_front(lon, np.full(lon.size, 50.0), 0.0, 1.0, T0, kind="quasi-stationary")
-    speeds_three_ways([qs], ds)
+    [qs] = speeds_three_ways([qs], ds)
     assert "quasi-stationary" in qs.props["speed_flag"]
 
     ds = speed_dataset(50.0, v=15.0)
     slow = make_front(lon, np.full(lon.size, 50.0), 0.0, 1.0, T0, kind="warm")
-    slow.props["speed_tracked_ms"] = 4.0
+    slow = slow.replace(link=TrackLink("continues", 1, 4.0))
     agree = make_front(lon, np.full(lon.size, 50.0), 0.0, 1.0, T0, kind="warm")
-    agree.props["speed_tracked_ms"] = 12.0
-    speeds_three_ways([slow, agree], ds, disagree_frac=0.35)
+    agree = agree.replace(link=TrackLink("continues", 2, 12.0))
+    slow, agree = speeds_three_ways([slow, agree], ds, disagree_frac=0.35)
     assert "well below the steering wind" in slow.props["speed_flag"]
     # the track is held against 2/3 of the 15 m/s wind for a warm front
     # (common practice, no source): 4 vs 10 flagged, 12 vs 10 not; the rule
@@ -456,7 +453,7 @@ def test_speeds_on_a_projected_grid_match_latlon():
     ds["v"] = (("time", "level", "y", "x"), np.full((1, 1) + xx.shape, 15.0))
     lon = np.arange(-12.0, -7.99, 0.1)
     fr = make_front(lon, np.full(lon.size, 50.0), 0.0, 1.0, T0, kind="warm")
-    speeds_three_ways([fr], ds)
+    [fr] = speeds_three_ways([fr], ds)
     assert fr.props["speed_wind_ms"] == pytest.approx(15.0, abs=1e-6)
     # [pub] worked example at 50 N, 14.3 m/s; 2/3 of it for a warm front [trade]
     assert fr.props["speed_geostrophic_normal_ms"] == pytest.approx(14.3, abs=0.06)
@@ -588,11 +585,10 @@ def zone_dataset(
 @pytest.mark.parametrize(
     "kind, c_ms, v_wind, n_slope", [("warm", 9.0, 13.5, 150.0), ("cold", -13.0, -13.0, 50.0)]
 )
-def test_analyse_run_translating_zone(kind, c_ms, v_wind, n_slope, hemisphere):
-    from kit.science.motion import analyse_run
+def test_analyse_translating_zone(kind, c_ms, v_wind, n_slope, hemisphere):
 
     ds = zone_dataset(c_ms=c_ms, n_slope=n_slope, v_wind=v_wind, hemisphere=hemisphere)
-    fronts = analyse_run(ds)
+    fronts = analyse(ds).fronts
     main = [f for f in fronts if f.length_km > 1500]
     assert len(main) == ds.time.size  # one long line per valid time
     assert len({f.track for f in main}) == 1
@@ -621,10 +617,11 @@ def test_analyse_run_translating_zone(kind, c_ms, v_wind, n_slope, hemisphere):
 
 def test_motion_table_knots():
     fr = parallel_front(45.0, 0.0)
-    fr.props.update(
-        speed_tracked_ms=10.0, speed_wind_ms=15.0, speed_geostrophic_rule_ms=None, vn_tracked=[10.0]
+    fr = fr.replace(
+        link=TrackLink("new", None, 10.0, (10.0,)),
+        motion=FrontMotion(10.0, 15.0, None, None, "mslp", ""),
     )
-    df = motion.motion_table([fr])
+    df = motion_table([fr])
     # 1 kt = 1852 m / 3600 s (definition of the nautical mile)
     assert df["speed_tracked_kt"].iloc[0] == pytest.approx(19.4, abs=0.05)
     assert df["speed_wind_kt"].iloc[0] == pytest.approx(15.0 * KT_PER_MS, abs=0.05)
@@ -644,16 +641,15 @@ def test_doctests():
     assert res.attempted >= 2 and res.failed == 0
 
 
-def test_analyse_run_members_tracked_apart():
+def test_analyse_members_tracked_apart():
     # two members of one run moving at different speeds: one track each, each
     # with its own speed [derived]
-    from kit.science.motion import analyse_run
 
     a = zone_dataset(c_ms=8.0, n_slope=150.0, v_wind=12.0, n_times=3)
     b = zone_dataset(c_ms=11.0, n_slope=150.0, v_wind=16.0, n_times=3)
     ds = xr.concat([a, b], dim=xr.DataArray([0, 1], dims="member", name="member"))
     ds = ds.transpose("member", "time", "level", "lat", "lon")
-    fronts = [f for f in analyse_run(ds) if f.length_km > 1500]
+    fronts = [f for f in analyse(ds).fronts if f.length_km > 1500]
     assert sorted({f.member for f in fronts}) == [0, 1]
     for m, c in ((0, 8.0), (1, 11.0)):
         mine = [f for f in fronts if f.member == m]
@@ -672,7 +668,7 @@ def test_tracked_speed_is_robust_to_a_stuck_end():
     lon = a.lon.copy()
     lat = np.where(lon < -16.0, 45.0, lat_after(45.0, 108.0))
     b = make_front(lon, lat, 0.0, 1.0, hours(3.0))
-    track_fronts([a, b])
+    a, b = track_fronts([a, b])
     assert a.props["speed_tracked_ms"] == pytest.approx(10.0, rel=0.01)
     vk = np.array([np.nan if v is None else v for v in a.props["vn_tracked"]])
     assert np.nanmin(vk) == pytest.approx(0.0, abs=0.05)
@@ -693,12 +689,11 @@ def sample_truth():
 @pytest.fixture(scope="module")
 def sample_run_fronts(sample_truth):
     import kit
-    from kit.science.motion import analyse_run
 
     run = sorted(sample_truth["timing_offsets_h"].keys() - {"analyses"})[-1]  # the newest run
     ds = kit.open_run(SAMPLE / sample_truth["sets"][run]["folder"])
     ds = ds.isel(time=slice(0, 9)).load()  # the first 24 h keep the test quick
-    return run, analyse_run(ds)
+    return run, analyse(ds).fronts
 
 
 def test_sample_event_speeds_regression(sample_truth, sample_run_fronts):
@@ -720,7 +715,7 @@ def test_sample_event_speeds_regression(sample_truth, sample_run_fronts):
             # the 850 hPa wind pushes the same way as the front moves
             assert np.sign(f.props["speed_wind_ms"]) == sign
     # the fronts' own timing estimate in knots for the table
-    df = motion.motion_table(fronts)
+    df = motion_table(fronts)
     assert set(df["kind"]) == {"warm", "cold"}
     assert df["speed_tracked_kt"].notna().all()
 
@@ -749,17 +744,16 @@ def test_speeds_across_the_dateline():
     ds["mslp"] = (("time", "lat", "lon"), np.full((1, lat.size, lon.size), 101000.0))
     flon = np.concatenate([np.arange(170.0, 180.0, 0.25), np.arange(-180.0, -169.99, 0.25)])
     fr = make_front(flon, np.full(flon.size, 50.0), 0.0, 1.0, T0)
-    speeds_three_ways([fr], ds)
+    [fr] = speeds_three_ways([fr], ds)
     # mean over the line 170 E..170 W of a wind linear in longitude: 11 m/s
     assert fr.props["speed_wind_ms"] == pytest.approx(11.0, abs=0.01)
     assert fr.props["speed_geostrophic_normal_ms"] == pytest.approx(0.0, abs=1e-9)
 
 
-def test_analyse_run_on_a_projected_grid():
-    # the translating, sloping theta-w zone of test_analyse_run_translating_zone
+def test_analyse_on_a_projected_grid():
+    # the translating, sloping theta-w zone of test_analyse_translating_zone
     # on a Lambert conformal grid (2-D lat/lon, 30 km): same answers [derived]
     pyproj = pytest.importorskip("pyproj")
-    from kit.science.motion import analyse_run
 
     crs = pyproj.CRS.from_proj4("+proj=lcc +lat_1=40 +lat_2=55 +lat_0=48 +lon_0=-10 +R=6371008.8")
     tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
@@ -803,7 +797,7 @@ def test_analyse_run_on_a_projected_grid():
         },
         attrs={"grid": "projected", "dx_m": 30e3, "dy_m": 30e3, "run": "lcc-test"},
     )
-    fronts = [f for f in analyse_run(ds) if f.length_km > 1000]
+    fronts = [f for f in analyse(ds).fronts if f.length_km > 1000]
     assert len(fronts) == n_times and len({f.track for f in fronts}) == 1
     for f in fronts:
         assert f.kind == "warm"

@@ -20,7 +20,9 @@ import xarray as xr
 import kit
 import kit.science.sections as S
 from kit.errors import InputError
-from kit.science.fronts import Front
+from kit.model import Front
+from kit.pipeline import analyse
+from kit.products.sections import section
 
 LEVELS = np.array([1000.0, 925.0, 850.0, 700.0, 600.0, 500.0, 400.0, 300.0, 250.0, 200.0])
 REF = np.datetime64("2027-01-13T18:00", "ns")
@@ -582,7 +584,7 @@ def _truth_line(entry, valid, kind, level="surface"):
 @pytest.mark.slow
 def test_sample_event_warm_front_section():
     ds, truth, entry, site, valid = _sample_case("warm")
-    sec = S.section_for_site(ds, site, valid, front="warm")
+    sec = section(analyse(ds), site, valid, front="warm")
     assert sec.attrs["front_kind"] == "warm"
     L = truth["prescribed"]["warm"]["zone_half_width_l_km"]
     centre = _crossing_km(sec, *_truth_line(entry, valid, "warm"))
@@ -605,7 +607,7 @@ def test_sample_event_warm_front_section():
 @pytest.mark.slow
 def test_sample_event_cold_front_section():
     ds, truth, entry, site, valid = _sample_case("cold")
-    sec = S.section_for_site(ds, site, valid, front="cold")
+    sec = section(analyse(ds), site, valid, front="cold")
     assert sec.attrs["front_kind"] == "cold"
     L = truth["prescribed"]["cold"]["zone_half_width_l_km"]
     centre = _crossing_km(sec, *_truth_line(entry, valid, "cold"))
@@ -639,6 +641,9 @@ def test_section_for_site_without_a_front_runs_along_the_gradient():
     assert (sec["rule_zone"].values == 0).all()
     with pytest.raises(InputError, match="no warm front"):
         S.section_for_site(ds, site, TIMES[0], front="warm", fronts=[])
+    # the section never looks for fronts of its own (one analysis per shift)
+    with pytest.raises(InputError, match="no fronts given"):
+        S.section_for_site(ds, site, TIMES[0], fronts=None)
 
     from kit.charts.sections import section_figure
 

@@ -13,7 +13,7 @@ import pytest
 import xarray as xr
 
 import kit.science.structure as structure
-from kit.science.fronts import Front
+from kit.model import Front
 from kit.science.motion import G0, coriolis_parameter
 from kit.science.structure import add_slopes, front_margules_slope, front_slope, margules_slope
 
@@ -222,7 +222,7 @@ def test_slope_of_a_rotated_zone():
     ve, vn = np.array(ve), np.array(vn)
     norm = np.hypot(ve, vn)
     fr = make_front(vlon, vlat, 0.0, 1.0, kind="warm")
-    fr.normal_east, fr.normal_north = ve / norm, vn / norm
+    fr = fr.replace(normal_east=ve / norm, normal_north=vn / norm)
     res = front_slope(fr, ds, settings=SETTINGS)
     assert res["slope_1_in"] == pytest.approx(n_slope, rel=0.10)
     assert res["n_vertices"] >= 10
@@ -248,7 +248,7 @@ def test_add_slopes_props():
     lat_f = 45.0 + np.rad2deg(150.0 * 1.46 / R_KM)
     warm = make_front(np.arange(-15.0, -5.0, 0.25), lat_f, 0.0, 1.0, kind="warm")
     qs = make_front(np.arange(-15.0, -5.0, 0.25), lat_f, 0.0, 1.0, kind="quasi-stationary")
-    add_slopes([warm, qs], ds, settings=SETTINGS)
+    warm, qs = add_slopes([warm, qs], ds, settings=SETTINGS)
     for fr in (warm, qs):
         assert fr.props["slope_1_in"] == pytest.approx(150.0, rel=0.10)
         assert fr.props["slope_scatter"] is not None
@@ -341,7 +341,7 @@ def test_sample_event_slopes_regression():
     ds = ds.isel(time=[0, ds.sizes["time"] // 2, ds.sizes["time"] - 1]).load()
     settings = FrontSettings()
     fronts = find_fronts(ds, settings=settings)
-    add_slopes(fronts, ds, settings=settings)
+    fronts = add_slopes(fronts, ds, settings=settings)
     assert {f.kind for f in fronts} == {"warm", "cold"}
     for f in fronts:
         expected = truth["slopes_1_in"][f.kind]

@@ -592,6 +592,29 @@ def test_freezing_level_edge_columns():
     assert thermo.freezing_level(t, HEIGHTS) == pytest.approx(10.0 / 6.5 * 1000.0, abs=1e-6)
 
 
+def test_freezing_level_pressure_and_level_crossing():
+    # [analytic] linear lapse rate 6.5 K/km from +10 C at 0 m: 0 C at 1538.46 m; the
+    # pressure there is interpolated in log p between the two levels around it
+    t = _linear_profile(10.0, 6.5, HEIGHTS)
+    p = 1000.0 * np.exp(-HEIGHTS / 8000.0)  # [analytic] isothermal scale height 8 km
+    zc, pc = thermo.freezing_level(t, HEIGHTS, p=p)
+    assert zc == pytest.approx(10.0 / 6.5 * 1000.0, abs=1e-6)
+    assert pc == pytest.approx(1000.0 * np.exp(-zc / 8000.0), rel=1e-12)
+    # the generic crossing finds the same 0 C level, either sense or falling
+    assert thermo.level_crossing(t, HEIGHTS, thermo.T0C) == pytest.approx(zc, abs=1e-9)
+    assert thermo.level_crossing(t, HEIGHTS, thermo.T0C, sense="falling") == pytest.approx(zc)
+    assert np.isnan(thermo.level_crossing(t, HEIGHTS, thermo.T0C, sense="rising"))
+    # [derived] unlike the freezing level, a column that never crosses gives NaN
+    cold = _linear_profile(-5.0, 6.5, HEIGHTS)
+    assert np.isnan(thermo.level_crossing(cold, HEIGHTS, thermo.T0C))
+    # rising crossing of a quantity increasing upward (e.g. PV through 2 PVU): linear in z
+    pv = np.linspace(0.0, 5.0, HEIGHTS.size)
+    z2 = np.interp(2.0, pv, HEIGHTS)
+    assert thermo.level_crossing(pv, HEIGHTS, 2.0, sense="rising") == pytest.approx(z2)
+    with pytest.raises(InputError):
+        thermo.level_crossing(pv, HEIGHTS, 2.0, sense="up")
+
+
 def _inversion_profile():
     # [analytic] -3 C at 0 m rising linearly to +3 C at 1000 m, then falling
     # to -10 C at 3000 m and -40 C at 8000 m: warm layer from 500 m (base) to

@@ -12,7 +12,13 @@ import re
 from pathlib import Path
 
 from kit import CAUTION
+from kit.charts.timelines import timeline_figure
+from kit.cli.common import load_runs, output_path
 from kit.errors import InputError, OutputError
+from kit.io.sites import check_sites_on_grid, read_sites
+from kit.pipeline import analyse
+from kit.products.arrivals import arrival_table
+from kit.products.files import save_figure, write_csv, write_html_table
 
 __all__ = ["add_parser", "run"]
 
@@ -85,11 +91,6 @@ def _slug(name):
 
 def run(args):
     """Build the arrival table (and timelines) and write the products; return 0."""
-    from kit.products.arrivals import arrival_table
-    from kit.cli.common import load_runs, output_path
-    from kit.products.files import write_csv, write_html_table
-    from kit.io.sites import check_sites_on_grid, read_sites
-
     out = output_path(args.out, _SUFFIXES)
     if out.exists() and not args.overwrite:
         raise OutputError(f"{out}: already exists; choose a new name or pass --overwrite")
@@ -104,10 +105,10 @@ def run(args):
     runs = load_runs(args.runs)
     for ds in runs:
         check_sites_on_grid(sites, ds)
+    analyses = [analyse(ds, level=args.level) for ds in runs]
     table, series = arrival_table(
-        runs,
+        analyses,
         sites,
-        level=args.level,
         surface=not args.at_level,
         zone_centre=not args.warm_edge,
         horizon_h=args.horizon_h,
@@ -127,9 +128,6 @@ def run(args):
     n_pass = int((table["passage_utc"] != "").sum())
     print(f"{n_pass} passages at {len(sites)} sites from {len(runs)} run(s) written to {out}")
     if tl_dir is not None:
-        from kit.charts.timelines import timeline_figure
-        from kit.products.files import save_figure
-
         first = str(runs[0].attrs.get("run", "run1"))
         for _, site in sites.iterrows():
             key = next(k for k in series if k[0] == first and k[2] == site["name"])

@@ -3,6 +3,7 @@
 from pathlib import Path
 
 from kit.errors import InputError
+from kit.io.runs import open_run
 
 __all__ = ["add_runs_argument", "add_output_arguments", "load_runs", "output_path"]
 
@@ -43,6 +44,4 @@ def output_path(value, suffixes):
 
 def load_runs(run_args, member=None):
     """Open every RUN argument with :func:`kit.io.runs.open_run`; list of canonical Datasets."""
-    from kit.io.runs import open_run
-
     return [open_run(arg, member=member) for arg in run_args]

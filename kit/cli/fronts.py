@@ -2,9 +2,9 @@
 
 Every RUN (a NetCDF file, glob or folder of one model run; several are runs or
 members of one event) is opened with :func:`kit.io.runs.open_run`; its fronts
-are found at every valid time (:func:`kit.science.motion.analyse_run`: location,
+are found at every valid time (:func:`kit.pipeline.analyse`: location,
 type, tracks over lead time, speeds three ways, slopes) and written as one
-RFC 7946 FeatureCollection of LineStrings (:func:`kit.science.fronts.fronts_to_geojson`)
+RFC 7946 FeatureCollection of LineStrings (:func:`kit.products.fronts.fronts_to_geojson`)
 that carries kit.CAUTION. A one-line summary goes to stdout.
 """
 
@@ -13,7 +13,12 @@ from pathlib import Path
 import numpy as np
 
 from kit import CAUTION
+from kit.cli.common import load_runs, output_path
 from kit.errors import InputError, OutputError
+from kit.pipeline import analyse
+from kit.products.files import write_json
+from kit.products.fronts import fronts_to_geojson
+from kit.science.fronts import FrontSettings, level_index
 
 __all__ = ["add_parser", "run"]
 
@@ -79,8 +84,6 @@ def add_parser(subparsers):
 
 
 def _settings(args):
-    from kit.science.fronts import FrontSettings
-
     kw = {"field": args.field}
     if args.smoothing_km is not None:
         kw["smoothing_km"] = args.smoothing_km
@@ -89,23 +92,8 @@ def _settings(args):
     return FrontSettings(**kw)
 
 
-def _analyse(ds, level, settings):
-    """Fronts with tracks/speeds/slopes where kit.science.motion offers them."""
-    try:
-        from kit.science.motion import analyse_run
-    except ImportError:  # motion not installed in this tree: location and type only
-        from kit.science.fronts import find_fronts
-
-        return find_fronts(ds, level=level, settings=settings)
-    return analyse_run(ds, level=level, settings=settings)
-
-
 def run(args):
     """Find the fronts of every RUN and write the GeoJSON; return 0."""
-    from kit.cli.common import load_runs, output_path
-    from kit.products.files import write_json
-    from kit.science.fronts import fronts_to_geojson
-
     out = output_path(args.out, _SUFFIXES)
     if out.exists() and not args.overwrite:
         raise OutputError(
@@ -117,7 +105,7 @@ def run(args):
     runs = load_runs(args.runs, member=args.member)
     fronts = []
     for ds in runs:
-        fronts.extend(_analyse(ds, args.level, settings))
+        fronts.extend(analyse(ds, level=args.level, settings=settings).fronts)
     collection = fronts_to_geojson(fronts)
     pairs = list(zip(args.runs, runs, strict=True))
     notes = _notes(runs, fronts, args.level, settings)
@@ -152,9 +140,7 @@ def _iso_minutes(t):
 
 def _empty_steps(ds, level):
     """List the valid times (and members) whose analysis level holds no value at all."""
-    from kit.science.fronts import _level_index
-
-    t = ds["t"].isel(level=_level_index(ds, level, "level"))
+    t = ds["t"].isel(level=level_index(ds, level, "level"))
     spatial = [d for d in t.dims if d not in ("time", "member")]
     empty = t.isnull().all(dim=spatial).compute()
     out = []

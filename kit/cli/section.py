@@ -13,7 +13,15 @@ import tempfile
 from pathlib import Path
 
 from kit import CAUTION
+from kit.charts.sections import section_figure
+from kit.cli.common import output_path
 from kit.errors import InputError, OutputError
+from kit.io.runs import open_run
+from kit.io.sites import check_sites_on_grid, read_sites
+from kit.pipeline import analyse
+from kit.products.files import save_figure, write_bytes
+from kit.products.sections import section
+from kit.science.sections import select_time
 
 __all__ = ["add_parser", "run", "find_sites_file", "lookup_site", "section_to_netcdf_bytes"]
 
@@ -169,12 +177,6 @@ def section_to_netcdf_bytes(sec):
 
 def run(args):
     """Build the section and write the product; return 0."""
-    from kit.cli.common import output_path
-    from kit.products.files import save_figure, write_bytes
-    from kit.io.runs import open_run
-    from kit.science.sections import section_for_site, select_time
-    from kit.io.sites import check_sites_on_grid, read_sites
-
     out = output_path(args.out, _SUFFIXES)
     if out.exists() and not args.overwrite:
         raise OutputError(f"{out}: already exists; choose a new name or pass --overwrite")
@@ -191,13 +193,12 @@ def run(args):
         member = args.member
     check_sites_on_grid(site.to_frame().T.reset_index(drop=True), ds)
     t = select_time(ds, args.time)
-    sec = section_for_site(ds, site, t, front=args.front, length_km=args.length_km,
-                           spacing_km=args.spacing_km, level=args.level, member=member)
+    analysis = analyse(ds, level=args.level, member=member)
+    sec = section(analysis, site, t, front=args.front, length_km=args.length_km,
+                  spacing_km=args.spacing_km, member=member)
     if out.suffix.lower() == ".nc":
         write_bytes(out, section_to_netcdf_bytes(sec), overwrite=args.overwrite)
     else:
-        from kit.charts.sections import section_figure
-
         save_figure(section_figure(sec), out, overwrite=args.overwrite)
     kind = sec.attrs.get("front_kind")
     across = f"across the {kind} front" if kind else "(no front found; along the theta-w gradient)"

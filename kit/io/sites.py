@@ -21,13 +21,19 @@ import numpy as np
 import pandas as pd
 
 from kit.errors import InputError
+from kit.science.geo import PointSampler
 
-__all__ = ["read_sites", "check_sites_on_grid", "grid_position", "grid_positions", "SITE_COLUMNS"]
+__all__ = [
+    "read_sites",
+    "check_sites_on_grid",
+    "grid_position",
+    "grid_positions",
+    "grid_extent_text",
+    "SITE_COLUMNS",
+]
 
 #: columns of the DataFrame :func:`read_sites` returns
 SITE_COLUMNS = ["name", "lat", "lon", "elevation_m"]
-
-_EARTH_RADIUS_KM = 6371.0088  # mean Earth radius (IUGG), [km]
 
 
 def _number(text, what, where):
@@ -148,85 +154,6 @@ def _grid_kind(ds):
     )
 
 
-def _fractional_index(coord, value):
-    """Fractional index of ``value`` in a monotonic 1-D ``coord`` (NaN outside)."""
-    coord = np.asarray(coord, dtype=float)
-    idx = np.arange(coord.size, dtype=float)
-    if coord[-1] < coord[0]:
-        coord, idx = coord[::-1], idx[::-1]
-    if value < coord[0] - 1e-9 or value > coord[-1] + 1e-9:
-        return np.nan
-    return float(np.interp(value, coord, idx))
-
-
-def _is_global_lon(lon):
-    lon = np.asarray(lon, dtype=float)
-    if lon.size < 3:
-        return False
-    step = np.median(np.diff(lon))
-    return abs(abs(step) * lon.size - 360.0) < 0.5 * abs(step)
-
-
-def _local_en(lon, lat, lon0, lat0):
-    """East/north [km] of points in an azimuthal equidistant plane at (lon0, lat0)."""
-    lam, phi = np.radians(lon - lon0), np.radians(lat)
-    phi0 = np.radians(lat0)
-    cosc = np.sin(phi0) * np.sin(phi) + np.cos(phi0) * np.cos(phi) * np.cos(lam)
-    c = np.arccos(np.clip(cosc, -1.0, 1.0))
-    k = np.where(c > 1e-12, c / np.sin(np.where(c > 1e-12, c, 1.0)), 1.0)
-    x = k * np.cos(phi) * np.sin(lam)
-    y = k * (np.cos(phi0) * np.sin(phi) - np.sin(phi0) * np.cos(phi) * np.cos(lam))
-    return _EARTH_RADIUS_KM * x, _EARTH_RADIUS_KM * y
-
-
-def _position_projected(lat2d, lon2d, lat, lon):
-    """Fractional (row, col) of a point on a curvilinear grid, or (NaN, NaN) if outside."""
-    ny, nx = lat2d.shape
-    ex, ny_ = _local_en(lon2d, lat2d, lon, lat)
-    d2 = ex**2 + ny_**2
-    j, i = np.unravel_index(np.nanargmin(d2), d2.shape)
-    best = None
-    # try the four cells around the nearest node; inverse-bilinear by Newton
-    for j0 in (j - 1, j):
-        for i0 in (i - 1, i):
-            if j0 < 0 or i0 < 0 or j0 + 1 >= ny or i0 + 1 >= nx:
-                continue
-            px = ex[j0 : j0 + 2, i0 : i0 + 2]
-            py = ny_[j0 : j0 + 2, i0 : i0 + 2]
-            s = t = 0.5
-            for _ in range(20):
-                fx = (
-                    (1 - s) * (1 - t) * px[0, 0]
-                    + s * (1 - t) * px[0, 1]
-                    + (1 - s) * t * px[1, 0]
-                    + s * t * px[1, 1]
-                )
-                fy = (
-                    (1 - s) * (1 - t) * py[0, 0]
-                    + s * (1 - t) * py[0, 1]
-                    + (1 - s) * t * py[1, 0]
-                    + s * t * py[1, 1]
-                )
-                dxs = (1 - t) * (px[0, 1] - px[0, 0]) + t * (px[1, 1] - px[1, 0])
-                dxt = (1 - s) * (px[1, 0] - px[0, 0]) + s * (px[1, 1] - px[0, 1])
-                dys = (1 - t) * (py[0, 1] - py[0, 0]) + t * (py[1, 1] - py[1, 0])
-                dyt = (1 - s) * (py[1, 0] - py[0, 0]) + s * (py[1, 1] - py[0, 1])
-                det = dxs * dyt - dxt * dys
-                if det == 0 or not np.isfinite(det):
-                    break
-                ds_ = (fx * dyt - fy * dxt) / det
-                dt_ = (fy * dxs - fx * dys) / det
-                s, t = s - ds_, t - dt_
-                if abs(ds_) < 1e-10 and abs(dt_) < 1e-10:
-                    break
-            if -1e-6 <= s <= 1 + 1e-6 and -1e-6 <= t <= 1 + 1e-6:
-                best = (j0 + min(max(t, 0.0), 1.0), i0 + min(max(s, 0.0), 1.0))
-                break
-        if best is not None:
-            break
-    return best if best is not None else (np.nan, np.nan)
-
-
 def grid_position(ds, lat, lon):
     """Fractional grid position of a point, for bilinear interpolation.
 
@@ -265,40 +192,17 @@ def grid_positions(ds, lats, lons):
     """
     lats = np.atleast_1d(np.asarray(lats, dtype=float))
     lons = np.atleast_1d(np.asarray(lons, dtype=float))
-    out = np.full((lats.size, 2), np.nan)
-    if _grid_kind(ds) == "latlon":
-        glat = np.asarray(ds["lat"].values, dtype=float)
-        glon = np.asarray(ds["lon"].values, dtype=float)
-        lo, hi = np.nanmin(glon), np.nanmax(glon)
-        glob = _is_global_lon(glon)
-        for n, (lat, lon) in enumerate(zip(lats, lons, strict=True)):
-            row = _fractional_index(glat, lat)
-            if glob:
-                x = lo + (lon - lo) % 360.0
-                if x <= hi:
-                    col = _fractional_index(glon, x)
-                else:  # the cell between the last column and the first (wraps)
-                    col = (glon.size - 1) + (x - hi) / (360.0 - (hi - lo))
-            else:
-                col = np.nan
-                for x in (lon, lon + 360.0, lon - 360.0):
-                    if lo - 1e-9 <= x <= hi + 1e-9:
-                        col = _fractional_index(glon, x)
-                        break
-            out[n] = row, col
-        return out
-    lat2d = np.asarray(ds["lat"].values, dtype=float)
-    lon2d = np.asarray(ds["lon"].values, dtype=float)
-    if lat2d.ndim != 2:
+    kind = _grid_kind(ds)
+    if kind == "projected" and np.ndim(ds["lat"]) != 2:
         raise InputError(
             "dataset: projected grid without 2-D lat/lon coordinates; expected lat(y, x), lon(y, x)"
         )
-    for n, (lat, lon) in enumerate(zip(lats, lons, strict=True)):
-        out[n] = _position_projected(lat2d, lon2d, lat, lon)
-    return out
+    j, i = PointSampler(ds).index(lons, lats)
+    return np.column_stack([j, i])
 
 
-def _extent_text(ds):
+def grid_extent_text(ds):
+    """Latitude/longitude extent of a grid as text, for messages (``lat 40.00..60.00, ...``)."""
     lat = np.asarray(ds["lat"].values, dtype=float)
     lon = np.asarray(ds["lon"].values, dtype=float)
     return (
@@ -343,7 +247,7 @@ def check_sites_on_grid(sites, ds):
             raise InputError(
                 f"site '{site['name']}' ({site['lat']:.3f}, {site['lon']:.3f}) "
                 "lies off the grid of "
-                f"{run} ({_extent_text(ds)}); expected a site inside the model domain"
+                f"{run} ({grid_extent_text(ds)}); expected a site inside the model domain"
             )
         rows.append(r)
         cols.append(c)

@@ -63,7 +63,9 @@ import xarray as xr
 
 from kit import CAUTION
 from kit.errors import InputError
-from kit.io.sites import _extent_text, _local_en, grid_positions, read_sites
+from kit.model import Analysis
+from kit.io.sites import grid_extent_text, grid_positions, read_sites
+from kit.science.geo import local_east_north_km
 
 __all__ = [
     "CONTRACT_COLUMNS",
@@ -474,7 +476,7 @@ def _series_many(ds, sites):
         if not (np.isfinite(row) and np.isfinite(col)):
             raise InputError(
                 f"site '{name}' ({lat:.3f}, {lon:.3f}) lies off the grid of "
-                f"{ds.attrs.get('run', 'the run')} ({_extent_text(ds)}); "
+                f"{ds.attrs.get('run', 'the run')} ({grid_extent_text(ds)}); "
                 "expected a site inside the model domain"
             )
     interpolated = _bilinear_many(ds, [tuple(p) for p in positions])
@@ -662,7 +664,7 @@ def signed_distance_km(front, lat, lon):
     nn = np.asarray(front.normal_north, dtype=float)[ok]
     if lon_v.size < 2:
         raise InputError(f"front at {front.valid_time}: fewer than 2 vertices; expected a line")
-    x, y = _local_en(lon_v, lat_v, float(lon), float(lat))
+    x, y = local_east_north_km(lon_v, lat_v, float(lon), float(lat))
     px, py, k, frac, over, (tx, ty) = _nearest_on_line(x, y)
     nx_, ny_ = ty, -tx  # a perpendicular of the segment
     w = min(max(frac, 0.0), 1.0)
@@ -775,7 +777,7 @@ class _ZoneCentre:
             return np.nan
         lon_v = np.asarray(front.lon, dtype=float)
         lat_v = np.asarray(front.lat, dtype=float)
-        x, y = _local_en(lon_v, lat_v, float(lon), float(lat))
+        x, y = local_east_north_km(lon_v, lat_v, float(lon), float(lat))
         k = int(np.nanargmin(x * x + y * y))
         ne, nn = float(front.normal_east[k]), float(front.normal_north[k])
         if not (np.isfinite(ne) and np.isfinite(nn)) or ne == nn == 0:
@@ -1324,31 +1326,33 @@ def _members(ds):
     return [None]
 
 
-def _fronts_for(fronts_by_run, i, ds, level, settings):
-    if fronts_by_run is None:
-        from kit.science.motion import analyse_run
-
-        return analyse_run(ds, level=level, settings=settings)
-    if isinstance(fronts_by_run, dict):
-        key = ds.attrs.get("run")
-        if key not in fronts_by_run:
+def _analyses(analyses):
+    """One Analysis or a list of them, checked: the runs of an arrival table."""
+    if isinstance(analyses, Analysis):
+        analyses = [analyses]
+    analyses = list(analyses) if isinstance(analyses, (list, tuple)) else [analyses]
+    if not analyses:
+        raise InputError(
+            "arrival_table: no analyses given; expected at least one (kit.analyse of a run)"
+        )
+    for a in analyses:
+        if not isinstance(a, Analysis):
             raise InputError(
-                f"fronts_by_run: no fronts for run '{key}'; expected a key per run label"
+                f"arrival_table: got {type(a).__name__}; expected a kit.model.Analysis "
+                "(kit.analyse(run)), so the table shows the fronts the other products show"
             )
-        return fronts_by_run[key]
-    if i < len(fronts_by_run):
-        return fronts_by_run[i]
-    raise InputError(
-        f"fronts_by_run: {len(fronts_by_run)} lists for more runs; expected one list per run"
-    )
+        if a.dataset is None:
+            raise InputError(
+                f"arrival_table: the analysis of run {a.run!r} carries no dataset; expected "
+                "one made by kit.analyse(run)"
+            )
+    return analyses
 
 
 def arrival_table(
-    runs,
+    analyses,
     sites,
-    fronts_by_run=None,
     *,
-    level=850.0,
     surface=True,
     zone_centre=True,
     horizon_h=12.0,
@@ -1356,7 +1360,6 @@ def arrival_table(
     along_tolerance_km=100.0,
     miss_report_km=500.0,
     precip_threshold_mmh=PRECIP_THRESHOLD_MMH,
-    settings=None,
     max_match_h=24.0,
     return_series=False,
 ):
@@ -1364,15 +1367,12 @@ def arrival_table(
 
     Parameters
     ----------
-    runs : xarray.Dataset or list of xarray.Dataset
-        Canonical datasets (kit.open_run), several runs and/or with members.
+    analyses : kit.model.Analysis or list of them
+        The analysis of each run (:func:`kit.pipeline.analyse`), several runs
+        and/or with members; its fronts, level, settings and dataset are used
+        as they are (the table never runs the front analysis again).
     sites : pandas.DataFrame or str or Path
         Site list (kit.io.sites.read_sites) or its CSV path.
-    fronts_by_run : list of list of Front, or dict, optional
-        Tracked fronts of each run (same order as ``runs``, or keyed by run
-        label); computed with :func:`kit.science.motion.analyse_run` when None.
-    level : float
-        Pressure level the fronts are located on [hPa].
     surface : bool
         Move the level's line to the surface front by the slope (module notes).
     zone_centre : bool
@@ -1388,8 +1388,6 @@ def arrival_table(
         Misses whose line end stays farther from the site are left out [km].
     precip_threshold_mmh : float
         Precipitation rate counted as wet [mm h-1].
-    settings : kit.science.fronts.FrontSettings, optional
-        Passed to analyse_run.
     max_match_h : float
         Largest timing difference when matching a front across runs [h].
     return_series : bool
@@ -1404,17 +1402,15 @@ def arrival_table(
         clockwise), NaN/"" where a value does not apply. ``attrs`` carry
         ``caution`` (kit.CAUTION), ``runs`` and ``source``.
     """
-    if isinstance(runs, xr.Dataset):
-        runs = [runs]
-    runs = list(runs)
-    if not runs:
-        raise InputError("arrival_table: no runs given; expected at least one canonical dataset")
+    analyses = _analyses(analyses)
+    runs = [a.dataset for a in analyses]
     if not isinstance(sites, pd.DataFrame):
         sites = read_sites(sites)
     rows, store = [], {}
-    for i, ds in enumerate(runs):
+    for i, (analysis, ds) in enumerate(zip(analyses, runs, strict=True)):
         run = str(ds.attrs.get("run", f"run{i + 1}"))
-        fronts = _fronts_for(fronts_by_run, i, ds, level, settings)
+        fronts = list(analysis.fronts)
+        level, settings = analysis.level_hpa, analysis.settings
         last_h = float(_hours(ds["time"].values[-1]))
         first_h = float(_hours(ds["time"].values[0]))
         for member in _members(ds):

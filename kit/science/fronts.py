@@ -52,18 +52,18 @@ where they are used.)
 
 import math
 import threading
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 import xarray as xr
 
-from kit import CAUTION
-from kit.science import geo
 from kit.errors import InputError
+from kit.model import Front, FrontDetection
+from kit.science import geo
+from kit.timefmt import iso_seconds
 
 __all__ = [
-    "Front",
     "FrontSettings",
     "KINDS",
     "effective_smoothing_km",
@@ -73,14 +73,11 @@ __all__ = [
     "front_masks",
     "front_fields",
     "find_fronts",
-    "fronts_to_geojson",
-    "fronts_table",
+    "level_index",
 ]
 
 #: front kinds, as in the public contract
 KINDS = ("warm", "cold", "quasi-stationary")
-
-MS_TO_KT = 3600.0 / 1852.0
 
 # Hewson (1998) thresholds for 850 hPa theta-w, recalled from memory (not
 # checked against the paper): K1 ~ 0.33 K (100 km)-2, K2 ~ 1.49 K (100 km)-1.
@@ -89,68 +86,6 @@ _K2_REF = 1.49 / 1e5  # [K m-1]
 # Smoothing length at which the recalled values are taken to apply [m]: an
 # assumption of this kit (the paper's own smoothing is not recalled).
 _REF_SMOOTHING_M = 100e3
-
-
-@dataclass
-class Front:
-    """One front line at one valid time on one level.
-
-    Vertex arrays all have the same length ``n``; east/north components are in
-    the local tangent plane. Lines from :func:`find_fronts` run with the cold
-    side on their left (the normal is the left-hand normal of the direction of
-    travel), so symbols can be drawn on a known side.
-
-    Attributes
-    ----------
-    lon, lat : ndarray (n,)
-        Vertices [degrees]; longitude in -180..180 unless the grid is contiguous
-        across the dateline, then it follows the grid (wrap it when exporting).
-    kind : str
-        ``"warm"``, ``"cold"`` or ``"quasi-stationary"``.
-    valid_time : numpy.datetime64
-        Valid time (UTC).
-    level_hpa : float
-        Pressure level the front was located on [hPa].
-    tfp : ndarray (n,)
-        Thermal front parameter at each vertex [K m-2].
-    grad : ndarray (n,)
-        Magnitude of the smoothed thermal gradient at each vertex [K m-1].
-    normal_east, normal_north : ndarray (n,)
-        Unit normal pointing to the cold side [1].
-    vn : ndarray (n,)
-        Wind component along ``normal`` at the steering level [m s-1]; positive
-        means the wind blows toward the cold side (warm advection).
-    speed_ms : float
-        Length-weighted mean of ``vn`` [m s-1]; sign as ``vn``.
-    length_km : float
-        Great-circle length of the line [km].
-    run : str or None
-        Run label (``ds.attrs["run"]``).
-    member : int or None
-        Ensemble member where the run has several.
-    track : int or None
-        Track id shared over lead times (set by :mod:`kit.science.motion`).
-    props : dict
-        Further per-front properties (speeds three ways, slopes...), exported
-        into GeoJSON as they are.
-    """
-
-    lon: np.ndarray
-    lat: np.ndarray
-    kind: str
-    valid_time: np.datetime64
-    level_hpa: float
-    tfp: np.ndarray
-    grad: np.ndarray
-    normal_east: np.ndarray
-    normal_north: np.ndarray
-    vn: np.ndarray
-    speed_ms: float
-    length_km: float
-    run: str | None = None
-    member: int | None = None
-    track: int | None = None
-    props: dict = field(default_factory=dict)
 
 
 @dataclass
@@ -750,13 +685,6 @@ def _split_by_type(vn, w, seg, qs, min_piece_km):
     return [(a, min(b, n - 1)) for a, b in pieces]
 
 
-def _iso_z(t):
-    ts = pd.Timestamp(t)
-    if ts.tzinfo is not None:
-        ts = ts.tz_convert("UTC").tz_localize(None)
-    return ts.strftime("%Y-%m-%dT%H:%M:%SZ")
-
-
 # --------------------------------------------------------------------------- dataset handling
 def _check_dataset(ds, what="find_fronts"):
     if not isinstance(ds, xr.Dataset):
@@ -777,7 +705,8 @@ def _check_dataset(ds, what="find_fronts"):
         raise InputError(f"{what}: no 'time' dimension; expected (time, level, Y, X) fields")
 
 
-def _level_index(ds, level, what):
+def level_index(ds, level, what):
+    """Index of pressure level ``level`` [hPa] in ``ds``; one-line error naming ``what`` if absent."""
     levels = np.asarray(ds["level"].values, dtype=float)
     hit = np.flatnonzero(np.isclose(levels, float(level), rtol=0, atol=0.01))
     if not hit.size:
@@ -803,8 +732,8 @@ def _select_times(ds, times):
         hit = np.flatnonzero(have == t)
         if not hit.size:
             raise InputError(
-                f"find_fronts: valid time {_iso_z(t)} not in the run; expected one of "
-                f"{_iso_z(have[0])} .. {_iso_z(have[-1])}"
+                f"find_fronts: valid time {iso_seconds(t)} not in the run; expected one of "
+                f"{iso_seconds(have[0])} .. {iso_seconds(have[-1])}"
             )
         idx.append(int(hit[0]))
     return ds.isel(time=idx)
@@ -877,13 +806,15 @@ def _lines_at_time(f, grid, get_uv, k1, k2, s, smoothing_km, valid_time, level, 
             speed = float(np.sum(pw[ok] * pvn[ok]) / np.sum(pw[ok])) if pw[ok].sum() > 0 else np.nan
             plen = float(np.sum(pseg))
             ptfp, pmag = tfp[sl], mag[sl]
-            props = {
-                "field": s.field,
-                "smoothing_km": round(float(smoothing_km), 1),
-                "tfp_mean_K_100km2": float(np.nansum(pw * ptfp) / pw.sum() * 1e10),
-                "grad_mean_K_100km": float(np.nansum(pw * pmag) / pw.sum() * 1e5),
-                "steering_level_hpa": float(s.steering_level_hpa),
-            }
+            detection = FrontDetection(
+                field=s.field,
+                smoothing_km=round(float(smoothing_km), 1),
+                tfp_mean_K_100km2=float(np.nansum(pw * ptfp) / pw.sum() * 1e10),
+                grad_mean_K_100km=float(np.nansum(pw * pmag) / pw.sum() * 1e5),
+                steering_level_hpa=float(s.steering_level_hpa),
+                k1_K_100km2=float(k1 * 1e10),
+                k2_K_100km=float(k2 * 1e5),
+            )
             fronts.append(
                 Front(
                     lon=plon.copy(),
@@ -900,7 +831,7 @@ def _lines_at_time(f, grid, get_uv, k1, k2, s, smoothing_km, valid_time, level, 
                     length_km=plen,
                     run=run,
                     member=member,
-                    props=props,
+                    detection=detection,
                 )
             )
     return fronts
@@ -947,8 +878,8 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
         level = float(level)
     except (TypeError, ValueError):
         raise InputError(f"find_fronts: level={level!r}; expected a pressure in hPa") from None
-    _level_index(ds, level, "level")
-    _level_index(ds, s.steering_level_hpa, "steering level")
+    level_index(ds, level, "level")
+    level_index(ds, s.steering_level_hpa, "steering level")
     ds = _select_times(ds, times)
     grid = geo._grid(ds)
     smoothing_km = effective_smoothing_km(ds, s)
@@ -977,7 +908,7 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
     run = ds.attrs.get("run")
     if run is not None:
         run = str(run)
-    steer = _level_index(ds, s.steering_level_hpa, "steering level")
+    steer = level_index(ds, s.steering_level_hpa, "steering level")
 
     def fields_iter():
         """(member, valid time, fields, wind loader) for every member and time."""
@@ -1034,183 +965,5 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
     for member_id, t, f, get_uv in fields_iter():
         found = _lines_at_time(f, grid, get_uv, k1, k2, s, smoothing_km, t, level, run, member_id)
         found.sort(key=lambda fr: -fr.length_km)
-        for fr in found:
-            fr.props["k1_K_100km2"] = float(k1 * 1e10)
-            fr.props["k2_K_100km"] = float(k2 * 1e5)
         fronts.extend(found)
     return fronts
-
-
-# --------------------------------------------------------------------------- export
-def _clean(value, digits=4):
-    """JSON-safe value: NaN/inf -> None, numpy -> Python, floats to significant digits."""
-    if value is None:
-        return None
-    if isinstance(value, (np.datetime64, pd.Timestamp)):
-        return _iso_z(value)
-    if isinstance(value, (bool, np.bool_)):
-        return bool(value)
-    if isinstance(value, (int, np.integer)):
-        return int(value)
-    if isinstance(value, (float, np.floating)):
-        v = float(value)
-        if not math.isfinite(v):
-            return None
-        return float(f"{v:.{digits}g}") if v != 0 else 0.0
-    if isinstance(value, np.ndarray):
-        return [_clean(x, digits) for x in value.tolist()]
-    if isinstance(value, (list, tuple)):
-        return [_clean(x, digits) for x in value]
-    if isinstance(value, dict):
-        return {str(k): _clean(v, digits) for k, v in value.items()}
-    return value if isinstance(value, str) else str(value)
-
-
-def _front_properties(fr):
-    props = {
-        "kind": fr.kind,
-        "valid_time": _iso_z(fr.valid_time),
-        "level_hpa": _clean(fr.level_hpa),
-        "length_km": None if not math.isfinite(fr.length_km) else round(float(fr.length_km), 1),
-        "speed_ms": None if not math.isfinite(fr.speed_ms) else round(float(fr.speed_ms), 2),
-        "speed_kt": None
-        if not math.isfinite(fr.speed_ms)
-        else round(float(fr.speed_ms) * MS_TO_KT, 1),
-        "track": None if fr.track is None else int(fr.track),
-        "run": fr.run,
-        "member": None if fr.member is None else int(fr.member),
-    }
-    for k, v in fr.props.items():
-        if k not in props:
-            props[k] = _clean(v)
-    return props
-
-
-def _split_antimeridian(lon, lat):
-    """Wrap longitudes to -180..180 and cut the line where it crosses 180."""
-    lon = np.rad2deg(np.unwrap(np.deg2rad(np.asarray(lon, dtype=float))))
-    lat = np.asarray(lat, dtype=float)
-    parts = []
-    cur_lon, cur_lat = [lon[0]], [lat[0]]
-    k = np.floor((lon[0] + 180.0) / 360.0)
-    for i in range(1, lon.size):
-        k_i = np.floor((lon[i] + 180.0) / 360.0)
-        if k_i != k:
-            # crossing at the boundary between the two 360-degree sheets
-            edge = 360.0 * max(k, k_i) - 180.0
-            frac = (edge - lon[i - 1]) / (lon[i] - lon[i - 1])
-            lat_x = lat[i - 1] + frac * (lat[i] - lat[i - 1])
-            cur_lon.append(edge)
-            cur_lat.append(lat_x)
-            parts.append((np.array(cur_lon) - 360.0 * k, np.array(cur_lat)))
-            cur_lon, cur_lat = [edge], [lat_x]
-            k = k_i
-        cur_lon.append(lon[i])
-        cur_lat.append(lat[i])
-    parts.append((np.array(cur_lon) - 360.0 * k, np.array(cur_lat)))
-    out = []
-    for plon, plat in parts:
-        plon = np.clip(plon, -180.0, 180.0)
-        if plon.size >= 2:
-            out.append((plon, plat))
-    return out
-
-
-def fronts_to_geojson(fronts):
-    """Fronts as an RFC 7946 GeoJSON FeatureCollection of LineStrings.
-
-    Parameters
-    ----------
-    fronts : list of Front
-
-    Returns
-    -------
-    dict
-        ``{"type": "FeatureCollection", "features": [...], "caution": CAUTION}``.
-        Coordinates [lon, lat] in degrees, longitude -180..180, rounded to
-        1e-4 degree (about 10 m); a line crossing the antimeridian becomes two
-        LineString features with the same properties (``part`` 0 and 1).
-        Properties: ``kind``, ``valid_time`` (``YYYY-MM-DDTHH:MM:SSZ``),
-        ``level_hpa``, ``length_km``, ``speed_ms`` (positive toward the cold
-        side), ``speed_kt``, ``track``, ``run``, ``member`` and every key of
-        ``front.props``; no NaN (null instead).
-    """
-    features = []
-    for fr in fronts:
-        if not isinstance(fr, Front):
-            raise InputError(f"fronts_to_geojson: got {type(fr).__name__}; expected Front objects")
-        props = _front_properties(fr)
-        ok = np.isfinite(fr.lon) & np.isfinite(fr.lat)
-        if ok.sum() < 2:
-            continue
-        parts = _split_antimeridian(np.asarray(fr.lon)[ok], np.asarray(fr.lat)[ok])
-        for i, (plon, plat) in enumerate(parts):
-            p = dict(props)
-            if len(parts) > 1:
-                p["part"] = i
-            coords = [
-                [round(float(a), 4), round(float(b), 4)] for a, b in zip(plon, plat, strict=True)
-            ]
-            features.append(
-                {
-                    "type": "Feature",
-                    "geometry": {"type": "LineString", "coordinates": coords},
-                    "properties": p,
-                }
-            )
-    return {"type": "FeatureCollection", "caution": CAUTION, "features": features}
-
-
-def fronts_table(fronts):
-    """One row per front.
-
-    Parameters
-    ----------
-    fronts : list of Front
-
-    Returns
-    -------
-    pandas.DataFrame
-        Columns ``kind, valid_time, level_hpa, length_km, speed_ms, speed_kt,
-        track, run, member`` then every key of ``props``; ``attrs["caution"]``
-        holds :data:`kit.CAUTION`.
-    """
-    base = [
-        "kind",
-        "valid_time",
-        "level_hpa",
-        "length_km",
-        "speed_ms",
-        "speed_kt",
-        "track",
-        "run",
-        "member",
-    ]
-    rows = []
-    for fr in fronts:
-        if not isinstance(fr, Front):
-            raise InputError(f"fronts_table: got {type(fr).__name__}; expected Front objects")
-        row = {
-            "kind": fr.kind,
-            "valid_time": pd.Timestamp(fr.valid_time),
-            "level_hpa": float(fr.level_hpa),
-            "length_km": float(fr.length_km),
-            "speed_ms": float(fr.speed_ms),
-            "speed_kt": float(fr.speed_ms) * MS_TO_KT,
-            "track": pd.NA if fr.track is None else int(fr.track),
-            "run": fr.run,
-            "member": pd.NA if fr.member is None else int(fr.member),
-        }
-        for k, v in fr.props.items():
-            if k not in row:
-                row[k] = v
-        rows.append(row)
-    df = pd.DataFrame(rows)
-    if df.empty:
-        df = pd.DataFrame(columns=base)
-    df.attrs["caution"] = CAUTION
-    return df
-
-
-# keep the dataclass field list handy for modules that copy fronts
-_FRONT_FIELDS = tuple(f.name for f in fields(Front))

@@ -15,8 +15,11 @@ Two kinds of grid are understood, as the canonical Dataset defines them
   grid axes to earth-relative east/north with the local grid convergence taken
   from the 2-D latitude/longitude.
 
-The sphere has the mean Earth radius :data:`EARTH_RADIUS_M`; great-circle
-distances on it differ from WGS84 geodesics by at most about 0.5 %.
+Every distance, bearing and local plane of the kit is on the sphere of the mean
+Earth radius :data:`kit.constants.EARTH_RADIUS_M`, and only here (great circles,
+destinations, the azimuthal equidistant local plane, point sampling). Great-circle
+distances on it differ from WGS84 geodesics by at most about 0.5 %
+(tests/test_geometry.py, pyproj Geod as independent implementation).
 
 All field functions work on the last two axes (``Y, X``) of a numpy array or an
 xarray DataArray, broadcast over any leading axes (member, time, level), and
@@ -31,11 +34,12 @@ import numpy as np
 import xarray as xr
 from scipy import fft as sp_fft
 from scipy import ndimage
+from scipy.spatial import cKDTree
 
+from kit.constants import EARTH_RADIUS_KM, EARTH_RADIUS_M
 from kit.errors import InputError
 
 __all__ = [
-    "EARTH_RADIUS_M",
     "grid_spacing",
     "grid_length_km",
     "is_periodic",
@@ -45,12 +49,11 @@ __all__ = [
     "line_length_km",
     "destination",
     "bearing_deg",
+    "direction_bearing_deg",
     "local_east_north_km",
     "local_to_lonlat",
+    "PointSampler",
 ]
-
-#: mean Earth radius [m] (IUGG mean radius R1, from memory; also MetPy's ``Re``)
-EARTH_RADIUS_M = 6371008.8
 
 _POLE_COS = 1e-6  # cos(lat) below this is treated as the pole: east derivative undefined
 
@@ -738,7 +741,7 @@ def great_circle_km(lon1, lat1, lon2, lat2):
     Returns
     -------
     ndarray or float
-        Distance [km] on a sphere of radius :data:`EARTH_RADIUS_M`.
+        Distance [km] on a sphere of radius :data:`kit.constants.EARTH_RADIUS_M`.
 
     Notes
     -----
@@ -758,7 +761,7 @@ def great_circle_km(lon1, lat1, lon2, lat2):
     c1, c2, s1, s2 = np.cos(lat1), np.cos(lat2), np.sin(lat1), np.sin(lat2)
     num = np.hypot(c2 * np.sin(dl), c1 * s2 - s1 * c2 * np.cos(dl))
     den = s1 * s2 + c1 * c2 * np.cos(dl)
-    d = EARTH_RADIUS_M / 1000.0 * np.arctan2(num, den)
+    d = EARTH_RADIUS_KM * np.arctan2(num, den)
     return d if np.ndim(d) else float(d)
 
 
@@ -788,42 +791,75 @@ def line_length_km(lon, lat):
     return float(np.nansum(seg))
 
 
-def destination(lon, lat, bearing_deg, dist_km):
-    """Point reached from (lon, lat) along a great circle.
+def destination(lon, lat, bearing_deg, dist_km, *, wrap=True):
+    r"""Point reached from (lon, lat) along a great circle.
 
     Parameters
     ----------
     lon, lat : array_like
         Start [degrees].
     bearing_deg : array_like
-        Initial bearing, clockwise from north [degrees].
+        Initial bearing, clockwise from north [degrees]; a direction given as
+        local east/north components becomes one with
+        :func:`direction_bearing_deg`.
     dist_km : array_like
-        Distance [km].
+        Distance [km]; a negative distance goes the opposite way (bearing + 180).
+    wrap : bool
+        True: longitude of the end point in -180..180. False: kept continuous
+        with the start longitude (it may leave -180..180), as line work across
+        the dateline needs.
 
     Returns
     -------
     lon2, lat2 : ndarray or float
-        End point [degrees], longitude in -180..180.
+        End point [degrees]; all arguments broadcast together.
+
+    Notes
+    -----
+    Destination on the sphere from the spherical sine and cosine rules
+    (standard spherical trigonometry, from memory):
+    :math:`\sin\varphi_2 = \sin\varphi_1\cos\delta + \cos\varphi_1\sin\delta\cos\theta`,
+    :math:`\Delta\lambda = \operatorname{atan2}(\sin\theta\sin\delta\cos\varphi_1,
+    \cos\delta - \sin\varphi_1\sin\varphi_2)` with :math:`\delta` = distance / R.
+    pyproj ``Geod.fwd`` on the same sphere is the second implementation in
+    tests/test_geometry.py.
 
     Examples
     --------
     >>> lon2, lat2 = destination(0.0, 0.0, 90.0, 111.19508)
     >>> round(lon2, 4), round(lat2, 4)
     (1.0, 0.0)
+    >>> lon2, lat2 = destination(179.5, 0.0, 90.0, 111.19508, wrap=False)
+    >>> round(lon2, 4)
+    180.5
     """
     lon, lat, brg, dist = _ll(lon, lat, bearing_deg, dist_km)
-    phi1, lam1, th = np.deg2rad(lat), np.deg2rad(lon), np.deg2rad(brg)
-    delta = dist * 1000.0 / EARTH_RADIUS_M
+    phi1, th = np.deg2rad(lat), np.deg2rad(brg)
+    delta = dist / EARTH_RADIUS_KM  # negative: the same great circle the other way
     sphi2 = np.sin(phi1) * np.cos(delta) + np.cos(phi1) * np.sin(delta) * np.cos(th)
     phi2 = np.arcsin(np.clip(sphi2, -1.0, 1.0))
-    lam2 = lam1 + np.arctan2(
+    dlam = np.arctan2(
         np.sin(th) * np.sin(delta) * np.cos(phi1), np.cos(delta) - np.sin(phi1) * sphi2
     )
-    lon2 = (np.rad2deg(lam2) + 180.0) % 360.0 - 180.0
+    lon2 = lon + np.rad2deg(dlam)
+    if wrap:
+        lon2 = (lon2 + 180.0) % 360.0 - 180.0
     lat2 = np.rad2deg(phi2)
     if np.ndim(lon2) == 0:
         return float(lon2), float(lat2)
     return lon2, lat2
+
+
+def direction_bearing_deg(east, north):
+    """Bearing of a direction given by local east/north components [degrees, 0..360).
+
+    Examples
+    --------
+    >>> direction_bearing_deg(1.0, 0.0), direction_bearing_deg(-1.0, -1.0)
+    (90.0, 225.0)
+    """
+    b = np.rad2deg(np.arctan2(np.asarray(east, float), np.asarray(north, float))) % 360.0
+    return b if np.ndim(b) else float(b)
 
 
 def bearing_deg(lon1, lat1, lon2, lat2):
@@ -851,16 +887,28 @@ def local_east_north_km(lon, lat, lon0, lat0):
     ----------
     lon, lat : array_like
         Points [degrees].
-    lon0, lat0 : float
-        Origin of the plane [degrees].
+    lon0, lat0 : float or array_like
+        Origin of the plane [degrees]. Arrays broadcast with the points, so
+        origins of shape (K, 1) and points of shape (1, M) give (K, M)
+        coordinates: every point seen from every origin.
 
     Returns
     -------
     east_km, north_km : ndarray or float
-        Azimuthal equidistant coordinates [km]: the distance from the origin
+        Azimuthal equidistant coordinates [km] on the sphere of
+        :data:`kit.constants.EARTH_RADIUS_M`: the distance from the origin
         is the great-circle distance and the direction is the initial bearing,
-        so lengths and angles near the origin are true (to about 1 % within
-        1000 km). Invert with :func:`local_to_lonlat`.
+        so both are exact from the origin, and a line cast from the origin
+        along a direction of its east/north frame is exact too; other lengths
+        and angles are true to about 1 % within 1000 km. Invert with
+        :func:`local_to_lonlat`.
+
+    Notes
+    -----
+    Azimuthal equidistant projection on the sphere (Snyder 1987, Map
+    Projections: A Working Manual, USGS PP 1395, Eqs. 25-2 and 25-3, from
+    memory) written as distance and bearing. pyproj's ``aeqd`` on the same
+    sphere is the second implementation in tests/test_geometry.py.
 
     Examples
     --------
@@ -876,11 +924,338 @@ def local_east_north_km(lon, lat, lon0, lat0):
     return e, n
 
 
-def local_to_lonlat(east_km, north_km, lon0, lat0):
-    """Inverse of :func:`local_east_north_km` [degrees, longitude in -180..180]."""
-    east_km, north_km = _ll(east_km, north_km)
+def local_to_lonlat(east_km, north_km, lon0, lat0, *, wrap=True):
+    """Inverse of :func:`local_east_north_km` [degrees].
+
+    ``wrap`` as in :func:`destination`: longitude in -180..180, or continuous
+    with ``lon0``.
+    """
+    east_km, north_km, lon0, lat0 = np.broadcast_arrays(*_ll(east_km, north_km, lon0, lat0))
     r = np.hypot(east_km, north_km)
     b = np.rad2deg(np.arctan2(east_km, north_km))
-    lon = np.broadcast_to(np.float64(lon0), r.shape)
-    lat = np.broadcast_to(np.float64(lat0), r.shape)
-    return destination(lon, lat, b, r)
+    return destination(lon0, lat0, b, r, wrap=wrap)
+
+
+
+# --------------------------------------------------------------------------- public: sampling
+class PointSampler:
+    """Sample gridded fields of a canonical Dataset at longitude/latitude points.
+
+    The one point sampler of the kit: bilinear (or nearest-point) values of
+    fields on the ``Y, X`` grid of ``ds`` at arbitrary points, used for site
+    series, sections and line sampling.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset or xarray.DataArray
+        Carries the grid: 1-D ``lat``/``lon`` (regular grid) or 2-D
+        ``lat``/``lon`` (projected grid), in degrees.
+
+    Notes
+    -----
+    Regular grids use the coordinate values directly, in either order of
+    latitude, wrapping longitude for global grids (the cell between the last
+    and first column is used) and accepting any longitude of a point (shifted
+    by 360 into the grid's range). Projected grids find the nearest grid point
+    on the unit sphere (k-d tree), then refine the fractional index with
+    Newton steps in the local plane (:func:`local_east_north_km`) so that the
+    bilinear interpolation of the grid's latitude/longitude reproduces the
+    point. Points outside the grid give NaN.
+
+    Values are bilinear in the fractional index: exact for a field linear in
+    latitude/longitude (regular grid) or in grid x/y (projected grid).
+    ``nan="propagate"`` gives NaN next to a missing value; ``nan="skip"``
+    renormalises the weights of the valid corners (NaN only where all four
+    are missing), for fields with levels below the ground.
+
+    Examples
+    --------
+    >>> import numpy as np, xarray as xr
+    >>> ds = xr.Dataset(coords={"lat": np.arange(40.0, 45.0), "lon": np.arange(0.0, 5.0)})
+    >>> f = np.add.outer(10.0 * ds.lat.values, ds.lon.values)   # 10 lat + lon
+    >>> PointSampler(ds).sample(f, [1.5, 2.25], [41.5, 42.0]).round(6).tolist()
+    [416.5, 422.25]
+    """
+
+    def __init__(self, ds):
+        if not isinstance(ds, (xr.Dataset, xr.DataArray)) or "lat" not in ds.coords and not (
+            isinstance(ds, xr.Dataset) and "lat" in ds
+        ):
+            raise InputError(
+                "grid: no lat/lon coordinates to sample at points; expected the canonical "
+                "Dataset (kit.io.runs.open_run)"
+            )
+        lat, lon = ds["lat"], ds["lon"]
+        self.regular = lat.ndim == 1
+        if self.regular:
+            self.lat = np.asarray(lat.values, float)
+            self.lon = np.asarray(lon.values, float)
+            if self.lat.size < 2 or self.lon.size < 2:
+                raise InputError(
+                    "grid: need at least 2 latitudes and 2 longitudes to sample fields"
+                )
+            if not (np.all(np.diff(self.lon) > 0)):
+                raise InputError(
+                    "grid: longitudes not ascending; expected the canonical grid "
+                    "(kit.io.runs.open_run)"
+                )
+            self.shape = (self.lat.size, self.lon.size)
+            dlon = float(np.median(np.diff(self.lon)))
+            span = self.lon[-1] - self.lon[0] + dlon
+            self.periodic = bool(abs(span - 360.0) < 0.5 * dlon)
+        else:
+            self.lat2 = np.asarray(lat.values, float)
+            self.lon2 = np.asarray(lon.values, float)
+            if self.lat2.ndim != 2 or self.lon2.shape != self.lat2.shape or min(
+                self.lat2.shape
+            ) < 2:
+                raise InputError(
+                    f"grid: projected grid with lat/lon shapes {self.lat2.shape}/"
+                    f"{self.lon2.shape}; expected 2-D lat and lon of the same shape (y, x)"
+                )
+            self.shape = self.lat2.shape
+            self._tree = cKDTree(self._xyz(self.lon2.ravel(), self.lat2.ravel()))
+            self.periodic = False
+        self.dims = tuple(lat.dims) if not self.regular else ("lat", "lon")
+
+    @staticmethod
+    def _xyz(lon, lat):
+        lo, la = np.deg2rad(lon), np.deg2rad(lat)
+        return np.column_stack([np.cos(la) * np.cos(lo), np.cos(la) * np.sin(lo), np.sin(la)])
+
+    # ------------------------------------------------------------------ positions
+    def index(self, lon, lat):
+        """Fractional grid indices of points.
+
+        Parameters
+        ----------
+        lon, lat : array_like
+            Points [degrees]; broadcast together.
+
+        Returns
+        -------
+        j, i : ndarray
+            Fractional index along Y and X [1], of the shape of the points; NaN
+            outside the grid. On a periodic grid ``i`` may lie in
+            ``(nx - 1, nx]``: the cell that wraps to column 0.
+        """
+        lon, lat = np.broadcast_arrays(np.asarray(lon, float), np.asarray(lat, float))
+        shape = lon.shape
+        lon, lat = lon.ravel(), lat.ravel()
+        if self.regular:
+            j = self._lat_index(lat)
+            lon0, lon1 = self.lon[0], self.lon[-1]
+            lo = lon0 + np.mod(lon - lon0, 360.0)
+            # a point a hair west of the first column (rounding) is on it, not 360 away
+            lo = np.where((lo > lon1) & (lo - 360.0 > lon0 - 1e-9), lon0, lo)
+            n = self.lon.size
+            if self.periodic:
+                ext = np.append(self.lon, self.lon[0] + 360.0)
+                i = np.interp(lo, ext, np.arange(n + 1.0))
+            else:
+                i = np.interp(lo, self.lon, np.arange(float(n)), left=np.nan, right=np.nan)
+            return j.reshape(shape), i.reshape(shape)
+        j, i = self._projected_index(lon, lat)
+        return j.reshape(shape), i.reshape(shape)
+
+    def _lat_index(self, lat):
+        idx = np.arange(float(self.lat.size))
+        if self.lat[0] > self.lat[-1]:
+            return np.interp(lat, self.lat[::-1], idx[::-1], left=np.nan, right=np.nan)
+        return np.interp(lat, self.lat, idx, left=np.nan, right=np.nan)
+
+    def _projected_index(self, lon, lat):
+        ny, nx = self.shape
+        if lon.size == 0:
+            return np.zeros(0), np.zeros(0)
+        _, k = self._tree.query(self._xyz(lon, lat))
+        j = (k // nx).astype(float)
+        i = (k % nx).astype(float)
+        for _ in range(4):
+            jj = np.clip(np.round(j).astype(int), 0, ny - 2)
+            ii = np.clip(np.round(i).astype(int), 0, nx - 2)
+            la0 = self._bilin(self.lat2, j, i)
+            lo0 = self._bilin(self.lon2, j, i, wrap_ref=lon)
+            # local Jacobian of (east, north) km with respect to (i, j)
+            ex, nx_ = local_east_north_km(self.lon2[jj, ii + 1], self.lat2[jj, ii + 1], lo0, la0)
+            ey, ny_ = local_east_north_km(self.lon2[jj + 1, ii], self.lat2[jj + 1, ii], lo0, la0)
+            e0, n0 = local_east_north_km(self.lon2[jj, ii], self.lat2[jj, ii], lo0, la0)
+            a11, a21 = ex - e0, nx_ - n0
+            a12, a22 = ey - e0, ny_ - n0
+            te, tn = local_east_north_km(lon, lat, lo0, la0)
+            det = a11 * a22 - a12 * a21
+            with np.errstate(divide="ignore", invalid="ignore"):
+                di = (a22 * te - a12 * tn) / det
+                dj = (-a21 * te + a11 * tn) / det
+            i = i + np.nan_to_num(di)
+            j = j + np.nan_to_num(dj)
+        outside = (j < -0.01) | (j > ny - 0.99) | (i < -0.01) | (i > nx - 0.99)
+        j = np.where(outside, np.nan, np.clip(j, 0, ny - 1))
+        i = np.where(outside, np.nan, np.clip(i, 0, nx - 1))
+        return j, i
+
+    def _bilin(self, field, j, i, wrap_ref=None):
+        """Bilinear value of a 2-D grid array at (j, i); longitudes near ``wrap_ref``."""
+        jj, ii, w = self.weights(j, i)
+        c = field[jj, ii]
+        if wrap_ref is not None:
+            ref = np.asarray(wrap_ref, float)[..., None]
+            c = ref + np.mod(c - ref + 180.0, 360.0) - 180.0
+        return np.where(np.isfinite(w[..., 0]), np.sum(c * np.nan_to_num(w), axis=-1), np.nan)
+
+    def weights(self, j, i):
+        """Corner indices and bilinear weights of fractional grid positions.
+
+        Parameters
+        ----------
+        j, i : array_like
+            Fractional indices along Y and X (as :meth:`index` gives them).
+
+        Returns
+        -------
+        jj, ii : ndarray of int, shape ``j.shape + (4,)``
+            Rows and columns of the four corners (the wrapping cell of a
+            periodic grid uses column 0); 0 where the position is NaN.
+        w : ndarray, shape ``j.shape + (4,)``
+            Bilinear weights (sum 1); NaN where the position is NaN.
+        """
+        j, i = np.broadcast_arrays(np.asarray(j, float), np.asarray(i, float))
+        ny, nx = self.shape
+        bad = ~(np.isfinite(j) & np.isfinite(i))
+        j = np.where(bad, 0.0, j)
+        i = np.where(bad, 0.0, i)
+        j0 = np.clip(np.floor(j).astype(int), 0, ny - 2)
+        if self.periodic:
+            i0 = np.clip(np.floor(i).astype(int), 0, nx - 1)
+            i1 = (i0 + 1) % nx
+        else:
+            i0 = np.clip(np.floor(i).astype(int), 0, nx - 2)
+            i1 = i0 + 1
+        fj, fi = j - j0, i - i0
+        jj = np.stack([j0, j0, j0 + 1, j0 + 1], axis=-1)
+        ii = np.stack([i0, i1, i0, i1], axis=-1)
+        w = np.stack([(1 - fj) * (1 - fi), (1 - fj) * fi, fj * (1 - fi), fj * fi], axis=-1)
+        w[bad] = np.nan
+        return jj, ii, w
+
+    # ------------------------------------------------------------------ values
+    def sample(self, field, lon, lat, *, method="linear", nan="propagate"):
+        """Values of a field at points.
+
+        Parameters
+        ----------
+        field : ndarray or xarray.DataArray (..., Y, X)
+            Field on the grid [any unit]; leading axes (level, member, ...) are kept.
+        lon, lat : array_like
+            Points [degrees]; broadcast together.
+        method : {"linear", "nearest"}
+            Bilinear interpolation, or the value of the nearest grid point (in index space).
+        nan : {"propagate", "skip"}
+            Bilinear next to a missing value: NaN, or the renormalised mean of the
+            valid corners.
+
+        Returns
+        -------
+        ndarray (..., *points)
+            Values [unit of ``field``]; NaN outside the grid.
+        """
+        j, i = self.index(lon, lat)
+        return self.sample_index(field, j, i, method=method, nan=nan)
+
+    def sample_index(self, field, j, i, *, method="linear", nan="propagate"):
+        """Values of a field (..., Y, X) at fractional grid positions; see :meth:`sample`."""
+        arr = np.asarray(getattr(field, "values", field), dtype=float)
+        if arr.shape[-2:] != tuple(self.shape):
+            raise InputError(
+                f"sample: field of shape {arr.shape}; expected (..., {self.shape[0]}, "
+                f"{self.shape[1]}) on the sampler's grid"
+            )
+        j, i = np.broadcast_arrays(np.asarray(j, float), np.asarray(i, float))
+        if method == "nearest":
+            ok = np.isfinite(j) & np.isfinite(i)
+            jn = np.where(ok, np.round(np.where(ok, j, 0.0)), 0).astype(int)
+            inn = np.where(ok, np.round(np.where(ok, i, 0.0)), 0).astype(int)
+            inn = inn % self.shape[1] if self.periodic else np.minimum(inn, self.shape[1] - 1)
+            return np.where(ok, arr[..., jn, inn], np.nan)
+        if method != "linear":
+            raise InputError(f"sample: method={method!r}; expected 'linear' or 'nearest'")
+        jj, ii, w = self.weights(j, i)
+        return _weighted_corners(arr[..., jj, ii], w, nan)
+
+    def sample_dataset(self, ds, lon=None, lat=None, *, index=None, nan="skip", dim="point"):
+        """Every horizontal field of a Dataset at points, reading only the corner columns.
+
+        Parameters
+        ----------
+        ds : xarray.Dataset
+            Fields on the sampler's grid, numpy- or dask-backed: only the four
+            corner columns of each point are read (one compute).
+        lon, lat : array_like (n,), optional
+            Points [degrees].
+        index : (j, i), optional
+            Fractional grid positions instead of ``lon``/``lat``.
+        nan : {"skip", "propagate"}
+            As in :meth:`sample`.
+        dim : str
+            Name of the new point dimension.
+
+        Returns
+        -------
+        xarray.Dataset
+            Each data variable with both horizontal dimensions, sampled, with
+            dimension ``dim`` in place of them; attributes and the other
+            coordinates kept.
+        """
+        if index is None:
+            j, i = self.index(np.atleast_1d(lon), np.atleast_1d(lat))
+        else:
+            j, i = (np.atleast_1d(np.asarray(a, float)) for a in index)
+        ydim, xdim = _horizontal_dims(ds)
+        jj, ii, w = self.weights(j.ravel(), i.ravel())
+        names = [n for n, da in ds.data_vars.items() if ydim in da.dims and xdim in da.dims]
+        drop = [c for c in ds.coords if ydim in ds[c].dims or xdim in ds[c].dims]
+        sel = {ydim: xr.DataArray(jj, dims=(dim, "_corner")),
+               xdim: xr.DataArray(ii, dims=(dim, "_corner"))}
+        sub = ds[names].drop_vars(drop, errors="ignore").isel(sel).load()
+        wa = xr.DataArray(w, dims=(dim, "_corner"))
+        out = {}
+        for name in names:
+            v = sub[name].astype(float)
+            if nan == "skip":
+                ok = np.isfinite(v)
+                wsum = (ok * wa).sum("_corner")
+                val = (v.where(ok, 0.0) * wa).sum("_corner") / wsum.where(wsum > 0)
+            else:
+                val = (v * wa).sum("_corner", skipna=False)
+            out[name] = val.where(np.isfinite(wa.isel(_corner=0))).assign_attrs(ds[name].attrs)
+        res = xr.Dataset(out, attrs=dict(ds.attrs))
+        for c in ds.coords:
+            if c not in drop and c not in res.coords:
+                res = res.assign_coords({c: ds[c]})
+        return res
+
+
+def _horizontal_dims(ds):
+    """Names of the (Y, X) dimensions of a canonical Dataset."""
+    if "lat" in ds.dims and "lon" in ds.dims:
+        return "lat", "lon"
+    if "y" in ds.dims and "x" in ds.dims:
+        return "y", "x"
+    raise InputError(
+        "dataset: no lat/lon or y/x grid dimensions; expected the canonical dataset of kit.open_run"
+    )
+
+
+def _weighted_corners(values, w, nan):
+    """Combine corner values (..., *pts, 4) with weights (*pts, 4)."""
+    if nan == "skip":
+        ok = np.isfinite(values)
+        wk = np.where(ok, w, 0.0)
+        wsum = wk.sum(axis=-1)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            out = np.where(ok, values, 0.0) * wk
+            out = out.sum(axis=-1) / np.where(wsum > 0, wsum, np.nan)
+        return np.where(np.isfinite(w[..., 0]), out, np.nan)
+    if nan != "propagate":
+        raise InputError(f"sample: nan={nan!r}; expected 'propagate' or 'skip'")
+    return np.sum(values * np.nan_to_num(w), axis=-1) + np.where(np.isfinite(w[..., 0]), 0.0, np.nan)

@@ -34,14 +34,13 @@ or authorised practice take precedence.
 
 from __future__ import annotations
 
-import math
 from collections import defaultdict
 
 import numpy as np
 import xarray as xr
 
-from kit import CAUTION
 from kit.errors import InputError
+from kit.model import FrontMotion, TrackLink, json_float
 
 __all__ = [
     "OMEGA",
@@ -55,8 +54,6 @@ __all__ = [
     "geostrophic_speed",
     "track_fronts",
     "speeds_three_ways",
-    "analyse_run",
-    "motion_table",
 ]
 
 #: Earth's angular velocity [rad s-1]
@@ -332,14 +329,6 @@ def _weighted_median(values, weights):
     return float(v[min(k, v.size - 1)])
 
 
-def _json_float(x, ndigits=3):
-    """Return a float for ``front.props``: rounded, or None where missing (GeoJSON has no NaN)."""
-    if x is None:
-        return None
-    x = float(x)
-    return round(x, ndigits) if math.isfinite(x) else None
-
-
 # --------------------------------------------------------------------------
 # sampling a gridded field at points
 # --------------------------------------------------------------------------
@@ -569,7 +558,7 @@ def track_fronts(
     Parameters
     ----------
     fronts : list of kit.science.fronts.Front
-        Fronts of any runs, members, levels and times; changed in place.
+        Fronts of any runs, members, levels and times (not changed).
     max_gap_km : float, optional
         Largest normal displacement [km] between two consecutive times that
         still links two lines. Default: ``max_speed_ms`` times the time step.
@@ -583,13 +572,14 @@ def track_fronts(
     Returns
     -------
     list of kit.science.fronts.Front
-        The same fronts, with ``front.track`` (int, unique over the list) and
-        ``front.props``: ``speed_tracked_ms`` [m s-1] (front-normal, positive
-        toward the cold side; the length-weighted median of the vertex speeds,
-        so the ends of a line and the bend near a triple point, which move
-        differently, do not bias it; None where the track has one time only),
+        New fronts in the same order, with ``front.track`` (int, unique over
+        the list) and ``front.link`` (:class:`kit.model.TrackLink`):
+        ``speed_tracked_ms`` [m s-1] (front-normal, positive toward the cold
+        side; the length-weighted median of the vertex speeds, so the ends of
+        a line and the bend near a triple point, which move differently, do
+        not bias it; None where the track has one time only),
         ``vn_tracked`` (per-vertex list [m s-1], None where a vertex has no
-        counterpart) and ``track_parent``/``track_event`` (``"new"``,
+        counterpart), ``parent`` and ``event`` (``"new"``,
         ``"continues"``, ``"split"`` or ``"merge"``).
 
     Notes
@@ -609,6 +599,7 @@ def track_fronts(
     (a merge) keeps the oldest track id.
     """
     groups = defaultdict(list)
+    track_of, event_of, linked = {}, {}, {}
     for fr in fronts:
         groups[(fr.run, fr.member, float(fr.level_hpa))].append(fr)
     next_id = 1
@@ -620,10 +611,9 @@ def track_fronts(
         fwd = {}  # id(front) -> (child, offsets along the front's own normal [km])
         bwd = {}  # id(front) -> (parent, offsets along the front's own normal [km])
         for f in by_time[times[0]]:
-            f.track = next_id
+            track_of[id(f)] = next_id
             track_start[next_id] = times[0]
-            f.props["track_event"] = "new"
-            f.props["track_parent"] = None
+            event_of[id(f)] = ("new", None)
             next_id += 1
         for t0, t1 in zip(times[:-1], times[1:], strict=False):
             dt = _time_seconds(t1) - _time_seconds(t0)
@@ -659,29 +649,35 @@ def track_fronts(
                     bwd[id(b)] = (olds[best], offs[(best, b_i)][1])
                 if heirs:
                     heir = min(
-                        heirs, key=lambda a_i: (track_start[olds[a_i].track], -over[a_i, b_i])
+                        heirs,
+                        key=lambda a_i: (track_start[track_of[id(olds[a_i])]], -over[a_i, b_i]),
                     )
-                    b.track = olds[heir].track
-                    b.props["track_parent"] = olds[heir].track
-                    b.props["track_event"] = "merge" if len(heirs) > 1 else "continues"
+                    track_of[id(b)] = track_of[id(olds[heir])]
+                    event = "merge" if len(heirs) > 1 else "continues"
+                    event_of[id(b)] = (event, track_of[id(olds[heir])])
                 else:
-                    b.track = next_id
+                    track_of[id(b)] = next_id
                     track_start[next_id] = t1
                     next_id += 1
                     if parents:
-                        b.props["track_event"] = "split"
-                        b.props["track_parent"] = olds[
-                            max(parents, key=lambda a_i: over[a_i, b_i])
-                        ].track
+                        parent = olds[max(parents, key=lambda a_i: over[a_i, b_i])]
+                        event_of[id(b)] = ("split", track_of[id(parent)])
                     else:
-                        b.props["track_event"] = "new"
-                        b.props["track_parent"] = None
+                        event_of[id(b)] = ("new", None)
         for f in group:
             vk = _vertex_speeds(f, fwd.get(id(f)), bwd.get(id(f)))
             w = _vertex_weights_km(f.lon, f.lat)
-            f.props["speed_tracked_ms"] = _json_float(_weighted_median(vk, w))
-            f.props["vn_tracked"] = [_json_float(v, 2) for v in vk]
-    return fronts
+            event, parent = event_of[id(f)]
+            linked[id(f)] = f.replace(
+                track=track_of[id(f)],
+                link=TrackLink(
+                    event=event,
+                    parent=parent,
+                    speed_tracked_ms=json_float(_weighted_median(vk, w)),
+                    vn_tracked=tuple(json_float(v, 2) for v in vk),
+                ),
+            )
+    return [linked[id(f)] for f in fronts]
 
 
 def _vertex_speeds(front, fwd, bwd):
@@ -784,7 +780,7 @@ def speeds_three_ways(
     ----------
     fronts : list of kit.science.fronts.Front
         Fronts of the run ``ds`` (tracked first with :func:`track_fronts` for
-        ``speed_tracked_ms``); changed in place.
+        ``speed_tracked_ms``); not changed.
     ds : xarray.Dataset
         Canonical dataset of the run (``u``, ``v`` on ``steering_level_hpa``;
         ``mslp`` for the rule, else ``z`` on the highest-pressure level).
@@ -811,7 +807,8 @@ def speeds_three_ways(
     Returns
     -------
     list of kit.science.fronts.Front
-        The same fronts with props ``speed_tracked_ms`` (kept, or None),
+        New fronts in the same order with ``front.motion``
+        (:class:`kit.model.FrontMotion`): ``speed_tracked_ms`` (kept, or None),
         ``speed_wind_ms``, ``speed_geostrophic_rule_ms``,
         ``speed_geostrophic_normal_ms`` (the normal geostrophic component
         before the 2/3 or 1 factor), ``speed_rule_source`` (``"mslp"`` or
@@ -833,6 +830,7 @@ def speeds_three_ways(
     """
     sampler = _PointSampler(ds)
     cache = {}
+    out = []
 
     def field(name, t, level, member):
         key = (name, np.datetime64(t, "ns"), level, member)
@@ -872,113 +870,20 @@ def speeds_three_ways(
         vg_n = _weighted_mean(vgn, w)
         rule = _rule_factor(fr.kind, vg_n) * vg_n if np.isfinite(vg_n) else float("nan")
 
-        tracked = fr.props.get("speed_tracked_ms")
+        tracked = fr.link.speed_tracked_ms if fr.link is not None else None
         tracked = float("nan") if tracked is None else float(tracked)
-        fr.props["speed_tracked_ms"] = _json_float(tracked)
-        fr.props["speed_wind_ms"] = _json_float(wind)
-        fr.props["speed_geostrophic_normal_ms"] = _json_float(vg_n)
-        fr.props["speed_geostrophic_rule_ms"] = _json_float(rule)
-        fr.props["speed_rule_source"] = rule_source
-        fr.props["speed_flag"] = _speed_flag(
-            tracked, wind, rule, disagree_frac, qs_speed_ms, fr.kind
+        out.append(
+            fr.replace(
+                motion=FrontMotion(
+                    speed_tracked_ms=json_float(tracked),
+                    speed_wind_ms=json_float(wind),
+                    speed_geostrophic_normal_ms=json_float(vg_n),
+                    speed_geostrophic_rule_ms=json_float(rule),
+                    speed_rule_source=rule_source,
+                    speed_flag=_speed_flag(
+                        tracked, wind, rule, disagree_frac, qs_speed_ms, fr.kind
+                    ),
+                )
+            )
         )
-    return fronts
-
-
-# --------------------------------------------------------------------------
-# whole run
-# --------------------------------------------------------------------------
-#: a lazy (dask) run smaller than this is read into memory once before the
-#: analysis, which samples it many times; larger runs stay lazy [bytes]
-IN_MEMORY_BYTES = 2_000_000_000
-
-
-def _in_memory_if_small(ds):
-    """Read a lazy run into memory once when it is small enough (see IN_MEMORY_BYTES)."""
-    lazy = any(getattr(v.variable, "chunks", None) is not None for v in ds.data_vars.values())
-    if lazy and ds.nbytes <= IN_MEMORY_BYTES:
-        return ds.load()
-    return ds
-
-
-def analyse_run(ds, *, level=850.0, settings=None, member=None):
-    """Fronts of a run with tracks, speeds three ways and slopes.
-
-    The single entry point the command line, arrival tables, sections and
-    charts call.
-
-    Parameters
-    ----------
-    ds : xarray.Dataset
-        Canonical dataset of one run (DEVELOPERS.md).
-    level : float
-        Level the fronts are located on [hPa].
-    settings : kit.science.fronts.FrontSettings, optional
-        Front-finding settings (smoothing, thresholds, steering level,
-        quasi-stationary speed, field).
-    member : int, optional
-        One ensemble member; default every member of the run.
-
-    Returns
-    -------
-    list of kit.science.fronts.Front
-        Every front at every valid time, with ``track`` and props of
-        :func:`track_fronts`, :func:`speeds_three_ways` and
-        :func:`kit.science.structure.add_slopes`.
-    """
-    from kit.science.fronts import FrontSettings, find_fronts
-    from kit.science.structure import add_slopes
-
-    settings = settings if settings is not None else FrontSettings()
-    ds = _in_memory_if_small(ds)
-    if member is not None:
-        members = [member]
-    elif "member" in ds.dims:
-        members = [m.item() for m in ds["member"]]
-    else:
-        members = [None]
-    fronts = []
-    for m in members:
-        found = find_fronts(ds, level=level, member=m, settings=settings)
-        for fr in found:
-            if fr.member is None and m is not None:
-                fr.member = m
-            if fr.run is None:
-                fr.run = ds.attrs.get("run")
-        fronts.extend(found)
-    steering = float(getattr(settings, "steering_level_hpa", 850.0) or 850.0)
-    qs = float(getattr(settings, "qs_speed_ms", 1.5) or 1.5)
-    track_fronts(fronts)
-    speeds_three_ways(fronts, ds, steering_level_hpa=steering, qs_speed_ms=qs)
-    add_slopes(fronts, ds, settings=settings)
-    return fronts
-
-
-def motion_table(fronts):
-    """One row per front with the speeds three ways in m/s and knots and the slopes.
-
-    Parameters
-    ----------
-    fronts : list of kit.science.fronts.Front
-        Analysed fronts (:func:`analyse_run`).
-
-    Returns
-    -------
-    pandas.DataFrame
-        :func:`kit.science.fronts.fronts_table` (without the per-vertex
-        ``vn_tracked``) plus ``speed_tracked_kt``,
-        ``speed_wind_kt``, ``speed_geostrophic_rule_kt`` [kt] (positive toward
-        the cold side); ``attrs["caution"]`` holds :data:`kit.CAUTION`.
-    """
-    from kit.science.fronts import fronts_table
-
-    df = fronts_table(fronts)
-    df = df.drop(
-        columns=[c for c in ("vn_tracked",) if c in df]
-    )  # per-vertex lists: not a table column
-    for name in ("speed_tracked", "speed_wind", "speed_geostrophic_rule"):
-        col = f"{name}_ms"
-        if col in df:
-            df[f"{name}_kt"] = (df[col].astype(float) * KT_PER_MS).round(1)
-    df.attrs["caution"] = CAUTION
-    return df
+    return out

@@ -12,9 +12,13 @@ frontal surface always leans up toward the left, for warm and cold fronts
 alike. Ahead of a warm front and behind a cold front are then both to the
 left of the surface front.
 
-The points follow the geodesic on the WGS84 ellipsoid (pyproj ``Geod``), as
-MetPy's ``cross_section`` does; values are bilinear in latitude/longitude on
-regular grids and bilinear in ``x``/``y`` on projected grids.
+The points follow the great circle on the kit's sphere
+(:data:`kit.constants.EARTH_RADIUS_M`, :mod:`kit.science.geo`), as MetPy's
+``cross_section`` follows the geodesic of the grid's Earth model (within about
+0.5 % of the WGS84 geodesic); values are bilinear in latitude/longitude on
+regular grids and bilinear in ``x``/``y`` on projected grids
+(:class:`kit.science.geo.PointSampler`; points placed through the CF grid
+mapping when the run has one).
 """
 
 import math
@@ -22,9 +26,22 @@ import math
 import numpy as np
 import pandas as pd
 import xarray as xr
+from pyproj import CRS, Transformer
+from scipy.ndimage import gaussian_filter1d
 
 from kit import CAUTION
+from kit.constants import EARTH_RADIUS_KM, EARTH_RADIUS_M, G0, NM_KM, OMEGA, T0_K
 from kit.errors import InputError
+from kit.science import thermo
+from kit.science.geo import (
+    PointSampler,
+    bearing_deg,
+    destination,
+    gradient,
+    great_circle_km,
+    local_east_north_km,
+)
+from kit.timefmt import iso_minutes
 
 __all__ = [
     "section_points",
@@ -37,19 +54,10 @@ __all__ = [
     "fit_frontal_slope",
     "compass_point",
     "select_time",
-    "NM_KM",
     "JET_MIN_MS",
     "RULE_ZONES_NM",
 ]
 
-#: one nautical mile [km]
-NM_KM = 1.852
-#: standard gravity [m s-2]
-G0 = 9.80665
-#: Earth's angular velocity [rad s-1]
-OMEGA = 7.2921159e-5
-#: mean Earth radius used for the metric term of vorticity [m]
-EARTH_RADIUS_M = 6371008.8
 #: lowest core speed called a jet [m s-1]; WMO definition, 30 m/s (from memory)
 JET_MIN_MS = 30.0
 #: dynamic tropopause [PVU]; Hoskins, McIntyre & Robertson (1985); sign flips in the south
@@ -61,12 +69,6 @@ RULE_ZONES_NM = {"warm": (200.0, 300.0), "cold": (50.0, 100.0)}
 
 _REQUIRED = ("t", "td", "u", "v", "z")
 _COMPASS = ("N", "NE", "E", "SE", "S", "SW", "W", "NW")
-
-
-def _geod():
-    from pyproj import Geod
-
-    return Geod(ellps="WGS84")
 
 
 # ---------------------------------------------------------------------------
@@ -104,7 +106,7 @@ def _check_point(point, what):
 
 
 def section_points(start, end, *, steps=None, spacing_km=10.0):
-    """Points along the geodesic from ``start`` to ``end``, both included.
+    """Points along the great circle from ``start`` to ``end``, both included.
 
     Parameters
     ----------
@@ -120,12 +122,12 @@ def section_points(start, end, *, steps=None, spacing_km=10.0):
     lat, lon, distance_km, bearing_deg : ndarray
         Point coordinates [degrees], distance from ``start`` [km] and the
         local bearing of the section at each point [degrees clockwise from
-        north], all of length ``steps``.
+        north], all of length ``steps``; the points are equally spaced on the
+        great circle of the sphere of :data:`kit.constants.EARTH_RADIUS_M`.
     """
     lat0, lon0 = _check_point(start, "section start")
     lat1, lon1 = _check_point(end, "section end")
-    geod = _geod()
-    _, _, total_m = geod.inv(lon0, lat0, lon1, lat1)
+    total_m = great_circle_km(lon0, lat0, lon1, lat1) * 1000.0
     if total_m < 1000.0:
         raise InputError(
             f"section from ({lat0}, {lon0}) to ({lat1}, {lon1}): ends are {total_m:.0f} m apart;"
@@ -138,12 +140,14 @@ def section_points(start, end, *, steps=None, spacing_km=10.0):
     steps = int(steps)
     if steps < 3 or steps > 5001:
         raise InputError(f"steps={steps}: expected 3 to 5001 points along the section")
-    mid = np.array(geod.npts(lon0, lat0, lon1, lat1, steps - 2)).reshape(-1, 2)
-    lon = np.concatenate([[lon0], mid[:, 0], [lon1]])
-    lat = np.concatenate([[lat0], mid[:, 1], [lat1]])
-    az12, az21, seg = geod.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
-    dist = np.concatenate([[0.0], np.cumsum(seg)]) / 1000.0
-    bearing = np.concatenate([az12, [az21[-1] + 180.0]]) % 360.0
+    dist = np.linspace(0.0, total_m / 1000.0, steps)
+    lon, lat = destination(np.full(steps - 2, lon0), np.full(steps - 2, lat0),
+                           bearing_deg(lon0, lat0, lon1, lat1), dist[1:-1])
+    lon = np.concatenate([[lon0], lon, [lon1]])
+    lat = np.concatenate([[lat0], lat, [lat1]])
+    # local bearing: toward the end along the great circle; at the end, away from the start
+    bearing = np.append(bearing_deg(lon[:-1], lat[:-1], lon1, lat1),
+                        (bearing_deg(lon1, lat1, lon0, lat0) + 180.0) % 360.0)
     return lat, lon, dist, bearing
 
 
@@ -161,33 +165,11 @@ def _grid_km(ds):
         dx = ds.attrs.get("dx_m") or float(abs(ds["x"].values[1] - ds["x"].values[0]))
         return float(dx) / 1000.0
     dlat = float(np.abs(np.diff(ds["lat"].values)).mean())
-    return dlat * 111.195
+    return float(np.deg2rad(dlat) * EARTH_RADIUS_KM)
 
 
-def _latlon_targets(ds, lat, lon):
-    """Interpolation targets on a regular grid; pads a global grid across its seam."""
-    glon = ds["lon"].values.astype(float)
-    if glon.size > 1 and np.any(np.diff(glon) <= 0):
-        raise InputError(f"run {ds.attrs.get('run', '?')}: longitudes not ascending; expected "
-                         "the canonical grid (kit.io.runs.open_run)")
-    dlon = float(np.median(np.diff(glon))) if glon.size > 1 else 360.0
-    plon = glon[0] + np.mod(lon - glon[0], 360.0)
-    is_global = abs(glon[-1] - glon[0] + dlon - 360.0) < 0.5 * dlon
-    if is_global:
-        ds = xr.concat(
-            [ds.isel(lon=[-1]).assign_coords(lon=[glon[-1] - 360.0]), ds,
-             ds.isel(lon=[0]).assign_coords(lon=[glon[0] + 360.0])],
-            dim="lon",
-        )
-    return ds, {"lat": xr.DataArray(lat, dims="distance"),
-                "lon": xr.DataArray(plon, dims="distance")}
-
-
-def _projected_targets(ds, lat, lon):
-    """Map section points to ``x``/``y`` through the CF grid mapping, or by triangulation."""
-    from pyproj import CRS, Proj, Transformer
-
-    crs = None
+def _grid_crs(ds):
+    """The CF grid mapping of a projected run as a pyproj CRS, or None."""
     gm_name = None
     for name in ("t", "u", "z"):
         if name in ds and "grid_mapping" in ds[name].attrs:
@@ -196,39 +178,34 @@ def _projected_targets(ds, lat, lon):
     for cand in (gm_name, "crs", "grid_mapping", "projection"):
         if cand and cand in ds.variables and "grid_mapping_name" in ds[cand].attrs:
             try:
-                crs = CRS.from_cf(dict(ds[cand].attrs))
-            except Exception:  # noqa: BLE001 - fall back to triangulation below
-                crs = None
-            break
-    if crs is not None:
-        tr = Transformer.from_crs("EPSG:4326", crs, always_xy=True)
-        x, y = tr.transform(lon, lat)
-    else:
-        from scipy.interpolate import LinearNDInterpolator
-
-        glat = np.asarray(ds["lat"].values, float)
-        glon = np.asarray(ds["lon"].values, float)
-        proj = Proj(proj="aeqd", lat_0=float(np.mean(lat)), lon_0=float(np.mean(lon)),
-                    ellps="WGS84")
-        gx, gy = proj(glon, glat)
-        px, py = proj(lon, lat)
-        reach = np.hypot(px, py).max() + 5.0 * _grid_km(ds) * 1000.0
-        near = np.hypot(gx, gy) <= reach
-        if near.sum() < 4:
-            x = y = np.full(lat.shape, np.nan)
-        else:
-            xx, yy = np.meshgrid(ds["x"].values, ds["y"].values)
-            f = LinearNDInterpolator(np.column_stack([gx[near], gy[near]]),
-                                     np.column_stack([xx[near], yy[near]]))
-            xy = f(np.column_stack([px, py]))
-            x, y = xy[:, 0], xy[:, 1]
-    return ds, {"x": xr.DataArray(np.asarray(x, float), dims="distance"),
-                "y": xr.DataArray(np.asarray(y, float), dims="distance")}
+                return CRS.from_cf(dict(ds[cand].attrs))
+            except Exception:  # noqa: BLE001 - fall back to the 2-D lat/lon
+                return None
+    return None
 
 
-def _interp(grid_ds, targets):
-    """Bilinear values at the targets; NaN outside the grid."""
-    return grid_ds.interp(targets, method="linear")
+def _coord_index(coord, value):
+    """Fractional index of values in a monotonic 1-D coordinate; NaN outside."""
+    coord = np.asarray(coord, float)
+    idx = np.arange(float(coord.size))
+    if coord[-1] < coord[0]:
+        coord, idx = coord[::-1], idx[::-1]
+    return np.interp(np.asarray(value, float), coord, idx, left=np.nan, right=np.nan)
+
+
+def _grid_index(ds, lat, lon):
+    """Fractional (row, column) of the section points on the grid; NaN outside.
+
+    A projected run with a CF grid mapping places the points exactly through
+    pyproj (then bilinear in x/y); every other grid through
+    :class:`kit.science.geo.PointSampler`.
+    """
+    if _is_projected(ds) and "x" in ds.dims and "y" in ds.dims:
+        crs = _grid_crs(ds)
+        if crs is not None:
+            x, y = Transformer.from_crs("EPSG:4326", crs, always_xy=True).transform(lon, lat)
+            return _coord_index(ds["y"].values, y), _coord_index(ds["x"].values, x)
+    return PointSampler(ds).index(lon, lat)
 
 
 def select_time(ds, time):
@@ -249,7 +226,7 @@ def select_time(ds, time):
     """
     times = np.atleast_1d(ds["time"].values).astype("datetime64[ns]")
     run = ds.attrs.get("run", "?")
-    span = f"{_iso(times[0])} to {_iso(times[-1])}"
+    span = f"{iso_minutes(times[0])} to {iso_minutes(times[-1])}"
     if time is None:
         if times.size == 1:
             return times[0]
@@ -266,13 +243,9 @@ def select_time(ds, time):
     diff = np.abs(times - want)
     k = int(np.argmin(diff))
     if diff[k] > np.timedelta64(60, "s"):
-        raise InputError(f"time {_iso(want)}: not a valid time of run {run}; the run covers "
+        raise InputError(f"time {iso_minutes(want)}: not a valid time of run {run}; the run covers "
                          f"{span} ({times.size} times)")
     return times[k]
-
-
-def _iso(t):
-    return pd.Timestamp(t).strftime("%Y-%m-%dT%H:%MZ")
 
 
 def _select_member(ds, member):
@@ -312,30 +285,26 @@ def _at_time(ds, time, member):
     return one, t
 
 
-def _window(ds, targets, margin=3):
+def _window(ds, j, i, margin=3):
     """Cut the grid to the section's box plus ``margin`` points (lazy), for large grids.
 
     PV needs centred differences around the points used by the bilinear
-    interpolation, hence the margin. A global grid crossed at its seam keeps
-    all longitudes.
+    interpolation, hence the margin. A section through the wrapping cell of a
+    global grid keeps all longitudes. Returns the cut grid and the fractional
+    indices of the points on it.
     """
-    out = ds
-    for dim in _horizontal_dims(ds):
-        if dim not in targets:
-            continue
-        coord = np.asarray(ds[dim].values, float)
-        want = np.asarray(targets[dim].values, float)
-        want = want[np.isfinite(want)]
-        if want.size == 0 or coord.size < 2 * margin + 2:
-            continue
-        if dim == "lon" and np.ptp(want) > 180.0:
-            continue
-        step = float(np.median(np.abs(np.diff(coord))))
-        inside = np.flatnonzero((coord >= want.min() - margin * step)
-                                & (coord <= want.max() + margin * step))
-        if inside.size >= 2:
-            out = out.isel({dim: slice(int(inside[0]), int(inside[-1]) + 1)})
-    return out
+    ydim, xdim = _horizontal_dims(ds)
+    ny, nx = ds.sizes[ydim], ds.sizes[xdim]
+    ok = np.isfinite(j) & np.isfinite(i)
+    if not ok.any():
+        return ds, j, i
+    j0 = max(int(np.floor(j[ok].min())) - margin, 0)
+    j1 = min(int(np.ceil(j[ok].max())) + 1 + margin, ny)
+    i0 = max(int(np.floor(i[ok].min())) - margin, 0)
+    i1 = min(int(np.ceil(i[ok].max())) + 1 + margin, nx)
+    if i[ok].max() > nx - 1:
+        i0, i1 = 0, nx
+    return ds.isel({ydim: slice(j0, j1), xdim: slice(i0, i1)}), j - j0, i - i0
 
 
 # ---------------------------------------------------------------------------
@@ -374,8 +343,6 @@ def potential_vorticity(theta, u, v, grid):
     one-sided ends, ``p`` in Pa. MetPy's ``potential_vorticity_baroclinic`` is a
     second implementation (tests/test_sections.py).
     """
-    from kit.science.geo import gradient
-
     p_pa = theta["level"].astype(float) * 100.0
 
     def ddp(f):
@@ -398,34 +365,8 @@ def potential_vorticity(theta, u, v, grid):
     return pv
 
 
-def _highest_crossing(values, target, z, logp):
-    """Height and pressure of the highest crossing of ``target`` in each column.
-
-    ``values``, ``z``, ``logp`` are (level, n) with level 0 the lowest (highest
-    pressure). Returns (z_cross [m], p_cross [hPa]), NaN where the column never
-    crosses. Linear in height for z, linear in log-pressure for p.
-    """
-    d = values - target
-    lo, hi = d[:-1], d[1:]
-    cross = np.isfinite(lo) & np.isfinite(hi) & (lo * hi <= 0) & ~((lo == 0) & (hi == 0))
-    nlay = cross.shape[0]
-    any_cross = cross.any(axis=0)
-    k = nlay - 1 - np.argmax(cross[::-1], axis=0)  # highest layer with a crossing
-    cols = np.arange(values.shape[1])
-    a, b = lo[k, cols], hi[k, cols]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        w = np.where(a == b, 0.0, a / (a - b))
-    zc = z[k, cols] + w * (z[k + 1, cols] - z[k, cols])
-    pc = np.exp(logp[k, cols] + w * (logp[k + 1, cols] - logp[k, cols]))
-    zc = np.where(any_cross, zc, np.nan)
-    pc = np.where(any_cross, pc, np.nan)
-    return zc, pc
-
-
 def _nan_gaussian_1d(y, sigma_pts):
     """NaN-aware Gaussian smoothing of a 1-D profile (normalised convolution)."""
-    from scipy.ndimage import gaussian_filter1d
-
     if sigma_pts <= 0:
         return y.copy()
     ok = np.isfinite(y)
@@ -619,28 +560,17 @@ def fit_frontal_slope(position_km, height_m):
 # ---------------------------------------------------------------------------
 def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
            reference_hpa=850.0, front_kind=None, smoothing_km=None):
-    from kit.science import thermo
-
     one, t_valid = _at_time(ds, time, member)
-    if _is_projected(one):
-        _, targets = _projected_targets(one, lat, lon)
-    else:
-        glon = one["lon"].values.astype(float)
-        targets = {"lat": xr.DataArray(lat, dims="distance"),
-                   "lon": xr.DataArray(glon[0] + np.mod(lon - glon[0], 360.0), dims="distance")}
-    one = _window(one, targets).load()
+    j, i = _grid_index(one, lat, lon)
+    one, j, i = _window(one, j, i)
+    one = one.load()
 
     levels = one["level"].values.astype(float)
     p = xr.DataArray(levels, dims="level", coords={"level": levels})
     theta3 = thermo.potential_temperature(one["t"], p)
     pv3 = potential_vorticity(theta3, one["u"], one["v"], one)
     one = one.assign(pv=pv3)
-    if _is_projected(one):
-        grid, targets = _projected_targets(one, lat, lon)
-    else:
-        grid, targets = _latlon_targets(one, lat, lon)
-    grid = grid.drop_vars([c for c in grid.coords if c not in grid.dims])
-    flat = _interp(grid, targets)
+    flat = PointSampler(one).sample_dataset(one, index=(j, i), nan="propagate", dim="distance")
     dims2 = ("level", "distance")
     drop = [c for c in flat.coords if c not in ("level",)]
     flat = flat.drop_vars(drop).assign_coords(distance=("distance", dist))
@@ -688,20 +618,22 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
                                            "local bearing of the section, clockwise from north"})
 
     zz = sec["z"].values
-    logp = np.log(np.broadcast_to(levels[:, None], zz.shape))
-    for name, field, target, long in (
-        ("freezing_level", sec["t"].values, 273.15, "0 C level (highest crossing)"),
-        ("wet_bulb_freezing_level", sec["tw"].values, 273.15,
-         "wet-bulb 0 C level (highest crossing)"),
-        ("dynamic_tropopause", sec["pv"].values * np.where(lat < 0, -1.0, 1.0)[None, :],
-         TROPOPAUSE_PVU, "dynamic tropopause: highest crossing of 2 PVU (-2 PVU south of the "
+    pp3 = np.broadcast_to(levels[:, None], zz.shape)
+    hemi = np.where(lat < 0, -1.0, 1.0)
+    for name, (zc, pc), long in (
+        ("freezing_level", thermo.freezing_level(sec["t"].values, zz, dim=0, p=pp3),
+         "0 C level (highest 0 C crossing; the lowest level where the column is below 0 C)"),
+        ("wet_bulb_freezing_level", thermo.freezing_level(sec["tw"].values, zz, dim=0, p=pp3),
+         "wet-bulb 0 C level (highest crossing; the lowest level where the column is below 0 C)"),
+        ("dynamic_tropopause",
+         thermo.level_crossing(sec["pv"].values * hemi[None, :], zz, TROPOPAUSE_PVU, dim=0,
+                               p=pp3),
+         "dynamic tropopause: highest crossing of 2 PVU (-2 PVU south of the "
          "equator), Hoskins, McIntyre & Robertson (1985)"),
     ):
-        zc, pc = _highest_crossing(field, target, zz, logp)
         sec[f"{name}_m"] = ("distance", zc, {"units": "m", "long_name": long})
         sec[f"{name}_hpa"] = ("distance", pc, {"units": "hPa", "long_name": long})
-    sec["pv_hemispheric"] = (sec["pv"] * xr.DataArray(np.where(lat < 0, -1.0, 1.0),
-                                                      dims="distance")).transpose(*dims2)
+    sec["pv_hemispheric"] = (sec["pv"] * xr.DataArray(hemi, dims="distance")).transpose(*dims2)
     sec["pv_hemispheric"].attrs = {"units": "1e-6 K m2 kg-1 s-1",
                                    "long_name": "potential vorticity times the "
                                    "sign of latitude (2 on the dynamic tropopause)"}
@@ -722,7 +654,7 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
         "title": "frontshift vertical cross-section",
         "run": str(ds.attrs.get("run", "")),
         "source": str(ds.attrs.get("source", "")),
-        "valid_time": _iso(t_valid),
+        "valid_time": iso_minutes(t_valid),
         "caution": CAUTION,
         "grid_km": _grid_km(one),
         "start_lat": float(lat[0]), "start_lon": float(lon[0]),
@@ -731,13 +663,11 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
         "points_outside_grid": int((~np.isfinite(sec["t"].values).any(axis=0)).sum()),
     }
     mid = len(lat) // 2
-    back, _, _ = _geod().inv(lon[mid], lat[mid], lon[0], lat[0])
-    fwd, _, _ = _geod().inv(lon[mid], lat[mid], lon[-1], lat[-1])
-    attrs["compass_start"] = compass_point(back)
-    attrs["compass_end"] = compass_point(fwd)
+    attrs["compass_start"] = compass_point(bearing_deg(lon[mid], lat[mid], lon[0], lat[0]))
+    attrs["compass_end"] = compass_point(bearing_deg(lon[mid], lat[mid], lon[-1], lat[-1]))
     if "reference_time" in ds.coords:
         rt = np.datetime64(ds["reference_time"].values, "ns")
-        attrs["reference_time"] = _iso(rt)
+        attrs["reference_time"] = iso_minutes(rt)
         attrs["lead_h"] = float((t_valid - rt) / np.timedelta64(1, "h"))
     if np.isfinite(ws).any():
         k, j = np.unravel_index(np.nanargmax(ws), ws.shape)
@@ -877,15 +807,6 @@ def _point_of(site_or_point):
     return lat, lon, ""
 
 
-def _local_km(lon, lat, lon0, lat0):
-    """East/north [km] of points in an azimuthal equidistant plane about (lon0, lat0)."""
-    from pyproj import Proj
-
-    proj = Proj(proj="aeqd", lat_0=lat0, lon_0=lon0, ellps="WGS84")
-    x, y = proj(np.asarray(lon, float), np.asarray(lat, float))
-    return np.asarray(x) / 1000.0, np.asarray(y) / 1000.0
-
-
 def _nearest_on_line(x, y):
     """Nearest point of polyline (x, y) [km] to the origin: (px, py, seg index, t)."""
     best = (np.inf, 0.0, 0.0, 0, 0.0)
@@ -902,7 +823,8 @@ def _nearest_on_line(x, y):
 
 
 def _front_distance_km(front, lat, lon):
-    x, y = _local_km(front.lon, front.lat, lon, lat)
+    x, y = local_east_north_km(np.asarray(front.lon, float), np.asarray(front.lat, float),
+                               lon, lat)
     if len(x) == 1:
         return float(math.hypot(x[0], y[0]))
     return float(_nearest_on_line(x, y)[0])
@@ -943,7 +865,7 @@ def pick_front(fronts, point, *, kind="nearest", time=None):
     if not found:
         have = ", ".join(f"{sum(f.kind == k for f in pool)} {k}"
                          for k in ("warm", "cold", "quasi-stationary"))
-        when = f" at {_iso(want)}" if time is not None else ""
+        when = f" at {iso_minutes(want)}" if time is not None else ""
         raise InputError(f"no {'' if kind == 'nearest' else kind + ' '}front{when}; fronts "
                          f"found there: {have}")
     return min(found, key=lambda f: _front_distance_km(f, lat, lon))
@@ -996,7 +918,8 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
         m = len(front.lon) // 2
         p = (float(front.lat[m]), float(front.lon[m]), "")
     slat, slon, sname = p
-    x, y = _local_km(front.lon, front.lat, slon, slat)
+    x, y = local_east_north_km(np.asarray(front.lon, float), np.asarray(front.lat, float),
+                               slon, slat)
     _, px, py, i, t = _nearest_on_line(x, y)
     tx, ty = x[i + 1] - x[i], y[i + 1] - y[i]
     tl = math.hypot(tx, ty)
@@ -1015,11 +938,9 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
     L = float(length_km)
     c = s_front if abs(s_front) <= 0.4 * L else 0.5 * s_front
     s0, s1 = c - L / 2.0, c + L / 2.0
-    geod = _geod()
 
     def at(s):
-        az = bearing if s >= 0 else bearing + 180.0
-        lo, la, _ = geod.fwd(slon, slat, az, abs(s) * 1000.0)
+        lo, la = destination(slon, slat, bearing, s)  # s < 0: the other way
         return la, lo
 
     lat, lon, dist, brg = section_points(at(s0), at(s1), steps=steps, spacing_km=spacing_km)
@@ -1040,13 +961,15 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
                      site_lat=slat, site_lon=slon, section_bearing_deg=float(bearing))
     if front.track is not None:
         sec.attrs["front_track"] = int(front.track)
-    speed = front.props.get("speed_tracked_ms", front.speed_ms) if front.props else front.speed_ms
+    # a tracked front moves at its tracked speed (none where its track has one time only);
+    # a front that was never tracked at its normal wind
+    speed = front.speed_tracked_ms if front.link is not None else front.speed_ms
     if speed is not None and np.isfinite(speed):
         sec.attrs["front_speed_ms"] = float(speed)
     return sec
 
 
-def section_for_site(ds, site, time, *, front="nearest", fronts=None, length_km=1200.0,
+def section_for_site(ds, site, time, *, fronts, front="nearest", length_km=1200.0,
                      spacing_km=10.0, level=850.0, member=None):
     """Section through a site across the chosen front at one valid time.
 
@@ -1060,9 +983,10 @@ def section_for_site(ds, site, time, *, front="nearest", fronts=None, length_km=
         Valid time (UTC).
     front : {"nearest", "warm", "cold", "quasi-stationary"}
         Which front to cut across.
-    fronts : list of kit.science.fronts.Front, optional
-        Fronts already found; default :func:`kit.science.fronts.find_fronts` at
-        ``level`` and ``time``.
+    fronts : list of kit.model.Front
+        The fronts of the shift's analysis (:func:`kit.pipeline.analyse`); the
+        section never looks for fronts of its own, so it shows the fronts the
+        map and the arrival table show.
     length_km, spacing_km : float
         Section length and point spacing [km].
     level : float
@@ -1081,10 +1005,12 @@ def section_for_site(ds, site, time, *, front="nearest", fronts=None, length_km=
     _require_data_at(_select_member(ds, member), t)
     if member is None and "member" in ds.dims and ds.sizes["member"] == 1:
         member = int(ds["member"].values[0])
-    if fronts is None:
-        from kit.science.fronts import find_fronts
-
-        fronts = find_fronts(ds, level=level, times=[t], member=member)
+    if fronts is None or isinstance(fronts, (str, bytes)):
+        raise InputError(
+            "section_for_site: no fronts given; expected the fronts of the shift's analysis "
+            "(kit.analyse(run).fronts)"
+        )
+    fronts = list(fronts)
     pt = _point_of(site)
     try:
         f = pick_front(fronts, (pt[0], pt[1]), kind=front, time=t)
@@ -1100,10 +1026,10 @@ def _require_data_at(ds, t):
     if bool(ds["t"].sel(time=t).notnull().any()):
         return
     have = ds["t"].notnull().any([d for d in ds["t"].dims if d != "time"]).values
-    good = [_iso(x) for x, ok in zip(ds["time"].values, have, strict=True) if ok]
+    good = [iso_minutes(x) for x, ok in zip(ds["time"].values, have, strict=True) if ok]
     listed = ", ".join(good[:6]) + (" ..." if len(good) > 6 else "")
     raise InputError(
-        f"--time {_iso(t)}: no data at this valid time (all values missing) in run "
+        f"--time {iso_minutes(t)}: no data at this valid time (all values missing) in run "
         f"{ds.attrs.get('run', '?')}; expected a time with data: {listed or 'none'}"
     )
 
@@ -1112,22 +1038,20 @@ def _section_along_gradient(ds, site, t, member, length_km, spacing_km, level):
     """Fallback without a front: through the site along the theta-w gradient."""
     slat, slon, sname = _point_of(site)
     # probe theta-w 100 km east/west/north/south of the site on `level`
-    geod = _geod()
-    pts = [geod.fwd(slon, slat, az, 100e3)[:2] for az in (90.0, 270.0, 0.0, 180.0)]
-    lat = np.array([p[1] for p in pts])
-    lon = np.array([p[0] for p in pts])
+    lon, lat = destination(np.full(4, slon), np.full(4, slat),
+                           np.array([90.0, 270.0, 0.0, 180.0]), 100.0)
     probe = _build(ds, lat, lon, np.array([0.0, 200.0, 400.0, 600.0]), np.zeros(4), t, member)
     tw = probe["theta_w"].sel(level=level, method="nearest").values
     ge, gn = tw[0] - tw[1], tw[2] - tw[3]
     bearing = math.degrees(math.atan2(ge, gn)) % 360.0 if np.isfinite([ge, gn]).all() and \
         (ge or gn) else 90.0
     half = length_km / 2.0
-    a = geod.fwd(slon, slat, bearing + 180.0, half * 1000.0)
-    b = geod.fwd(slon, slat, bearing, half * 1000.0)
+    a = destination(slon, slat, bearing, -half)
+    b = destination(slon, slat, bearing, half)
     sec = section_between(ds, (a[1], a[0]), (b[1], b[0]), spacing_km=spacing_km, time=t,
                           member=member)
     sec.attrs.update(front_kind="", site_km=float(half), site_name=sname, site_lat=slat,
                      site_lon=slon, section_bearing_deg=float(bearing),
-                     note=f"no front at {_iso(t)}; section along the {level:.0f} hPa theta-w "
+                     note=f"no front at {iso_minutes(t)}; section along the {level:.0f} hPa theta-w "
                      "gradient, cold to warm")
     return sec

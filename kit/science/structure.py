@@ -28,11 +28,12 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
+from kit.constants import TYPICAL_SLOPE_1_IN
 from kit.errors import InputError
+from kit.model import FrontStructure, json_float
 from kit.science.motion import (
     G0,
     _destination,
-    _json_float,
     _PointSampler,
     _select,
     coriolis_parameter,
@@ -41,7 +42,6 @@ from kit.science.motion import (
 
 __all__ = [
     "DEFAULT_LEVELS",
-    "TYPICAL_SLOPE_1_IN",
     "margules_slope",
     "front_slope",
     "front_margules_slope",
@@ -50,8 +50,6 @@ __all__ = [
 
 #: levels the front is looked for to measure its slope [hPa]
 DEFAULT_LEVELS = (925.0, 850.0, 700.0, 600.0, 500.0)
-#: typical slopes, N of 1 in N (common practice, no source)
-TYPICAL_SLOPE_1_IN = {"warm": 150.0, "cold": 50.0}
 #: first guess of N when stepping from the front's level to the next one
 _FIRST_GUESS_1_IN = {"warm": 150.0, "cold": 50.0, "quasi-stationary": 100.0}
 
@@ -122,7 +120,7 @@ def _levels_present(ds, levels):
 
 
 def _smoothing_km(ds, settings):
-    """Smoothing scale [km]: the fronts' own (kit.science.fronts.effective_smoothing_km) where known."""
+    """Smoothing scale [km]: the fronts' own (fronts.effective_smoothing_km) where known."""
     from kit.science.geo import grid_length_km
 
     if settings is None or hasattr(settings, "smoothing_grid_lengths"):
@@ -462,12 +460,12 @@ def add_slopes(
     margules_offset_km=250.0,
     field_name="theta",
 ):
-    """Put the slopes of every front into its props.
+    """Measure the slope of every front: new fronts with ``structure`` filled in.
 
     Parameters
     ----------
     fronts : list of kit.science.fronts.Front
-        Fronts of the run ``ds``; changed in place.
+        Fronts of the run ``ds`` (not changed).
     ds : xarray.Dataset
         Canonical dataset of the run.
     settings : kit.science.fronts.FrontSettings, optional
@@ -482,19 +480,28 @@ def add_slopes(
     Returns
     -------
     list of kit.science.fronts.Front
-        The same fronts with props ``slope_1_in``, ``slope_scatter``,
+        New fronts in the same order with ``front.structure``
+        (:class:`kit.model.FrontStructure`): ``slope_1_in``, ``slope_scatter``,
         ``slope_margules_1_in`` and ``slope_typical_1_in`` (N of 1 in N;
         None where not available).
     """
     if not fronts:
-        return fronts
+        return []
     fields = _Fields(ds, settings, field_name=field_name)
+    out = []
     for fr in fronts:
         res = front_slope(fr, ds, levels, settings=settings, _fields=fields)
-        fr.props["slope_1_in"] = _json_float(res["slope_1_in"], 0)
-        fr.props["slope_scatter"] = _json_float(res["scatter"], 0)
-        fr.props["slope_margules_1_in"] = _json_float(
-            front_margules_slope(fr, ds, offset_km=margules_offset_km, _sampler=fields.sampler), 0
+        margules = front_margules_slope(
+            fr, ds, offset_km=margules_offset_km, _sampler=fields.sampler
         )
-        fr.props["slope_typical_1_in"] = _json_float(TYPICAL_SLOPE_1_IN.get(fr.kind))
-    return fronts
+        out.append(
+            fr.replace(
+                structure=FrontStructure(
+                    slope_1_in=json_float(res["slope_1_in"], 0),
+                    slope_scatter=json_float(res["scatter"], 0),
+                    slope_margules_1_in=json_float(margules, 0),
+                    slope_typical_1_in=json_float(TYPICAL_SLOPE_1_IN.get(fr.kind)),
+                )
+            )
+        )
+    return out

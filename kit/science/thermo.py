@@ -41,6 +41,7 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 import xarray as xr
 
+from kit.constants import KAPPA, T0_K
 from kit.errors import InputError
 
 __all__ = [
@@ -62,17 +63,18 @@ __all__ = [
     "wet_bulb_temperature",
     "theta_w_of",
     "level_field",
+    "level_crossing",
     "freezing_level",
     "wet_bulb_freezing_level",
     "warm_layer_aloft",
 ]
 
-#: Poisson exponent R_d / c_pd of dry air used in theta-e [1] (Bolton 1980, Eq. 39: 0.2854).
-KAPPA = 0.2854
+# KAPPA (R_d / c_pd = 0.2854 of Bolton 1980, Eq. 39) comes from kit.constants and keeps
+# its public name here.
 #: Ratio of the gas constants of dry air and water vapour, R_d / R_v [1].
 EPSILON = 0.622
-#: 0 C in kelvin [K].
-T0C = 273.15
+#: 0 C in kelvin [K] (:data:`kit.constants.T0_K`).
+T0C = T0_K
 _P0 = 1000.0  # reference pressure [hPa]
 
 # Bolton (1980) Eq. 10 constants: es = 6.112 exp(17.67 Tc / (Tc + 243.5)) [hPa]
@@ -927,33 +929,65 @@ def _sorted_columns(t, z):
     return np.take_along_axis(t, order, -1), np.take_along_axis(z, order, -1)
 
 
-def _freezing_level_kernel(t, z):
-    """Highest warm-below/cold-above 0 C crossing in each column (vertical axis last)."""
-    t, z = np.broadcast_arrays(_float(t), _float(z))
-    t, z = _sorted_columns(t, z)
-    tc = t - T0C
-    valid = np.isfinite(tc) & np.isfinite(z)
-    warm = valid & (tc >= 0)
-    cold = valid & (tc < 0)
-    lo_warm, hi_cold = warm[..., :-1], cold[..., 1:]
-    cross = lo_warm & hi_cold
+def _crossing_kernel(x, z, logp, value, sense, lowest_if_below):
+    """Highest crossing of ``value`` by ``x`` in each column (vertical axis last).
+
+    ``sense``: "falling" (x >= value below, x < value above), "rising" (the
+    reverse) or "any". ``lowest_if_below``: a column with valid values all
+    below ``value`` gives the lowest valid height (else NaN). Returns the
+    height, and the pressure (interpolated in ``logp``) when ``logp`` is given.
+    """
+    arrays = [_float(x), _float(z)] + ([] if logp is None else [_float(logp)])
+    arrays = np.broadcast_arrays(*arrays)
+    order = np.argsort(np.where(np.isfinite(arrays[1]), arrays[1], np.inf), axis=-1,
+                       kind="stable")
+    x, z, *lp = (np.take_along_axis(a, order, -1) for a in arrays)
+    d = x - value
+    valid = np.isfinite(d) & np.isfinite(z)
+    above = valid & (d >= 0)
+    below = valid & (d < 0)
+    falling = above[..., :-1] & below[..., 1:]
+    rising = below[..., :-1] & above[..., 1:]
+    cross = {"falling": falling, "rising": rising, "any": falling | rising}[sense]
     n = cross.shape[-1]
     # highest crossing: last True along the axis
-    k_last = n - 1 - np.argmax(cross[..., ::-1], axis=-1)
     any_cross = cross.any(axis=-1)
-    k = np.where(any_cross, k_last, 0)[..., None]
-    t0 = np.take_along_axis(tc, k, -1)[..., 0]
-    t1 = np.take_along_axis(tc, k + 1, -1)[..., 0]
-    z0 = np.take_along_axis(z, k, -1)[..., 0]
-    z1 = np.take_along_axis(z, k + 1, -1)[..., 0]
+    k = np.where(any_cross, n - 1 - np.argmax(cross[..., ::-1], axis=-1), 0)[..., None]
+    d0 = np.take_along_axis(d, k, -1)[..., 0]
+    d1 = np.take_along_axis(d, k + 1, -1)[..., 0]
     with np.errstate(divide="ignore", invalid="ignore"):
-        zc = z0 + (z1 - z0) * t0 / (t0 - t1)
-    # columns without a crossing: all sub-zero -> lowest valid height; otherwise NaN
-    has_valid = valid.any(axis=-1)
+        w = d0 / (d0 - d1)
     first_valid = np.argmax(valid, axis=-1)[..., None]
-    z_low = np.take_along_axis(z, first_valid, -1)[..., 0]
-    all_cold = has_valid & ~(warm.any(axis=-1))
-    out = np.where(any_cross, zc, np.where(all_cold, z_low, np.nan))
+    all_below = valid.any(axis=-1) & ~above.any(axis=-1)
+    fill = all_below if lowest_if_below else np.zeros_like(any_cross)
+    outs = []
+    for a in [z] + lp:
+        a0 = np.take_along_axis(a, k, -1)[..., 0]
+        a1 = np.take_along_axis(a, k + 1, -1)[..., 0]
+        low = np.take_along_axis(a, first_valid, -1)[..., 0]
+        outs.append(np.where(any_cross, a0 + w * (a1 - a0), np.where(fill, low, np.nan)))
+    if logp is None:
+        return outs[0]
+    return outs[0], np.exp(outs[1])
+
+
+def _crossing_call(x, z, value, dim, p, sense, lowest_if_below, names, attrs):
+    """Shared front end of :func:`level_crossing` and :func:`freezing_level`."""
+    z = _profile_like(z, x, dim, "heights")
+    arrays = [x, z]
+    if p is not None:
+        p = _profile_like(p, x, dim, "pressure")
+        arrays.append(np.log(p))
+    n_out = 1 if p is None else 2
+
+    def kernel(*a):
+        return _crossing_kernel(a[0], a[1], a[2] if len(a) > 2 else None, value, sense,
+                                lowest_if_below)
+
+    out = _profile_apply(kernel, arrays, dim, n_out, names[:n_out],
+                         attrs if p is None else {"long_name": attrs["long_name"]})
+    if p is not None and isinstance(out[0], xr.DataArray):
+        out[0].attrs["units"], out[1].attrs["units"] = "m", "hPa"
     return out
 
 
@@ -982,19 +1016,72 @@ def _profile_apply(kernel, arrays, dim, n_out, names, attrs):
     return tuple(r[()] if np.ndim(r) == 0 else r for r in res)
 
 
-def freezing_level(t, z, *, dim="level"):
+def level_crossing(x, z, value, *, dim="level", p=None, sense="any"):
+    """Height of the highest level at which a profile crosses a value, in each column.
+
+    Parameters
+    ----------
+    x : array_like or xarray.DataArray
+        Any quantity on levels (temperature [K], potential vorticity [PVU], ...).
+    z : array_like or xarray.DataArray
+        Height of each level [m], same shape as ``x`` or broadcastable to it.
+    value : float
+        The value crossed [unit of ``x``].
+    dim : str or int
+        Vertical dimension name (xarray) or axis number (numpy; may be omitted
+        for a single 1-D profile). Levels may come in either order.
+    p : array_like or xarray.DataArray, optional
+        Pressure of each level [hPa]; when given the pressure of the crossing
+        is returned too.
+    sense : {"any", "falling", "rising"}
+        Which crossings count: either way, ``x`` falling through ``value``
+        going upward (at or above it below, under it above), or rising.
+
+    Returns
+    -------
+    z_cross : same kind as the input, without the vertical dimension
+        Height [m] of the highest crossing, linear in height between the two
+        levels around it; NaN where the column does not cross. Missing values
+        (NaN, e.g. levels below ground) are skipped.
+    p_cross : same kind, only when ``p`` is given
+        Pressure there [hPa], linear in log-pressure with the same weight.
+
+    Examples
+    --------
+    The dynamic tropopause (2 PVU) of a profile rising from 0.5 to 4 PVU:
+
+    >>> zc, pc = level_crossing(np.array([0.5, 1.0, 4.0]), np.array([5e3, 9e3, 11e3]), 2.0,
+    ...                         p=np.array([500.0, 300.0, 200.0]))
+    >>> round(float(zc)), round(float(pc), 1)
+    (9667, 262.1)
+    """
+    if sense not in ("any", "falling", "rising"):
+        raise InputError(f"level_crossing: sense={sense!r}; expected 'any', 'falling' or 'rising'")
+    return _crossing_call(x, z, float(value), dim, p, sense, False,
+                          ["z_cross_m", "p_cross_hpa"],
+                          {"units": "m", "long_name": f"height of the highest crossing of {value}"})
+
+
+def freezing_level(t, z, *, dim="level", p=None):
     """Height of the highest 0 C crossing in each column (the freezing level).
+
+    The one 0 C level of the kit: sections, site series and products take it
+    from here.
 
     Parameters
     ----------
     t : array_like or xarray.DataArray
-        Air temperature [K] on levels.
+        Air temperature [K] on levels (or wet-bulb temperature for the
+        wet-bulb freezing level).
     z : array_like or xarray.DataArray
         Height of each level [m] (geopotential height), same shape as ``t``
         or broadcastable to it.
     dim : str or int
         Vertical dimension name (xarray) or axis number (numpy; may be
         omitted for a single 1-D profile). Levels may come in either order.
+    p : array_like or xarray.DataArray, optional
+        Pressure of each level [hPa]; when given the pressure of the freezing
+        level is returned too (linear in log-pressure).
 
     Returns
     -------
@@ -1004,22 +1091,17 @@ def freezing_level(t, z, *, dim="level"):
         levels around it. Where the whole column is below 0 C, the height of
         the lowest level (the freezing level is at or below it). Where the
         whole column is at or above 0 C, NaN (above the top level). Missing
-        values (NaN, e.g. levels below ground) are skipped.
+        values (NaN, e.g. levels below ground) are skipped. With ``p``, a pair
+        (height [m], pressure [hPa]).
 
     Examples
     --------
     >>> float(freezing_level(np.array([283.15, 273.15 - 5.0]), np.array([0.0, 1500.0])))
     1000.0
     """
-    z = _profile_like(z, t, dim, "heights")
-    return _profile_apply(
-        _freezing_level_kernel,
-        (t, z),
-        dim,
-        1,
-        ["freezing_level_m"],
-        {"units": "m", "long_name": "height of the highest 0 C crossing"},
-    )
+    return _crossing_call(t, z, T0C, dim, p, "falling", True,
+                          ["freezing_level_m", "freezing_level_hpa"],
+                          {"units": "m", "long_name": "height of the highest 0 C crossing"})
 
 
 def wet_bulb_freezing_level(t, td, z, p, *, dim="level"):

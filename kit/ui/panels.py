@@ -22,21 +22,36 @@ written only through :mod:`kit.products.files` (new file names; an existing file
 never overwritten silently).
 """
 
+import html
 import io
+import json
+import re
 import time
 from pathlib import Path
 
+import ipywidgets as widgets
 import numpy as np
 import pandas as pd
+import xarray as xr
 
-from kit.charts import _require
-
-_require(("ipywidgets", "matplotlib", "cartopy"), "kit.ui.panels")
-
-import ipywidgets as widgets  # noqa: E402
-
-from kit import CAUTION  # noqa: E402
-from kit.errors import FrontshiftError, InputError  # noqa: E402
+from kit import CAUTION
+from kit.charts import maps, style
+from kit.charts.sections import section_figure
+from kit.charts.style import KIND_LABELS
+from kit.charts.timelines import timeline_figure
+from kit.charts.verification import position_error_figure, timing_error_figure
+from kit.errors import FrontshiftError, InputError
+from kit.io.runs import open_run
+from kit.io.sites import check_sites_on_grid, read_sites
+from kit.pipeline import analyse
+from kit.products.arrivals import arrival_table
+from kit.products.briefing import TABLE_COLUMNS
+from kit.products.files import save_figure, write_csv, write_html_table, write_json
+from kit.products.fronts import fronts_to_geojson
+from kit.products.shift import write_shift_products
+from kit.science.fronts import FrontSettings, default_thresholds, effective_smoothing_km
+from kit.science.sections import section_across_front
+from kit.science.verification import rerun_event, summarise_position, summarise_timing
 
 __all__ = [
     "FrontPanel",
@@ -105,13 +120,10 @@ def _png(fig, dpi):
 
 def _load_run(run):
     """Return a canonical Dataset from a Dataset or a RUN argument (file, glob, folder)."""
-    import xarray as xr
-
     if isinstance(run, xr.Dataset):
         return run
     if not isinstance(run, (str, Path)):
         raise InputError(f"run {run!r}: expected a path (file, glob or folder) or a Dataset")
-    from kit.io.runs import open_run
 
     return open_run(str(run))
 
@@ -121,7 +133,6 @@ def _load_sites(sites):
         return pd.DataFrame(columns=["name", "lat", "lon", "elevation_m"])
     if isinstance(sites, pd.DataFrame):
         return sites
-    from kit.io.sites import read_sites
 
     return read_sites(sites)
 
@@ -161,8 +172,6 @@ class FrontPanel:
 
     def __init__(self, runs=None, sites=None, *, level=850.0, field="theta_w",
                  out_dir="products", width_in=9.0, dpi=80):
-        from kit.science.fronts import FrontSettings
-
         self.defaults = FrontSettings(field=field)
         self.runs, self.labels = [], []
         self.sites = _load_sites(sites)
@@ -284,15 +293,12 @@ class FrontPanel:
 
     def say(self, text, kind="info"):
         """Show one line in the panel's message area."""
-        import html
-
         self.message.value = f"<span style='{_MSG_STYLE[kind]}'>{html.escape(text)}</span>"
 
     # --- runs ----------------------------------------------------------------------------
     def add_run(self, run):
         """Open a run (path or Dataset) and offer it in the run picker; return its label."""
         ds = _load_run(run)
-        from kit.io.sites import check_sites_on_grid
 
         if len(self.sites):
             check_sites_on_grid(self.sites, ds)
@@ -357,8 +363,6 @@ class FrontPanel:
     # --- analysis (cached) -------------------------------------------------------------------
     def settings(self):
         """FrontSettings from the threshold boxes (one-line InputError on bad values)."""
-        from kit.science.fronts import FrontSettings
-
         smoothing = _float(self.smooth_text, "smoothing [km]", lo=0.0)
         min_len = _float(self.minlen_text, "shortest line [km]", lo=0.0)
         k1 = _float(self.k1_text, "K1 [K per (100 km)^2]", lo=0.0) * K1_UNIT
@@ -368,8 +372,6 @@ class FrontPanel:
 
     def _show_default_thresholds(self):
         """Fill K1/K2 with the defaults for the smoothing typed (on this grid)."""
-        from kit.science.fronts import FrontSettings, default_thresholds, effective_smoothing_km
-
         ds, _, _ = self.current
         try:
             smoothing = float(self.smooth_text.value)
@@ -382,25 +384,25 @@ class FrontPanel:
         self.k2_text.value = f"{k2 / K2_UNIT:.3g}"
         self._quiet = quiet
 
-    def fronts(self):
-        """Fronts of the run picked with the current choices (cached analysis)."""
+    def analysis(self):
+        """Return the Analysis of the run picked with the current choices (cached)."""
         ds, label, member = self.current
         s = self.settings()
         key = (label, member, float(self.level_pick.value), s.field, s.k1, s.k2,
                s.smoothing_km, s.min_length_km)
         if key not in self._analysis:
-            from kit.science.motion import analyse_run
-
-            self._analysis[key] = analyse_run(ds, level=float(self.level_pick.value),
-                                              settings=s, member=member)
+            self._analysis[key] = analyse(ds, level=float(self.level_pick.value),
+                                          settings=s, member=member)
             self.stats["analyses"] += 1
         return self._analysis[key]
+
+    def fronts(self):
+        """Fronts of the run picked with the current choices (from :meth:`analysis`)."""
+        return list(self.analysis().fronts)
 
     def _shading_levels(self, ds, label, member, level, field):
         key = (label, member, level, field)
         if key not in self._levels:
-            from kit.charts import maps, style
-
             fields = [maps.level_field_c(maps.select_time(ds, t, member=member)[0], field, level)
                       for t in np.atleast_1d(ds["time"].values)]
             self._levels[key] = style.thetaw_levels(np.concatenate([f.ravel() for f in fields]))
@@ -409,8 +411,6 @@ class FrontPanel:
     # --- drawing -------------------------------------------------------------------------
     def redraw(self):
         """Redraw the map for the time picked (the analysis comes from the cache)."""
-        from kit.charts import maps
-
         started = time.perf_counter()
         ds, label, member = self.current
         level = float(self.level_pick.value)
@@ -442,8 +442,6 @@ class FrontPanel:
         return self.sites[self.sites["name"] == name].iloc[0]
 
     def _fill_front_pick(self, fronts):
-        from kit.charts.style import KIND_LABELS
-
         keep = self.front_pick.value
         options = [("(none)", None)]
         for k, f in enumerate(fronts):
@@ -466,9 +464,6 @@ class FrontPanel:
 
     def draw_section(self):
         """Cross-section of the front picked through the site picked (or its middle)."""
-        from kit.charts.sections import section_figure
-        from kit.science.sections import section_across_front
-
         ds, _, _ = self.current
         k = self.front_pick.value
         if k is None or not getattr(self, "_fronts_shown", None):
@@ -516,8 +511,6 @@ class FrontPanel:
 
     # --- exports (never overwriting) -------------------------------------------------------
     def _product_path(self, stem, suffix):
-        from kit.products.files import new_product_dir  # noqa: F401  (folder rules live there)
-
         self.out_dir.mkdir(parents=True, exist_ok=True)
         for n in range(1, 1000):
             cand = self.out_dir / (f"{stem}{suffix}" if n == 1 else f"{stem}-{n}{suffix}")
@@ -527,8 +520,6 @@ class FrontPanel:
 
     def save_map(self):
         """Write the map shown as PNG into the export folder (new name); return the Path."""
-        from kit.products.files import save_figure
-
         ds, label, member = self.current
         self.redraw()
         frame = self._frames[(label, member, float(self.level_pick.value),
@@ -541,8 +532,6 @@ class FrontPanel:
 
     def save_section(self):
         """Write the section shown as PNG (new name); return the Path."""
-        from kit.products.files import save_figure
-
         if self._section_fig is None:
             raise InputError("Save section: no section drawn yet; pick a front and press Section")
         _, label, _ = self.current
@@ -554,9 +543,6 @@ class FrontPanel:
 
     def save_fronts(self):
         """Write the run's fronts (all times) as GeoJSON (new name); return the Path."""
-        from kit.products.files import write_json
-        from kit.science.fronts import fronts_to_geojson
-
         _, label, _ = self.current
         collection = fronts_to_geojson(self.fronts())
         collection["properties"] = {"product": "frontshift panel: fronts", "run": label,
@@ -568,8 +554,6 @@ class FrontPanel:
 
 
 def _slug(text):
-    import re
-
     return re.sub(r"[^A-Za-z0-9_.-]+", "_", str(text)).strip("_") or "x"
 
 
@@ -651,14 +635,12 @@ class _ArrivalsPanel:
     _quiet = False
 
     def _load(self, runs, sites, level):
-        from kit.products.arrivals import arrival_table
-
         self.sites = _load_sites(sites)
         self.runs = [_load_run(r) for r in runs]
         if not self.runs:
             raise InputError("arrivals panel: no runs given; expected one or more RUN paths")
-        self.table, self.series = arrival_table(self.runs, self.sites, level=level,
-                                                return_series=True)
+        self.analyses = [analyse(ds, level=level) for ds in self.runs]
+        self.table, self.series = arrival_table(self.analyses, self.sites, return_series=True)
         self.labels = [str(ds.attrs.get("run")) for ds in self.runs]
         self._quiet = True
         names = list(self.sites["name"])
@@ -673,9 +655,6 @@ class _ArrivalsPanel:
 
     def show(self):
         """Show the picked site's rows and its timeline for the picked run."""
-        from kit.products.briefing import TABLE_COLUMNS
-        from kit.charts.timelines import timeline_figure
-
         name = self.site_pick.value
         rows = self.table[self.table["site"] == name]
         cols = [c for c in TABLE_COLUMNS if c in rows.columns]
@@ -692,8 +671,6 @@ class _ArrivalsPanel:
 
     def save(self):
         """Write the whole arrival table as CSV and HTML (new names); return the Paths."""
-        from kit.products.files import write_csv, write_html_table
-
         self.out_dir.mkdir(parents=True, exist_ok=True)
         stem = f"arrivals_{_slug(self.labels[-1])}"
         paths = []
@@ -745,9 +722,6 @@ class _RerunPanel:
 
     def verify(self):
         """Rerun the event and show the error summaries and figures."""
-        from kit.charts.verification import position_error_figure, timing_error_figure
-        from kit.science.verification import rerun_event, summarise_position, summarise_timing
-
         event = Path(self.path_text.value.strip())
         if not event.is_dir():
             raise InputError(f"{event}: no such event folder; expected runs/, analyses/, "
@@ -800,11 +774,6 @@ class _BriefingPanel:
 
     def write(self):
         """Write the products into a new sub-folder; list them; return the folder."""
-        import html
-        import json
-
-        from kit.cli.shift import write_shift_products
-
         self.say("writing the shift products...")
         folder = write_shift_products(self.runs, self.sites, self.out_text.value.strip(),
                                       maps_every_h=float(self.every.value), progress=False)
