@@ -1,7 +1,7 @@
 """Verification reruns on a local dask cluster: speed-up from 1 to 2 workers.
 
 Copies the sample event into a temporary folder several times and reruns them all with
-:func:`kit.science.verification.rerun_events` on a local cluster of 1 and then 2 worker
+:func:`kit.products.rerun.rerun_events` on a local cluster of 1 and then 2 worker
 processes. Target (issue 9, the kit's own): the second worker pays, i.e. a
 speed-up above 1.5 on a 2-core machine.
 """
@@ -22,7 +22,7 @@ def _copy_event(src, dst):
 
 
 def run():
-    from kit.science.verification import rerun_events
+    from kit.products.rerun import rerun_events
 
     with tempfile.TemporaryDirectory() as tmp:
         events = []

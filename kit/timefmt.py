@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pandas as pd
 
-__all__ = ["utc", "iso_seconds", "iso_minutes"]
+__all__ = ["utc", "iso_seconds", "iso_minutes", "iso_compact"]
 
 
 def utc(t) -> pd.Timestamp:
@@ -23,3 +23,8 @@ def iso_seconds(t) -> str:
 def iso_minutes(t) -> str:
     """``2031-02-03T06:00Z``: the form of tables and titles."""
     return utc(t).strftime("%Y-%m-%dT%H:%MZ")
+
+
+def iso_compact(t) -> str:
+    """``20310203T0600Z``: ISO 8601 basic form, to the minute, for file and folder names."""
+    return utc(t).strftime("%Y%m%dT%H%MZ")

@@ -18,15 +18,15 @@ import xarray as xr
 
 from kit.products.arrivals import (
     CONTRACT_COLUMNS,
-    _highest_zero,
-    _warm_layer,
     add_spread,
     arrival_table,
     format_utc,
     signed_distance_km,
     site_series,
 )
+from kit.constants import T0_K
 from kit.errors import InputError
+from kit.science.thermo import freezing_level, warm_layer_aloft
 from kit.model import Analysis, Front, FrontStructure, TrackLink
 from kit.pipeline import analyse
 from kit.science.fronts import FrontSettings
@@ -250,7 +250,7 @@ def test_zone_centre_factor_against_tanh_zone():
     line-to-centre factor x / (|grad tau| / TFP) must equal ZONE_CENTRE_FACTOR."""
     from scipy.optimize import minimize_scalar
 
-    from kit.products.arrivals import ZONE_CENTRE_FACTOR
+    from kit.constants import ZONE_CENTRE_FACTOR
 
     def tfp(x):  # dT = L = 1; -d|grad tau|/dx on the warm side
         return np.tanh(x) / np.cosh(x) ** 2
@@ -403,16 +403,19 @@ def test_freezing_rain_window_found_and_absent():
 
 def test_column_helpers_analytic():
     """[analytic] linear lapse rate 6.5 K/km from +5 C at 0 m: 0 C at 769.2 m;
-    a warm nose between 500 m (+0 C) and 1500 m found; all sub-zero -> the ground."""
+    a warm nose between 500 m (+0 C) and 1500 m found; all sub-zero -> the ground.
+    (The site columns use kit.science.thermo's freezing_level and warm_layer_aloft.)"""
     z = np.array([0.0, 500.0, 1000.0, 1500.0, 3000.0])
     tc = 5.0 - 0.0065 * z
-    assert _highest_zero(z, tc) == pytest.approx(5.0 / 0.0065, rel=1e-9)
+    assert freezing_level(tc + T0_K, z) == pytest.approx(5.0 / 0.0065, rel=1e-9)
     nose = np.array([-4.0, 0.0, 2.0, 0.0, -10.0])
-    base, top, tmax, cold = _warm_layer(z, nose)
-    assert (base, top, tmax, cold) == (500.0, 1500.0, 2.0, -4.0)
-    assert _highest_zero(z, -np.abs(tc) - 1) == 0.0
-    assert np.isnan(_highest_zero(z, np.full(5, 3.0)))
-    assert all(np.isnan(_warm_layer(z, tc)))
+    top, base, tmax, cold = warm_layer_aloft(nose + T0_K, z, cold_min=True)
+    assert (base, top) == (500.0, 1500.0)
+    assert (tmax - T0_K, cold - T0_K) == (pytest.approx(2.0, abs=1e-9),
+                                          pytest.approx(-4.0, abs=1e-9))
+    assert freezing_level(-np.abs(tc) - 1 + T0_K, z) == 0.0
+    assert np.isnan(freezing_level(np.full(5, 3.0) + T0_K, z))
+    assert all(np.isnan(warm_layer_aloft(tc + T0_K, z, cold_min=True)))
 
 
 def test_snow_risk_when_wet_bulb_zero_low():

@@ -18,8 +18,9 @@ import xarray as xr
 import kit.science.motion as motion
 from kit.model import Front, FrontMotion, TrackLink, motion_table
 from kit.pipeline import analyse
+from kit.science.geo import PointSampler
+from kit.constants import G0, KT_PER_MS, RD
 from kit.science.motion import (
-    KT_PER_MS,
     coriolis_parameter,
     geostrophic_speed,
     geostrophic_wind,
@@ -177,8 +178,8 @@ def test_geostrophic_rho_from_temperature():
     )
     ds["t2m"] = xr.full_like(p, 283.15)
     u_t, _ = geostrophic_wind(p, ds, kind="mslp", rho="from_t")
-    u_c, _ = geostrophic_wind(p, ds, kind="mslp", rho=p.values / (motion.RD * 283.15))
-    assert float(p[0, 0]) / (motion.RD * 283.15) == pytest.approx(
+    u_c, _ = geostrophic_wind(p, ds, kind="mslp", rho=p.values / (RD * 283.15))
+    assert float(p[0, 0]) / (RD * 283.15) == pytest.approx(
         1.2221, abs=1e-4
     )  # 99325 Pa, 283.15 K
     np.testing.assert_allclose(u_t[5:-5], u_c[5:-5], rtol=1e-3)
@@ -385,7 +386,7 @@ def test_rule_from_1000_hpa_heights_without_mslp():
     ds = speed_dataset(45.0).drop_vars("mslp")
     lat, lon = ds["lat"].values, ds["lon"].values
     x_km = R_KM * np.cos(np.deg2rad(lat))[:, None] * np.deg2rad(lon - lon.mean())[None, :]
-    dz = 400.0 / (1.25 * motion.G0) * x_km / 200.0
+    dz = 400.0 / (1.25 * G0) * x_km / 200.0
     z = ds["z"].values.copy()
     z[:, 0] = 110.0 + dz
     ds["z"] = (ds["z"].dims, z)
@@ -471,7 +472,7 @@ def test_point_sampler_projected_grid_inverts_coordinates():
         coords={"y": y, "x": x, "lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)},
         attrs={"grid": "projected"},
     )
-    smp = motion._PointSampler(ds)
+    smp = PointSampler(ds)
     plon = np.array([-10.0, 5.0, 12.5])
     plat = np.array([55.0, 60.3, 66.0])
     # x coordinate of the points from pyproj [lib] versus the sampled x field
@@ -495,7 +496,7 @@ def test_point_sampler_polar_grid_across_the_antimeridian():
         coords={"y": x, "x": x, "lat": (("y", "x"), lat2), "lon": (("y", "x"), lon2)},
         attrs={"grid": "projected"},
     )
-    smp = motion._PointSampler(ds)
+    smp = PointSampler(ds)
     plon = np.array([179.7, -179.7, 180.0, 90.0, -45.0])
     plat = np.array([72.0, 72.0, 80.0, 88.5, 65.0])
     px, py = tr.transform(plon, plat, direction="INVERSE")
@@ -508,7 +509,7 @@ def test_point_sampler_periodic_global_grid():
     lon = np.arange(0.0, 360.0, 1.0)
     ds = xr.Dataset(coords={"lat": lat, "lon": lon})
     f = np.broadcast_to(np.cos(np.deg2rad(lon))[None, :], (lat.size, lon.size))
-    smp = motion._PointSampler(ds)
+    smp = PointSampler(ds)
     # between 359 and 0 (=360): linear interpolation of cos [derived]
     val = smp.sample(f, np.array([-0.5, 359.5, 179.5]), np.array([10.0, 10.0, 10.0]))
     exp359 = 0.5 * (np.cos(np.deg2rad(359.0)) + 1.0)

@@ -19,7 +19,9 @@ import xarray as xr
 
 import kit
 import kit.science.sections as S
+from kit.constants import EARTH_RADIUS_M
 from kit.errors import InputError
+from kit.science.geo import local_east_north_km
 from kit.model import Front
 from kit.pipeline import analyse
 from kit.products.sections import section
@@ -116,14 +118,25 @@ def test_section_points_against_pyproj_geod():
     from pyproj import Geod
 
     lat, lon, dist, brg = S.section_points((52.0, -20.0), (45.0, 10.0), steps=41)
-    g = Geod(ellps="WGS84")
+    g = Geod(a=EARTH_RADIUS_M, b=EARTH_RADIUS_M)
     az, _, total = g.inv(-20.0, 52.0, 10.0, 45.0)
-    # [lib] pyproj Geod: total length and initial azimuth of the WGS84 geodesic
+    # [lib] pyproj Geod as independent implementation, on the kit's sphere: total length
+    # and initial azimuth of the great circle
     np.testing.assert_allclose(dist[-1], total / 1000.0, rtol=1e-9)
     np.testing.assert_allclose(brg[0], az % 360.0, atol=1e-6)
-    # [derived] Geod.npts spaces the points equally
+    # [lib] Geod.npts spaces the points equally along it: the same points
+    mid = np.array(g.npts(-20.0, 52.0, 10.0, 45.0, 39))
+    np.testing.assert_allclose(lon[1:-1], mid[:, 0], atol=1e-9)
+    np.testing.assert_allclose(lat[1:-1], mid[:, 1], atol=1e-9)
+    # [lib] local bearing of the great circle at every point (forward azimuth of each
+    # segment; back azimuth + 180 at the end)
+    az12, az21, _ = g.inv(lon[:-1], lat[:-1], lon[1:], lat[1:])
+    np.testing.assert_allclose(brg, np.append(az12, az21[-1] + 180.0) % 360.0, atol=1e-6)
     np.testing.assert_allclose(np.diff(dist), total / 1000.0 / 40, rtol=1e-6)
     assert (lat[0], lon[0], lat[-1], lon[-1]) == (52.0, -20.0, 45.0, 10.0)
+    # [lib] the WGS84 geodesic is within the expected ~0.5 % of the sphere
+    _, _, total84 = Geod(ellps="WGS84").inv(-20.0, 52.0, 10.0, 45.0)
+    np.testing.assert_allclose(dist[-1], total84 / 1000.0, rtol=5e-3)
 
 
 def test_compass_points():
@@ -140,10 +153,9 @@ def test_section_matches_metpy_cross_section(smooth_run):
                             time="2027-01-14T03:00Z")
     for name in ("t", "u", "v", "z"):
         da = smooth_run[name].sel(time=TIMES[1]).metpy.assign_crs(
-            grid_mapping_name="latitude_longitude", semi_major_axis=6378137.0,
-            inverse_flattening=298.257223563)
+            grid_mapping_name="latitude_longitude", earth_radius=EARTH_RADIUS_M)
         ref = cross_section(da, (35.0, -15.0), (55.0, 12.0), steps=60)
-        # [lib] MetPy cross_section: same WGS84 geodesic, bilinear values
+        # [lib] MetPy cross_section: the geodesic of the same (spherical) Earth, bilinear values
         np.testing.assert_allclose(sec["lat"].values, ref["lat"].values, atol=1e-9)
         np.testing.assert_allclose(sec["lon"].values, ref["lon"].values, atol=1e-9)
         np.testing.assert_allclose(sec[name].transpose("level", "distance").values,
@@ -156,8 +168,7 @@ def test_section_matches_metpy_cross_section(smooth_run):
     pv = S.potential_vorticity(potential_temperature(one["t"], one["level"]), one["u"],
                                one["v"], one)
     ref = cross_section(pv.metpy.assign_crs(grid_mapping_name="latitude_longitude",
-                                            semi_major_axis=6378137.0,
-                                            inverse_flattening=298.257223563),
+                                            earth_radius=EARTH_RADIUS_M),
                         (35.0, -15.0), (55.0, 12.0), steps=60)
     np.testing.assert_allclose(sec["pv"].values, ref.transpose("level", "index").values,
                                rtol=1e-9, atol=1e-12)
@@ -370,7 +381,7 @@ def test_section_across_front_orientation_and_rule_zone(front_run):
     sec = S.section_across_front(front_run, f, site, length_km=1200.0)
     from pyproj import Geod
 
-    g = Geod(ellps="WGS84")
+    g = Geod(a=EARTH_RADIUS_M, b=EARTH_RADIUS_M)  # the kit's sphere
     # [derived] normal to a zonal front with cold air to the north: the section runs
     # north to south (cold side first) and passes through the site
     np.testing.assert_allclose(sec.attrs["section_bearing_deg"], 180.0, atol=0.5)
@@ -530,8 +541,8 @@ _no_sample = pytest.mark.skipif(not _HAVE_SAMPLE, reason="sample_grids/ not gene
 def _crossing_km(sec, lon, lat):
     """Distance along the section where the polyline (lon, lat) crosses it [km]."""
     lat0, lon0 = float(sec["lat"].mean()), float(sec["lon"].values[len(sec["lon"]) // 2])
-    xs, ys = S._local_km(sec["lon"].values, sec["lat"].values, lon0, lat0)
-    xf, yf = S._local_km(np.asarray(lon), np.asarray(lat), lon0, lat0)
+    xs, ys = local_east_north_km(sec["lon"].values, sec["lat"].values, lon0, lat0)
+    xf, yf = local_east_north_km(np.asarray(lon, float), np.asarray(lat, float), lon0, lat0)
     d = sec["distance"].values
     hits = []
     for i in range(xs.size - 1):
@@ -688,8 +699,8 @@ def test_section_across_front_southern_hemisphere_and_dateline():
     assert np.isfinite(sec["t"].values).all()
     from pyproj import Geod
 
-    _, _, d = Geod(ellps="WGS84").inv(sec.attrs["start_lon"], sec.attrs["start_lat"], -175.0,
-                                      -49.0)
+    _, _, d = Geod(a=EARTH_RADIUS_M, b=EARTH_RADIUS_M).inv(
+        sec.attrs["start_lon"], sec.attrs["start_lat"], -175.0, -49.0)
     np.testing.assert_allclose(sec.attrs["site_km"], d / 1000.0, atol=1.0)  # [lib] pyproj
     # PV is negative in the southern hemisphere; the tropopause is found at -2 PVU
     assert np.nanmedian(sec["pv"].sel(level=250.0)) < -2.0

@@ -14,7 +14,8 @@ import xarray as xr
 
 import kit.science.structure as structure
 from kit.model import Front
-from kit.science.motion import G0, coriolis_parameter
+from kit.constants import G0, TYPICAL_SLOPE_1_IN
+from kit.science.motion import coriolis_parameter
 from kit.science.structure import add_slopes, front_margules_slope, front_slope, margules_slope
 
 R_KM = 6371.0088
@@ -258,7 +259,7 @@ def test_add_slopes_props():
     # practice, no source); none given for a quasi-stationary front
     assert warm.props["slope_typical_1_in"] == 150.0
     assert qs.props["slope_typical_1_in"] is None
-    assert structure.TYPICAL_SLOPE_1_IN["cold"] == 50.0
+    assert TYPICAL_SLOPE_1_IN["cold"] == 50.0
 
 
 def test_slope_with_theta_w_field():

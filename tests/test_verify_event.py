@@ -12,7 +12,8 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from kit.science.verification import rerun_events, summarise_position, summarise_timing
+from kit.products.rerun import rerun_events
+from kit.science.verification import summarise_position, summarise_timing
 
 EVENT = Path(__file__).resolve().parents[1] / "sample_grids"
 

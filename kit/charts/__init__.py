@@ -23,7 +23,7 @@ _NEEDS = {
 }
 
 
-def _require(packages, what):
+def require_graphics(packages, what):
     for name in packages:
         try:
             importlib.import_module(name)
@@ -38,7 +38,7 @@ def _require(packages, what):
 def __getattr__(name):
     """Import a chart module on first use, with a one-line hint if graphics are missing."""
     if name in __all__:
-        _require(_NEEDS.get(name, ("matplotlib",)), f"kit.charts.{name}")
+        require_graphics(_NEEDS.get(name, ("matplotlib",)), f"kit.charts.{name}")
         return importlib.import_module(f"kit.charts.{name}")
     raise AttributeError(f"module 'kit.charts' has no attribute {name!r}")
 

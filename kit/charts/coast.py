@@ -74,7 +74,7 @@ def bundled_path(name):
 
 def _ne_candidates(resolution, category, name):
     """List where cartopy keeps Natural Earth files on this machine (not the bundled folder)."""
-    import cartopy
+    import cartopy  # optional heavy dependency, loaded on use
 
     rel = Path("shapefiles") / "natural_earth" / category / f"ne_{resolution}_{name}.shp"
     dirs = []
@@ -107,7 +107,7 @@ def local_natural_earth(resolution, category="physical", name="coastline"):
 
 
 def _make_offline_downloader(original):
-    from cartopy.io import Downloader
+    from cartopy.io import Downloader  # optional heavy dependency, loaded on use
 
     class OfflineNaturalEarth(Downloader):
         """Natural Earth look-up that uses local files only and never the network."""
@@ -153,7 +153,7 @@ def _make_offline_downloader(original):
 
 
 def _make_offline_gshhs():
-    from cartopy.io import Downloader
+    from cartopy.io import Downloader  # optional heavy dependency, loaded on use
 
     class NoGSHHS(Downloader):
         """GSHHS look-up that never downloads."""
@@ -184,13 +184,13 @@ def use_offline_cartopy():
     dict
         What was set: ``pre_existing_data_dir`` (Path or None when left alone).
     """
-    import cartopy
+    import cartopy  # optional heavy dependency, loaded on use
 
     downloaders = cartopy.config.setdefault("downloaders", {})
     key = ("shapefiles", "natural_earth")
     original = downloaders.get(key)
     if original is None:
-        from cartopy.io import shapereader
+        from cartopy.io import shapereader  # optional heavy dependency, loaded on use
 
         original = shapereader.NEShpDownloader.default_downloader()
     downloaders[key] = _make_offline_downloader(original)
@@ -217,8 +217,8 @@ def coast_geometries(name="coastline", resolution="110m"):
     -------
     tuple of shapely geometries
     """
-    import shapefile
-    from shapely.geometry import shape
+    import shapefile  # optional heavy dependency, loaded on use
+    from shapely.geometry import shape  # optional heavy dependency, loaded on use
 
     if resolution == "110m":
         path = bundled_path(name)
@@ -267,8 +267,8 @@ def coast_feature(name="coastline", *, resolution=None, extent_deg=None, **style
     -------
     cartopy.feature.ShapelyFeature
     """
-    import cartopy.crs as ccrs
-    import cartopy.feature as cfeature
+    import cartopy.crs as ccrs  # optional heavy dependency, loaded on use
+    import cartopy.feature as cfeature  # optional heavy dependency, loaded on use
 
     use_offline_cartopy()
     res = resolution or _best_resolution(name, extent_deg)
@@ -300,7 +300,7 @@ def add_coastlines(ax, *, borders=True, land=False, colour="#4a4a4a", border_col
     """
     if not hasattr(ax, "add_feature"):
         raise InputError("add_coastlines: axes is not a cartopy map; expected a GeoAxes")
-    import cartopy.crs as ccrs
+    import cartopy.crs as ccrs  # optional heavy dependency, loaded on use
 
     try:
         w, e, _, _ = ax.get_extent(ccrs.PlateCarree())

@@ -18,17 +18,30 @@ semicircles toward the cold air). The symbols sit on the side the front moves
 toward; the side is taken from each front's cold-side normal.
 """
 
-from kit.charts import _require
+from kit.charts import require_graphics
 
-_require(("matplotlib", "cartopy", "metpy"), "kit.charts.maps")
+require_graphics(("matplotlib", "cartopy", "metpy"), "kit.charts.maps")
 
+import io  # noqa: E402
+
+import cartopy.crs as ccrs  # noqa: E402
+import matplotlib.colors as mcolors  # noqa: E402
 import matplotlib.patheffects as mpe  # noqa: E402
+import matplotlib.ticker as mticker  # noqa: E402
 import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
+from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: E402
+from matplotlib.cm import ScalarMappable  # noqa: E402
 from matplotlib.lines import Line2D  # noqa: E402
+from metpy.plots import ColdFront, StationaryFront, WarmFront  # noqa: E402
+from PIL import Image  # noqa: E402
 
 from kit.charts import style  # noqa: E402
+from kit.charts.coast import add_coastlines  # noqa: E402
+from kit.constants import KT_PER_MS, T0_K  # noqa: E402
 from kit.errors import InputError  # noqa: E402
+from kit.science import thermo  # noqa: E402
+from kit.timefmt import iso_minutes  # noqa: E402
 
 __all__ = [
     "FIELDS",
@@ -63,8 +76,6 @@ _HALO = [mpe.withStroke(linewidth=2.4, foreground="white")]
 
 
 def _pc():
-    import cartopy.crs as ccrs
-
     return ccrs.PlateCarree()
 
 
@@ -94,14 +105,14 @@ def select_time(ds, time, *, member=None):
         The valid time found [ns].
     """
     times = _times(ds)
-    want = style._timestamp(time, "time").tz_convert(None).to_datetime64()
+    want = style.utc_timestamp(time, "time").tz_convert(None).to_datetime64()
     diff = np.abs(times - want)
     i = int(np.argmin(diff))
     if diff[i] > np.timedelta64(60, "s"):
         raise InputError(
-            f"time {pd.Timestamp(want):%Y-%m-%dT%H:%MZ}: not a valid time of run "
+            f"time {iso_minutes(want)}: not a valid time of run "
             f"{ds.attrs.get('run', '?')}; expected one of "
-            f"{pd.Timestamp(times[0]):%Y-%m-%dT%H:%MZ} .. {pd.Timestamp(times[-1]):%Y-%m-%dT%H:%MZ}"
+            f"{iso_minutes(times[0])} .. {iso_minutes(times[-1])}"
         )
     out = ds.isel(time=i) if "time" in ds.dims else ds
     if "member" in out.dims:
@@ -125,12 +136,10 @@ def level_field_c(ds_t, field="theta_w", level=850.0):
     level : float
         Pressure level [hPa].
     """
-    from kit.science import thermo
-
     if field not in FIELDS:
         raise InputError(f"field {field!r}: unknown; expected one of {', '.join(FIELDS)}")
     da = thermo.level_field(ds_t, FIELDS[field][1], level)
-    return np.asarray(da.values, dtype=float) - 273.15
+    return np.asarray(da.values, dtype=float) - T0_K
 
 
 def _lonlat2d(ds):
@@ -208,8 +217,6 @@ def map_axes(ds, *, nrows=1, ncols=1, width_in=10.0, max_height_in=9.0, bottom_i
     if extent is None:
         x0, x1, y0, y1 = _inner_extent(ds, proj)
     else:
-        import cartopy.crs as ccrs  # noqa: F401
-
         w, e, s, n = extent
         lons = np.concatenate([np.linspace(w, e, 50), np.full(50, e), np.linspace(e, w, 50),
                                np.full(50, w)])
@@ -353,8 +360,6 @@ def symbol_side(front):
 
 
 def _front_effect(kind, size, spacing=1.6):
-    from metpy.plots import ColdFront, StationaryFront, WarmFront
-
     c = style.FRONT_COLOURS
     if kind == "cold":
         return ColdFront(color=c["cold"], size=size, spacing=spacing)
@@ -369,9 +374,9 @@ def _speed_kt(front):
     for key in ("speed_tracked_ms",):
         value = front.props.get(key) if front.props else None
         if value is not None and np.isfinite(value):
-            return abs(float(value)) * 3600.0 / 1852.0
+            return abs(float(value)) * KT_PER_MS
     if front.speed_ms is not None and np.isfinite(front.speed_ms):
-        return abs(float(front.speed_ms)) * 3600.0 / 1852.0
+        return abs(float(front.speed_ms)) * KT_PER_MS
     return None
 
 
@@ -472,7 +477,6 @@ def add_graticule(ax, *, labels=True, bottom=True, left=True):
     gl = ax.gridlines(draw_labels=labels, linewidth=0.4, color=style.BRIEFING_COLOURS[
         "graticule"], alpha=0.8, linestyle=(0, (2, 3)), x_inline=False, y_inline=False,
         zorder=2.5)
-    import matplotlib.ticker as mticker
 
     w, e, s, n = _lonlat_span(ax)
 
@@ -519,7 +523,8 @@ def front_legend(ax, *, kinds=("cold", "warm", "quasi-stationary"), isobars=True
     return leg
 
 
-def _fronts_at(fronts, valid, level=None, member=None):
+def fronts_at(fronts, valid, level=None, member=None):
+    """Return the fronts of one valid time (and level and member) out of a run's fronts."""
     out = []
     for f in fronts or []:
         if np.datetime64(f.valid_time, "ns") != np.datetime64(valid, "ns"):
@@ -538,7 +543,7 @@ def _member_of(ds, member):
     return member
 
 
-def front_map(ds, fronts=None, *, time, level=850.0, field="theta_w", sites=None, member=None,
+def front_map(ds, fronts, *, time, level=850.0, field="theta_w", sites=None, member=None,
               isobars=True, extent=None, labels=True, width_in=10.0):
     """Map the fronts of one valid time in the briefing style.
 
@@ -546,9 +551,9 @@ def front_map(ds, fronts=None, *, time, level=850.0, field="theta_w", sites=None
     ----------
     ds : xarray.Dataset
         Canonical run.
-    fronts : list of kit.science.fronts.Front, optional
-        Fronts of the run (any times; those at ``time`` are drawn). Found with
-        :func:`kit.science.fronts.find_fronts` when None.
+    fronts : list of kit.model.Front
+        Fronts of the run's analysis (any times; those at ``time`` are drawn);
+        a map never looks for fronts of its own.
     time : datetime-like
         Valid time (UTC).
     level : float
@@ -572,15 +577,12 @@ def front_map(ds, fronts=None, *, time, level=850.0, field="theta_w", sites=None
     -------
     matplotlib.figure.Figure
     """
-    from kit.charts.coast import add_coastlines
-
     member = _member_of(ds, member)
     ds_t, valid = select_time(ds, time, member=member)
     if fronts is None:
-        from kit.science.fronts import find_fronts
-
-        fronts = find_fronts(ds, level=level, times=[valid], member=member)
-    drawn = _fronts_at(fronts, valid, level, member)
+        raise InputError("front_map: no fronts given; expected the fronts of the run's "
+                         "analysis (kit.analyse(run).fronts)")
+    drawn = fronts_at(fronts, valid, level, member)
     fig, ax = map_axes(ds, extent=extent, width_in=width_in)
     shading = draw_shading(ax, ds_t, field=field, level=level)
     add_coastlines(ax)
@@ -636,8 +638,6 @@ def fronts_through_time(ds, fronts, *, times=None, level=850.0, field="theta_w",
     -------
     matplotlib.figure.Figure
     """
-    from kit.charts.coast import add_coastlines
-
     member = _member_of(ds, member)
     all_times = _times(ds)
     chosen = _pick_times(list(all_times), max_panels) if times is None else [
@@ -664,7 +664,7 @@ def fronts_through_time(ds, fronts, *, times=None, level=850.0, field="theta_w",
         add_graticule(ax, bottom=(row == nrows - 1) or (k + ncols >= len(chosen)),
                       left=(col == 0))
         draw_isobars(ax, ds_t, interval_hpa=8.0, labels=False, linewidth=0.5)
-        draw_fronts(ax, _fronts_at(fronts, valid, level, member), size=4.0, linewidth=1.5,
+        draw_fronts(ax, fronts_at(fronts, valid, level, member), size=4.0, linewidth=1.5,
                     labels=False)
         if sites is not None and len(sites):
             draw_sites(ax, sites, names=False)
@@ -717,10 +717,6 @@ def fronts_overview(ds, fronts, *, level=850.0, sites=None, member=None, width_i
     -------
     matplotlib.figure.Figure
     """
-    import matplotlib.colors as mcolors
-
-    from kit.charts.coast import add_coastlines
-
     member = _member_of(ds, member)
     times = _times(ds)
     chosen = [f for f in fronts or []
@@ -751,7 +747,6 @@ def fronts_overview(ds, fronts, *, level=850.0, sites=None, member=None, width_i
                                                               else kind],
                 path_effects=_HALO, zorder=7, clip_on=True)
     draw_sites(ax, sites)
-    from matplotlib.cm import ScalarMappable
 
     sm = ScalarMappable(norm=norm, cmap=style.LEAD_CMAP)
     span = norm.vmax - norm.vmin
@@ -804,10 +799,7 @@ class MapSeries:
 
     def __init__(self, ds, *, sites=None, level=850.0, field="theta_w", member=None,
                  levels=None, width_in=10.0, dpi=110):
-        import matplotlib.colors as mcolors
-        from matplotlib.cm import ScalarMappable
 
-        from kit.charts.coast import add_coastlines
 
         if field not in FIELDS:
             raise InputError(f"field {field!r}: unknown; expected one of {', '.join(FIELDS)}")
@@ -867,7 +859,7 @@ class MapSeries:
         """
         ds = self.ds
         ds_t, valid = select_time(ds, time, member=self.member)
-        drawn = _fronts_at(fronts, valid, self.level, self.member)
+        drawn = fronts_at(fronts, valid, self.level, self.member)
         self._clear()
         n_texts = len(self.ax.texts)
         self.layer.append(draw_shading(self.ax, ds_t, field=self.field, level=self.level,
@@ -896,8 +888,6 @@ class MapSeries:
 
     def _render(self, show_static, show_layer, transparent):
         """Draw the figure with some artists hidden; return the RGBA pixels."""
-        from matplotlib.backends.backend_agg import FigureCanvasAgg
-
         canvas = self.fig.canvas if isinstance(self.fig.canvas, FigureCanvasAgg) else (
             FigureCanvasAgg(self.fig))
         saved_dpi = self.fig.dpi
@@ -927,10 +917,6 @@ class MapSeries:
 
     def _composite(self):
         """Compose the weather layer under the static overlay; PNG bytes."""
-        import io
-
-        from PIL import Image
-
         if self._overlay is None:
             self._overlay = Image.fromarray(self._render(True, False, True), "RGBA")
         base = Image.fromarray(self._render(False, True, False), "RGBA")

@@ -13,9 +13,9 @@ carries a ``gid`` (``rh``, ``theta-w``, ``isotachs``, ``jet-core``,
 checked by content. The section itself comes from :mod:`kit.science.sections`.
 """
 
-from kit.charts import _require
+from kit.charts import require_graphics
 
-_require(("matplotlib",), "kit.charts.sections")
+require_graphics(("matplotlib",), "kit.charts.sections")
 
 import matplotlib.colors as mcolors  # noqa: E402
 import numpy as np  # noqa: E402
@@ -32,8 +32,9 @@ from kit.charts.style import (  # noqa: E402
     new_figure,
     stamp,
 )
+from kit.constants import FT_PER_M, KT_PER_MS, NM_KM, T0_K  # noqa: E402
 from kit.errors import InputError  # noqa: E402
-from kit.science.sections import NM_KM, RULE_ZONES_NM  # noqa: E402
+from kit.science.sections import RULE_ZONES_NM  # noqa: E402
 
 __all__ = ["section_figure", "draw_section", "RH_LEVELS", "RH_CMAP", "SECTION_COLOURS"]
 
@@ -56,8 +57,6 @@ SECTION_COLOURS = {
     "zone_fringe": "#faefd6",
 }
 _FRONT = {"warm": "#cf1d2c", "cold": "#1747c4", "quasi-stationary": "#7a3fa0"}
-_KT = 1.0 / 0.514444
-_FT = 1.0 / 0.3048
 _P_TICKS = [1000, 925, 850, 700, 600, 500, 400, 300, 250, 200, 150, 100]
 _H_TICKS_FT = [0, 5000, 10000, 15000, 20000, 25000, 30000, 35000, 40000, 45000, 50000]
 
@@ -120,10 +119,10 @@ def draw_section(ax, strip, sec):
     art["theta-w"] = ax.contour(X, P, tw, levels=tw_levels, colors=SECTION_COLOURS["theta_w"],
                                 linewidths=0.7, zorder=3)
     art["theta-w"].set_gid("theta-w")
-    ax.clabel(art["theta-w"], fmt=lambda v: f"{v - 273.15:.0f}", fontsize=FONT["small"] - 0.5,
+    ax.clabel(art["theta-w"], fmt=lambda v: f"{v - T0_K:.0f}", fontsize=FONT["small"] - 0.5,
               inline_spacing=2)
 
-    ws = sec["wind_speed"].transpose("level", "distance").values * _KT
+    ws = sec["wind_speed"].transpose("level", "distance").values * KT_PER_MS
     iso = [v for v in (40, 60, 80, 100, 120, 140, 160, 180) if np.nanmax(ws) >= v]
     if iso:
         art["isotachs"] = ax.contour(X, P, ws, levels=iso, colors=SECTION_COLOURS["isotach"],
@@ -132,7 +131,7 @@ def draw_section(ax, strip, sec):
         ax.clabel(art["isotachs"], fmt="%d kt", fontsize=FONT["small"] - 0.5, inline_spacing=2)
     if "jet_core_km" in sec.attrs:
         jk, jp = sec.attrs["jet_core_km"], sec.attrs["jet_core_hpa"]
-        spd = sec.attrs["jet_core_speed_ms"] * _KT
+        spd = sec.attrs["jet_core_speed_ms"] * KT_PER_MS
         is_jet = bool(sec.attrs.get("jet_core_is_jet", 0))
         (art["jet-core"],) = ax.plot([jk], [jp], marker="o", ms=11, mfc="white", clip_on=False,
                                      mec=SECTION_COLOURS["jet"], mew=1.5, ls="none", zorder=8,
@@ -144,13 +143,13 @@ def draw_section(ax, strip, sec):
                     bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.8))
 
     t = sec["t"].transpose("level", "distance").values
-    if np.nanmin(t) < 273.15 < np.nanmax(t):
-        art["isotherm-0c"] = ax.contour(X, P, t, levels=[273.15], colors=SECTION_COLOURS["zero"],
+    if np.nanmin(t) < T0_K < np.nanmax(t):
+        art["isotherm-0c"] = ax.contour(X, P, t, levels=[T0_K], colors=SECTION_COLOURS["zero"],
                                         linewidths=2.0, zorder=5)
         art["isotherm-0c"].set_gid("isotherm-0c")
     twb = sec["tw"].transpose("level", "distance").values
-    if np.nanmin(twb) < 273.15 < np.nanmax(twb):
-        art["wet-bulb-0c"] = ax.contour(X, P, twb, levels=[273.15],
+    if np.nanmin(twb) < T0_K < np.nanmax(twb):
+        art["wet-bulb-0c"] = ax.contour(X, P, twb, levels=[T0_K],
                                         colors=SECTION_COLOURS["zero"], linewidths=1.4,
                                         linestyles=[(0, (1.5, 1.5))], zorder=5)
         art["wet-bulb-0c"].set_gid("wet-bulb-0c")
@@ -219,10 +218,10 @@ def draw_section(ax, strip, sec):
     hax.set_ylim(ax.get_ylim())
     ticks, labels = [], []
     for ft in _H_TICKS_FT:
-        p = _p_of_height(lev, zmean, ft / _FT)
+        p = _p_of_height(lev, zmean, ft / FT_PER_M)
         if np.isfinite(p) and ptop <= p <= pmax:
             ticks.append(p)
-            labels.append(f"{ft:,.0f} ft\n{ft / _FT / 1000:.1f} km".replace(",", " "))
+            labels.append(f"{ft:,.0f} ft\n{ft / FT_PER_M / 1000:.1f} km".replace(",", " "))
     hax.yaxis.set_major_locator(FixedLocator(ticks))
     hax.yaxis.set_minor_locator(NullLocator())
     hax.set_yticklabels(labels, fontsize=FONT["tick"] - 1, linespacing=0.9)

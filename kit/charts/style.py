@@ -21,9 +21,9 @@ True
 
 from pathlib import Path
 
-from kit.charts import _require
+from kit.charts import require_graphics
 
-_require(("matplotlib",), "kit.charts.style")
+require_graphics(("matplotlib",), "kit.charts.style")
 
 import matplotlib  # noqa: E402
 import matplotlib.colors as mcolors  # noqa: E402
@@ -232,7 +232,7 @@ def new_figure(nrows=1, ncols=1, *, projection=None, figsize=(10.0, 7.0), bottom
     return fig, axes
 
 
-def _timestamp(value, what="valid_time"):
+def utc_timestamp(value, what="valid_time"):
     """Any time-like value as a UTC pandas Timestamp (naive input is taken as UTC)."""
     if value is None:
         return None
@@ -263,7 +263,7 @@ def format_utc(value, *, weekday=True):
     -------
     str
     """
-    ts = _timestamp(value)
+    ts = utc_timestamp(value)
     return ts.strftime(("%a " if weekday else "") + "%d %b %Y %H:%M UTC")
 
 
@@ -302,8 +302,8 @@ def lead_hours(ds, valid_time):
     """
     if "reference_time" not in ds.coords:
         return None
-    ref = _timestamp(ds["reference_time"].values, "reference_time")
-    return (_timestamp(valid_time) - ref) / pd.Timedelta(hours=1)
+    ref = utc_timestamp(ds["reference_time"].values, "reference_time")
+    return (utc_timestamp(valid_time) - ref) / pd.Timedelta(hours=1)
 
 
 def source_text(ds_or_text, *, limit=90):
@@ -532,8 +532,8 @@ def map_projection(ds_or_extent):
     -------
     cartopy.crs.Projection
     """
-    _require(("cartopy",), "map_projection")
-    import cartopy.crs as ccrs
+    require_graphics(("cartopy",), "map_projection")
+    import cartopy.crs as ccrs  # optional heavy dependency, loaded on use
 
     if isinstance(ds_or_extent, (tuple, list)):
         w, e, s, n = (float(v) for v in ds_or_extent)

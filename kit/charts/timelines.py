@@ -20,9 +20,9 @@ import matplotlib.dates as mdates
 import numpy as np
 import pandas as pd
 
-from kit.charts import _require
+from kit.charts import require_graphics
 
-_require(("matplotlib",), "kit.charts.timelines")
+require_graphics(("matplotlib",), "kit.charts.timelines")
 
 from kit.charts.style import (  # noqa: E402
     BRIEFING_COLOURS,
@@ -35,6 +35,7 @@ from kit.charts.style import (  # noqa: E402
     new_figure,
     stamp,
 )
+from kit.constants import FT_PER_M, KT_PER_MS, T0_K  # noqa: E402
 from kit.errors import InputError  # noqa: E402
 
 __all__ = ["timeline_figure", "TIMELINE_COLOURS"]
@@ -51,8 +52,6 @@ TIMELINE_COLOURS = {
     "spread": "#d9d9d9",
 }
 
-_FT_PER_M = 1.0 / 0.3048
-_KT_PER_MS = 3600.0 / 1852.0
 
 
 def _t(text):
@@ -125,7 +124,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         if "t2m" in series:
             ax_t.plot(
                 times,
-                series["t2m"].values - 273.15,
+                series["t2m"].values - T0_K,
                 color=TIMELINE_COLOURS["temperature"],
                 lw=1.8,
                 label="temperature 2 m",
@@ -133,7 +132,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         if "td2m" in series:
             ax_t.plot(
                 times,
-                series["td2m"].values - 273.15,
+                series["td2m"].values - T0_K,
                 color=TIMELINE_COLOURS["dewpoint"],
                 lw=1.6,
                 label="dew point 2 m",
@@ -179,8 +178,8 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             ax_w.barbs(
                 mdates.date2num(times),
                 np.full(times.size, 0.6),
-                u * _KT_PER_MS,
-                v * _KT_PER_MS,
+                u * KT_PER_MS,
+                v * KT_PER_MS,
                 length=6.2,
                 color=BRIEFING_COLOURS["wind"],
                 lw=0.9,
@@ -193,7 +192,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 ax_w.text(
                     mdates.date2num(tt),
                     0.12,
-                    f"{d:03.0f}/{np.hypot(uu, vv) * _KT_PER_MS:.0f}",
+                    f"{d:03.0f}/{np.hypot(uu, vv) * KT_PER_MS:.0f}",
                     ha="center",
                     va="center",
                     fontsize=FONT["small"] - 0.5,
@@ -212,7 +211,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             key = var[:-2]
             ax_h.plot(
                 times,
-                (series[var].values - elev) * _FT_PER_M,
+                (series[var].values - elev) * FT_PER_M,
                 color=TIMELINE_COLOURS[key],
                 lw=1.8 if key == "freezing_level" else 1.3,
                 ls="-" if key == "freezing_level" else "--",
@@ -221,7 +220,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             )
         ax_h.plot(
             times,
-            series["cloud_base_m"].values * _FT_PER_M,
+            series["cloud_base_m"].values * FT_PER_M,
             color=TIMELINE_COLOURS["cloud_base"],
             lw=0,
             marker="v",
@@ -246,9 +245,9 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         top = np.nanmax(
             np.concatenate(
                 [
-                    (series["freezing_level_m"].values - elev) * _FT_PER_M,
-                    (series["wet_bulb_freezing_level_m"].values - elev) * _FT_PER_M,
-                    series["cloud_base_m"].values * _FT_PER_M,
+                    (series["freezing_level_m"].values - elev) * FT_PER_M,
+                    (series["wet_bulb_freezing_level_m"].values - elev) * FT_PER_M,
+                    series["cloud_base_m"].values * FT_PER_M,
                     [1000.0],
                 ]
             )

@@ -8,22 +8,16 @@ modules in the order ``--help`` shows them. Bad input raises
 """
 
 import argparse
-import importlib
 import sys
 
 from kit import CAUTION, __version__
+from kit.cli import arrivals, fronts, rerun, section, shift
 from kit.errors import FrontshiftError
 
 __all__ = ["COMMANDS", "main", "build_parser"]
 
 #: sub-command modules, in the order --help lists them
-COMMANDS = [
-    "fronts",
-    "arrivals",
-    "section",
-    "shift",
-    "rerun",
-]
+COMMANDS = [fronts, arrivals, section, shift, rerun]
 
 
 class _Parser(argparse.ArgumentParser):
@@ -45,8 +39,7 @@ def build_parser():
     parser.add_argument("--version", action="version", version=f"frontshift {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     sub.required = True
-    for name in COMMANDS:
-        module = importlib.import_module(f"kit.cli.{name}")
+    for module in COMMANDS:
         module.add_parser(sub)
     return parser
 

@@ -5,7 +5,11 @@ from pathlib import Path
 import pandas as pd
 
 from kit import CAUTION
+from kit.charts.verification import position_error_figure, timing_error_figure
 from kit.errors import InputError
+from kit.products.files import new_product_dir, save_figure, write_csv, write_html_table
+from kit.products.rerun import rerun_events
+from kit.science.verification import summarise_position, summarise_timing
 
 __all__ = ["add_parser", "run"]
 
@@ -31,9 +35,6 @@ def add_parser(subparsers):
 
 def run(args):
     """Run the verification and write its products; return 0."""
-    from kit.products.files import new_product_dir, save_figure, write_csv, write_html_table
-    from kit.science.verification import rerun_events, summarise_position, summarise_timing
-
     if args.workers < 1:
         raise InputError(f"--workers {args.workers}: expected 1 or more")
     events = [Path(e) for e in args.events]
@@ -57,7 +58,6 @@ def run(args):
     label = ", ".join(e.resolve().name for e in events)
     write_html_table(out / "timing_summary.html", t_sum,
                      f"Passage timing errors by lead time and front kind: {label}", CAUTION)
-    from kit.charts.verification import position_error_figure, timing_error_figure
 
     source = f"frontshift rerun of {label}: forecast runs vs station series and analyses"
     save_figure(timing_error_figure(timing, title_run=label, source=source),

@@ -53,8 +53,7 @@ def _check_netcdf_file(path):
 
 def _check_classic_complete(path):
     """Raise unless a NetCDF-3 file is as long as its header says (truncation check)."""
-    # scipy.io is needed only for this rare check (NetCDF-3 files), so imported here
-    from scipy.io import netcdf_file
+    from scipy.io import netcdf_file  # optional: only NetCDF-3 files need it, imported here
 
     failure = None
     with warnings.catch_warnings():

@@ -60,12 +60,26 @@ import math
 import numpy as np
 import pandas as pd
 import xarray as xr
+from scipy.ndimage import map_coordinates, spline_filter
 
 from kit import CAUTION
+from kit.constants import (
+    FT_PER_M,
+    G0,
+    KT_PER_MS,
+    NM_KM,
+    RD,
+    T0_K,
+    TYPICAL_SLOPE_1_IN,
+    ZONE_CENTRE_FACTOR,
+)
 from kit.errors import InputError
+from kit.io.sites import grid_extent_text, read_sites
 from kit.model import Analysis
-from kit.io.sites import grid_extent_text, grid_positions, read_sites
-from kit.science.geo import local_east_north_km
+from kit.science import fronts as kf
+from kit.science import geo, thermo
+from kit.science.geo import PointSampler, direction_bearing_deg, local_east_north_km
+from kit.timefmt import iso_minutes
 
 __all__ = [
     "CONTRACT_COLUMNS",
@@ -75,8 +89,6 @@ __all__ = [
     "CLOUD_RH",
     "SNOW_WBFL_M",
     "LIGHT_WIND_KT",
-    "TYPICAL_SLOPE_1_IN",
-    "ZONE_CENTRE_FACTOR",
     "site_series",
     "signed_distance_km",
     "find_passages",
@@ -193,22 +205,13 @@ CLOUD_RH = 0.95
 SNOW_WBFL_M = 300.0
 #: wind speed under which a wind turn is flagged as uncertain [kt] (common practice, no source)
 LIGHT_WIND_KT = 3.0
-#: typical slopes 1:N when the front has none (REFERENCES.md, [trade])
-TYPICAL_SLOPE_1_IN = {"warm": 150.0, "cold": 50.0}
-#: distance from the locating line to the zone centre per |grad tau| / TFP [1]. For a
-#: tanh zone the TFP peaks at x = atanh(1/sqrt 3) L = 0.658 L (REFERENCES.md, analytic
-#: check) where |grad tau| / TFP = 0.5 / tanh(x / L) = (sqrt 3 / 2) L; ratio 0.7603
-ZONE_CENTRE_FACTOR = math.atanh(1.0 / math.sqrt(3.0)) / (math.sqrt(3.0) / 2.0)
+# typical slopes (TYPICAL_SLOPE_1_IN) and the line-to-zone-centre factor
+# (ZONE_CENTRE_FACTOR) are in kit.constants, with their sources
 _MAX_CENTRE_KM = 300.0
 #: rule of thumb distances [nautical miles] (REFERENCES.md, [trade])
 WARM_RAIN_AHEAD_NM = (200.0, 300.0)
 COLD_HEAVY_BEHIND_NM = (50.0, 100.0)
 
-_KT_PER_MS = 3600.0 / 1852.0  # knots per m s-1 (1 nautical mile = 1852 m, exact)
-_FT_PER_M = 1.0 / 0.3048  # feet per metre (international foot, exact)
-_KMH_PER_KT = 1.852
-_T0 = 273.15
-_RD, _G0 = 287.04, 9.80665
 _MAX_FRONT_SPEED_KMH = 60.0 * 3.6  # faster than 60 m/s is a mismatched line, not motion
 
 
@@ -243,18 +246,17 @@ def format_utc(value):
     ts = pd.Timestamp(value)
     if pd.isna(ts):
         return ""
-    if ts.tzinfo is not None:
-        ts = ts.tz_convert("UTC").tz_localize(None)
-    return ts.round("min").strftime("%Y-%m-%dT%H:%MZ")
+    return iso_minutes(ts.round("min"))
 
 
 # ------------------------------------------------------------------------- thermo
 
 
 def _thermo():
-    """Point thermodynamics of kit.science.thermo on numpy arrays (K and hPa in; K or fraction out)."""
-    from kit.science import thermo
+    """Point thermodynamics of kit.science.thermo on numpy arrays.
 
+    K and hPa in; K or a fraction out.
+    """
     return {
         "rh": lambda t, td: np.asarray(thermo.relative_humidity(t, td), dtype=float),
         "tw": lambda t, td, p: np.asarray(thermo.wet_bulb_temperature(t, td, p), dtype=float),
@@ -284,21 +286,20 @@ def _cross(z0, z1, x0, x1, level):
     return z0 + (level - x0) * (z1 - z0) / (x1 - x0)
 
 
-def _highest_zero(z, tc):
-    """Return the height of the highest 0 C crossing [m].
+def _columns(z_lev, x_lev, z_sfc, x_sfc):
+    """Profiles above the ground with the surface point first, for every column at once.
 
-    The ground when the column is sub-zero throughout; NaN when above 0 C to the top.
+    ``z_lev``, ``x_lev`` are (..., level); ``x_sfc`` is (...). Levels at or
+    below the ground (and missing values) become NaN, which the profile
+    functions of :mod:`kit.science.thermo` skip. Returns (z, x) of shape
+    (..., 1 + level).
     """
-    if z.size == 0:
-        return np.nan
-    if np.all(tc <= 0.0):
-        return float(z[0])
-    if tc[-1] > 0.0:
-        return np.nan
-    for k in range(z.size - 2, -1, -1):
-        if tc[k] > 0.0 >= tc[k + 1]:
-            return float(_cross(z[k], z[k + 1], tc[k], tc[k + 1], 0.0))
-    return float(z[0])
+    keep = np.isfinite(z_lev) & np.isfinite(x_lev) & (z_lev > z_sfc + 1.0)
+    x_sfc = np.broadcast_to(np.asarray(x_sfc, float), z_lev.shape[:-1])
+    z0 = np.where(np.isfinite(x_sfc), float(z_sfc), np.nan)[..., None]
+    z = np.concatenate([z0, np.where(keep, z_lev, np.nan)], axis=-1)
+    x = np.concatenate([x_sfc[..., None], np.where(keep, x_lev, np.nan)], axis=-1)
+    return z, x
 
 
 def _lowest_saturated(z, rh, threshold):
@@ -311,26 +312,6 @@ def _lowest_saturated(z, rh, threshold):
         if rh[k] < threshold <= rh[k + 1]:
             return float(_cross(z[k], z[k + 1], rh[k], rh[k + 1], threshold))
     return np.nan
-
-
-def _warm_layer(z, tc):
-    """Find a layer above 0 C aloft over sub-zero air at the ground.
-
-    Returns (base_m, top_m, max_c, cold_min_c), NaN where there is none.
-    """
-    none = (np.nan, np.nan, np.nan, np.nan)
-    if z.size < 2 or not tc[0] < 0.0:
-        return none
-    warm = np.nonzero(tc > 0.0)[0]
-    if warm.size == 0:
-        return none
-    k = warm[0]
-    m = k
-    while m + 1 < z.size and tc[m + 1] > 0.0:
-        m += 1
-    base = _cross(z[k - 1], z[k], tc[k - 1], tc[k], 0.0)
-    top = _cross(z[m], z[m + 1], tc[m], tc[m + 1], 0.0) if m + 1 < z.size else np.nan
-    return float(base), float(top), float(np.max(tc[k : m + 1])), float(np.min(tc[:k]))
 
 
 # ----------------------------------------------------------------- site series
@@ -348,70 +329,6 @@ def _site_fields(site):
     elev = site.get("elevation_m", np.nan) if hasattr(site, "get") else np.nan
     elev = float(elev) if elev is not None and np.isfinite(float(elev)) else np.nan
     return name, lat, lon, elev
-
-
-def _dims(ds):
-    if "lat" in ds.dims and "lon" in ds.dims:
-        return "lat", "lon"
-    if "y" in ds.dims and "x" in ds.dims:
-        return "y", "x"
-    raise InputError(
-        "dataset: no lat/lon or y/x grid dimensions; expected the canonical dataset of kit.open_run"
-    )
-
-
-def _corners(ds, row, col):
-    """Grid indices and weights of the four nodes around fractional (row, col)."""
-    ydim, xdim = _dims(ds)
-    ny, nx = ds.sizes[ydim], ds.sizes[xdim]
-    j0 = min(int(math.floor(row)), ny - 2) if ny > 1 else 0
-    wy = row - j0 if ny > 1 else 0.0
-    i0 = int(math.floor(col))
-    if i0 >= nx - 1 and col > nx - 1:  # wrapping cell of a global grid
-        i1, wx = 0, col - i0
-        i0 = nx - 1
-    else:
-        i0 = min(i0, nx - 2) if nx > 1 else 0
-        i1, wx = (i0 + 1 if nx > 1 else 0), (col - i0 if nx > 1 else 0.0)
-    j1 = j0 + 1 if ny > 1 else 0
-    return [
-        (j0, i0, (1 - wy) * (1 - wx)),
-        (j0, i1, (1 - wy) * wx),
-        (j1, i0, wy * (1 - wx)),
-        (j1, i1, wy * wx),
-    ]
-
-
-def _bilinear_many(ds, positions):
-    """Bilinear interpolation of every horizontal field to fractional positions; NaN-aware.
-
-    One read of the four corner columns of every site for every field (a single
-    dask compute on lazily loaded runs). Returns one Dataset per position.
-    """
-    ydim, xdim = _dims(ds)
-    corners = [_corners(ds, r, c) for r, c in positions]
-    drop = [c for c in ds.coords if ydim in ds[c].dims or xdim in ds[c].dims]
-    names = [n for n, da in ds.data_vars.items() if ydim in da.dims and xdim in da.dims]
-    jj = xr.DataArray([[c[0] for c in cs] for cs in corners], dims=("_site", "_corner"))
-    ii = xr.DataArray([[c[1] for c in cs] for cs in corners], dims=("_site", "_corner"))
-    w = xr.DataArray([[c[2] for c in cs] for cs in corners], dims=("_site", "_corner"))
-    sub = ds[names].isel({ydim: jj, xdim: ii}).drop_vars(drop, errors="ignore").load()
-    out = []
-    for k in range(len(positions)):
-        one = {}
-        for name in names:
-            v = sub[name].isel(_site=k).astype(float)
-            ok = np.isfinite(v)
-            wk = w.isel(_site=k)
-            wsum = (ok * wk).sum("_corner")
-            acc = (v.where(ok, 0.0) * wk).sum("_corner")
-            one[name] = (acc / wsum.where(wsum > 0)).assign_attrs(ds[name].attrs)
-        res = xr.Dataset(one)
-        for c in ("time", "level", "member", "reference_time"):
-            if c in ds.coords and c not in res.coords:
-                res = res.assign_coords({c: ds[c]})
-        out.append(res)
-    return out
 
 
 def _wind_dir(u, v):
@@ -471,7 +388,9 @@ def _series_many(ds, sites):
                 "expected the canonical dataset (DEVELOPERS.md)"
             )
     fields = [_site_fields(row) for _, row in sites.iterrows()]
-    positions = grid_positions(ds, [f[1] for f in fields], [f[2] for f in fields])
+    sampler = PointSampler(ds)
+    rows, cols = sampler.index([f[2] for f in fields], [f[1] for f in fields])
+    positions = np.column_stack([rows, cols])
     for (name, lat, lon, _), (row, col) in zip(fields, positions, strict=True):
         if not (np.isfinite(row) and np.isfinite(col)):
             raise InputError(
@@ -479,7 +398,13 @@ def _series_many(ds, sites):
                 f"{ds.attrs.get('run', 'the run')} ({grid_extent_text(ds)}); "
                 "expected a site inside the model domain"
             )
-    interpolated = _bilinear_many(ds, [tuple(p) for p in positions])
+    # bilinear, NaN-aware (levels below the ground); reads only the corner columns
+    at_sites = sampler.sample_dataset(ds, index=(rows, cols), nan="skip", dim="_site")
+    at_sites = at_sites.drop_vars(
+        [c for c in at_sites.coords if c not in ("time", "level", "member", "reference_time")]
+    )
+    at_sites.attrs = {}
+    interpolated = [at_sites.isel(_site=k) for k in range(len(fields))]
     return {
         f[0]: _derive(ds, s, *f, *pos)
         for f, pos, s in zip(fields, positions, interpolated, strict=True)
@@ -497,7 +422,7 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
     # surface pressure [hPa]
     if "mslp" in s:
         tmean = (s["t2m"] if "t2m" in s else t.isel(level=0)) + 0.0065 * z_sfc / 2.0
-        p_sfc = s["mslp"] / 100.0 * np.exp(-_G0 * z_sfc / (_RD * tmean))
+        p_sfc = s["mslp"] / 100.0 * np.exp(-G0 * z_sfc / (RD * tmean))
     else:
         lnp = np.log(lev)
 
@@ -533,14 +458,14 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
 
     # column products, looped over [member,] time
     lead = [d for d in t.dims if d != "level"]
-    tt = t.transpose(*lead, "level").values - _T0
-    twv = s["tw"].transpose(*lead, "level").values - _T0
+    tt = t.transpose(*lead, "level").values - T0_K
+    twv = s["tw"].transpose(*lead, "level").values - T0_K
     rhv = s["rh"].transpose(*lead, "level").values
     zz = z.transpose(*lead, "level").values
     shape = tt.shape[:-1]
     nan = np.full(shape, np.nan)
-    t_s = s["t2m"].transpose(*lead).values - _T0 if has_sfc else nan
-    tw_s = s["tw2m"].transpose(*lead).values - _T0 if has_sfc else nan
+    t_s = s["t2m"].transpose(*lead).values - T0_K if has_sfc else nan
+    tw_s = s["tw2m"].transpose(*lead).values - T0_K if has_sfc else nan
     rh_s = s["rh2m"].transpose(*lead).values if has_sfc else nan
     names = [
         "freezing_level_m",
@@ -552,16 +477,18 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
         "cold_layer_min_c",
     ]
     res = {k: np.full(shape, np.nan) for k in names}
+    # 0 C and wet-bulb 0 C levels and the warm layer aloft: kit.science.thermo, every column
+    zc, tc = _columns(zz, tt, z_sfc, t_s)
+    zw, twc = _columns(zz, twv, z_sfc, tw_s)
+    res["freezing_level_m"][...] = thermo.freezing_level(tc + T0_K, zc, dim=-1)
+    res["wet_bulb_freezing_level_m"][...] = thermo.freezing_level(twc + T0_K, zw, dim=-1)
+    top, base, tmax, tmin = thermo.warm_layer_aloft(tc + T0_K, zc, dim=-1, cold_min=True)
+    res["warm_layer_base_m"][...], res["warm_layer_top_m"][...] = base, top
+    res["warm_layer_max_c"][...] = np.asarray(tmax) - T0_K
+    res["cold_layer_min_c"][...] = np.asarray(tmin) - T0_K
     for idx in np.ndindex(*shape):
-        zc, tc = _column(zz[idx], tt[idx], z_sfc, t_s[idx])
-        res["freezing_level_m"][idx] = _highest_zero(zc, tc)
-        zw, tw_c = _column(zz[idx], twv[idx], z_sfc, tw_s[idx])
-        res["wet_bulb_freezing_level_m"][idx] = _highest_zero(zw, tw_c)
         zr, rc = _column(zz[idx], rhv[idx], z_sfc, rh_s[idx])
         res["cloud_base_m"][idx] = _lowest_saturated(zr, rc, CLOUD_RH) - z_sfc
-        b, tp, mx, cm = _warm_layer(zc, tc)
-        res["warm_layer_base_m"][idx], res["warm_layer_top_m"][idx] = b, tp
-        res["warm_layer_max_c"][idx], res["cold_layer_min_c"][idx] = mx, cm
     units = {
         "freezing_level_m": "m above mean sea level",
         "wet_bulb_freezing_level_m": "m above mean sea level",
@@ -736,9 +663,8 @@ class _ZoneCentre:
     """
 
     def __init__(self, ds, settings=None, max_km=_MAX_CENTRE_KM, step_km=2.0):
-        from kit.science import fronts as kf
-
         self.ds = ds
+        self.sampler = PointSampler(ds)
         self.settings = settings if settings is not None else kf.FrontSettings()
         self.max_km, self.step_km = max_km, step_km
         self._cache, self._levels = {}, {}
@@ -746,12 +672,6 @@ class _ZoneCentre:
     def _grad(self, level, time):
         key = (float(level), np.datetime64(time, "ns"))
         if key not in self._cache:
-            from scipy.ndimage import spline_filter
-
-            from kit.science import fronts as kf
-            from kit.science import geo
-            from kit.science import thermo
-
             if key[0] not in self._levels:  # read the level once for every time
                 keep = [v for v in ("t", "td") if v in self.ds]
                 self._levels[key[0]] = self.ds[keep].sel(level=[key[0]]).load()
@@ -769,10 +689,6 @@ class _ZoneCentre:
 
     def offset_km(self, front, lat, lon):
         """Offset [km] toward the cold side at the vertex nearest to (lat, lon); NaN if none."""
-        from scipy.ndimage import map_coordinates
-
-        from kit.science import geo
-
         if front.level_hpa is None:
             return np.nan
         lon_v = np.asarray(front.lon, dtype=float)
@@ -782,7 +698,7 @@ class _ZoneCentre:
         ne, nn = float(front.normal_east[k]), float(front.normal_north[k])
         if not (np.isfinite(ne) and np.isfinite(nn)) or ne == nn == 0:
             return np.nan
-        bearing = math.degrees(math.atan2(ne, nn))
+        bearing = direction_bearing_deg(ne, nn)
         dist = np.arange(0.0, self.max_km + self.step_km / 2, self.step_km)
         plon, plat = geo.destination(
             np.full(dist.size, lon_v[k]),
@@ -790,7 +706,7 @@ class _ZoneCentre:
             np.full(dist.size, bearing),
             dist,
         )
-        pos = grid_positions(self.ds, plat, plon)
+        pos = np.column_stack(self.sampler.index(plon, plat))
         ok = np.all(np.isfinite(pos), axis=1)
         if ok.sum() < 5 or not ok[0]:
             return np.nan
@@ -937,7 +853,7 @@ def find_passages(
                     "track": tid,
                     "front_kind": kind,
                     "passage": tp,
-                    "speed_kt": rate / _KMH_PER_KT,
+                    "speed_kt": rate / NM_KM,
                     "extrapolated": False,
                     "surface_offset_km": shift,
                     "zone_centre_offset_km": centre,
@@ -968,7 +884,7 @@ def find_passages(
                                 "track": tid,
                                 "front_kind": fK.kind,
                                 "passage": tp,
-                                "speed_kt": abs(rate) / _KMH_PER_KT,
+                                "speed_kt": abs(rate) / NM_KM,
                                 "extrapolated": True,
                                 "surface_offset_km": gK["shift"],
                                 "zone_centre_offset_km": gK["centre"],
@@ -1134,9 +1050,9 @@ def weather_sequence(
     )
     row["wind_turn_deg"] = _round(turn)
     # a direction in light air means little (common practice, no source)
-    light = min(sb, sa) * _KT_PER_MS < LIGHT_WIND_KT if np.isfinite(turn) else False
-    row["wind_before_kt"] = _round(sb * _KT_PER_MS)
-    row["wind_after_kt"] = _round(sa * _KT_PER_MS)
+    light = min(sb, sa) * KT_PER_MS < LIGHT_WIND_KT if np.isfinite(turn) else False
+    row["wind_before_kt"] = _round(sb * KT_PER_MS)
+    row["wind_after_kt"] = _round(sa * KT_PER_MS)
     # temperatures
     row["temp_change_c"] = _round(at("t2m", ha) - at("t2m", hb), 1)
     row["dewpoint_change_c"] = _round(at("td2m", ha) - at("td2m", hb), 1)
@@ -1162,11 +1078,11 @@ def weather_sequence(
         )
     # cloud base proxy [ft above site]
     cb = np.asarray(series["cloud_base_m"].values, dtype=float)
-    row["cloud_base_before_ft_agl"] = _round(at("cloud_base_m", hb) * _FT_PER_M, -2)
+    row["cloud_base_before_ft_agl"] = _round(at("cloud_base_m", hb) * FT_PER_M, -2)
     win = (th >= passage_h - 12.0) & (th <= passage_h + window_h) & np.isfinite(cb)
     if win.any():
         k = np.nonzero(win)[0][int(np.argmin(cb[win]))]
-        row["cloud_base_min_ft_agl"] = _round(cb[k] * _FT_PER_M, -2)
+        row["cloud_base_min_ft_agl"] = _round(cb[k] * FT_PER_M, -2)
         row["cloud_base_min_utc"] = format_utc(series["time"].values[k])
     else:
         row["cloud_base_min_ft_agl"], row["cloud_base_min_utc"] = np.nan, ""

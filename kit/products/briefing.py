@@ -27,9 +27,12 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+from matplotlib.backends.backend_pdf import PdfPages
 
 from kit import CAUTION, __version__
+from kit.charts import style
 from kit.errors import InputError, OutputError
+from kit.products.files import write_bytes
 
 __all__ = ["BriefingPack", "cover_figure", "table_figures", "TABLE_COLUMNS"]
 
@@ -115,8 +118,6 @@ def cover_figure(*, runs, valid_window, source, sites=None, summary=None, conten
     matplotlib.figure.Figure
         Stamped (A4 landscape).
     """
-    from kit.charts import style
-
     fig, ax = style.new_figure(figsize=(11.69, 8.27), left_in=0.8, right_in=0.8)
     ax.axis("off")
     y = 0.97
@@ -185,8 +186,6 @@ def table_figures(frame, *, title, run, valid_time=None, source="", columns=None
     -------
     list of matplotlib.figure.Figure
     """
-    from kit.charts import style
-
     if not isinstance(frame, pd.DataFrame):
         raise InputError(f"table page: got {type(frame).__name__}; expected a pandas DataFrame")
     if rows_per_page < 1:
@@ -269,8 +268,6 @@ class BriefingPack:
 
     def __init__(self, path, *, runs, valid_window, source, sites=None, summary=None,
                  contents=None, overwrite=False, cover=True):
-        from matplotlib.backends.backend_pdf import PdfPages
-
         self.path = Path(path)
         if self.path.suffix.lower() != ".pdf":
             raise InputError(f"{self.path}: briefing pack must end in .pdf")
@@ -323,7 +320,6 @@ class BriefingPack:
             return self.path
         self._pdf.close()
         self._closed = True
-        from kit.products.files import write_bytes
 
         return write_bytes(self.path, self._buffer.getvalue(), overwrite=self.overwrite)
 

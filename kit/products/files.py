@@ -8,6 +8,7 @@ product is never lost. An existing file is replaced only with
 """
 
 import contextlib
+import html
 import io
 import json
 import os
@@ -131,8 +132,6 @@ def write_csv(path, frame, overwrite=False):
 
 def write_html_table(path, frame, title, caution, overwrite=False):
     """Write a DataFrame as a small stand-alone HTML page with title and caution."""
-    import html
-
     body = frame.to_html(index=False, na_rep="", border=0, classes="fs-table")
     page = (
         "<!DOCTYPE html>\n<html><head><meta charset='utf-8'>"

@@ -54,13 +54,14 @@ import math
 import threading
 from dataclasses import dataclass
 
+import contourpy
 import numpy as np
 import pandas as pd
 import xarray as xr
 
 from kit.errors import InputError
 from kit.model import Front, FrontDetection
-from kit.science import geo
+from kit.science import geo, thermo
 from kit.timefmt import iso_seconds
 
 __all__ = [
@@ -249,12 +250,12 @@ def _tau_fields(tau, grid, ws=None):
     if ws is None:
         ws = [np.empty(tau.shape, dtype=tau.dtype) for _ in range(_N_WORK)]
     gx, gy, mag, mx, my, ux, uy, tfp, loc, k2q, tmp = ws[:_N_WORK]
-    geo._gradient_np(tau, grid, out=(gx, gy))
+    geo.gradient_np(tau, grid, out=(gx, gy))
     np.multiply(gx, gx, out=mag)  # |grad tau| (sqrt of squares: faster than hypot)
     np.multiply(gy, gy, out=tmp)
     mag += tmp
     np.sqrt(mag, out=mag)
-    geo._gradient_np(mag, grid, out=(mx, my))
+    geo.gradient_np(mag, grid, out=(mx, my))
     np.multiply(mx, mx, out=k2q)
     np.multiply(my, my, out=tmp)
     k2q += tmp
@@ -268,7 +269,7 @@ def _tau_fields(tau, grid, ws=None):
     np.multiply(my, uy, out=tmp)
     tfp += tmp
     np.negative(tfp, out=tfp)
-    geo._gradient_np(tfp, grid, out=(mx, my))  # mx, my now hold grad TFP
+    geo.gradient_np(tfp, grid, out=(mx, my))  # mx, my now hold grad TFP
     np.multiply(mx, ux, out=loc)
     np.multiply(my, uy, out=tmp)
     loc += tmp
@@ -286,7 +287,7 @@ def _tau_fields(tau, grid, ws=None):
 
 
 def _as_numpy_with_grid(tau, ds, what):
-    grid = geo._grid(ds)
+    grid = geo.grid_of(ds)
     if isinstance(tau, xr.DataArray):
         arr = np.asarray(tau.values, dtype=np.float64)
     else:
@@ -348,7 +349,6 @@ def thermal_front_parameter(tau, ds):
     Notes
     -----
     The definition of [RenardClarke1965] (equation number not checked):
-
     .. math:: \mathrm{TFP} = -\nabla|\nabla\tau| \cdot \frac{\nabla\tau}{|\nabla\tau|}
 
     For tau = (dT/2) tanh(x/L) it peaks at 0.385 dT/L^2 at x = 0.658 L.
@@ -448,8 +448,6 @@ def _trace_zero_lines(loc_masked, periodic):
     periodic grid (take it modulo nx). Only the rows (and, on a regional
     grid, the columns) holding valid values are handed to contourpy.
     """
-    import contourpy
-
     valid = np.isfinite(loc_masked)
     rows = np.flatnonzero(valid.any(axis=1))
     if rows.size < 2:
@@ -740,8 +738,6 @@ def _select_times(ds, times):
 
 
 def _tau_of(ds, level, settings):
-    from kit.science import thermo
-
     if settings.field == "theta_w":
         if "td" not in ds:
             raise InputError(
@@ -881,7 +877,7 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
     level_index(ds, level, "level")
     level_index(ds, s.steering_level_hpa, "steering level")
     ds = _select_times(ds, times)
-    grid = geo._grid(ds)
+    grid = geo.grid_of(ds)
     smoothing_km = effective_smoothing_km(ds, s)
     k1_def, k2_def = default_thresholds(smoothing_km)
     k1 = k1_def if s.k1 is None else float(s.k1)
@@ -933,7 +929,7 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
                 # rounding (1e-6 K) stays far below third differences of tau
                 ref = float(np.nanmean(tau[::7, ::7])) if np.isfinite(tau[::7, ::7]).any() else 0.0
                 np.subtract(tau, ref, out=ws[-3], casting="unsafe")
-                geo._smooth_np(ws[-3], grid, smoothing_km, out=ws[-2], tmp=ws[-1], cbuf=cbuf)
+                geo.smooth_np(ws[-3], grid, smoothing_km, out=ws[-2], tmp=ws[-1], cbuf=cbuf)
                 f = _tau_fields(ws[-2], grid, ws[:_N_WORK])
 
                 def get_uv(dt_=dt_):

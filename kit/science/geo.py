@@ -287,7 +287,7 @@ def _grid_key(ds):
         return None
 
 
-def _grid(ds, map_factor=None):
+def grid_of(ds, map_factor=None):
     """Return the grid of ``ds`` (a _Grid), from a small cache of recent grids."""
     if isinstance(ds, _Grid):
         return ds
@@ -365,7 +365,7 @@ def grid_spacing(ds, *, map_factor=None):
     >>> round(float(dy[1, 0]) / 1000, 1)
     111.2
     """
-    g = _grid(ds, map_factor)
+    g = grid_of(ds, map_factor)
     return np.abs(np.array(g.dx, dtype=np.float64)), np.abs(np.array(g.dy, dtype=np.float64))
 
 
@@ -382,12 +382,12 @@ def grid_length_km(ds):
     float
         Grid length [km]; 1 degree of latitude is 111.2 km.
     """
-    return _grid(ds).length_m / 1000.0
+    return grid_of(ds).length_m / 1000.0
 
 
 def is_periodic(ds):
     """Tell whether a regular grid's longitudes close the full circle (gradients wrap)."""
-    return _grid(ds).periodic
+    return grid_of(ds).periodic
 
 
 # --------------------------------------------------------------------------- public: fields
@@ -467,7 +467,7 @@ def _nan_rows(arr):
     return row_any
 
 
-def _gradient_np(arr, g, out=None):
+def gradient_np(arr, g, out=None):
     """Gradient of a float ndarray on a _Grid: (d_east, d_north) [m-1].
 
     ``out`` is an optional pair of buffers like ``arr`` for the result.
@@ -538,10 +538,10 @@ def gradient(field, ds, *, map_factor=None):
     >>> round(float(dn[2, 2]) * 111195, 3)
     1.0
     """
-    g = _grid(ds, map_factor)
+    g = grid_of(ds, map_factor)
     arr, wrap = _values(field)
     _check_shape(arr, g, "gradient")
-    d_east, d_north = _gradient_np(arr, g)
+    d_east, d_north = gradient_np(arr, g)
     units = None
     if isinstance(field, xr.DataArray) and "units" in field.attrs:
         units = f"({field.attrs['units']}) m-1"
@@ -604,7 +604,7 @@ def _smooth_plan(g, scale_km, dtype):
     return plan
 
 
-def _smooth_np(arr, g, scale_km, out=None, tmp=None, cbuf=None):
+def smooth_np(arr, g, scale_km, out=None, tmp=None, cbuf=None):
     """Smooth a float ndarray (..., Y, X) on a _Grid; optional work buffers.
 
     ``out`` receives the result (may not be ``arr``); ``tmp`` is a buffer
@@ -712,7 +712,7 @@ def smooth(field, ds, scale_km):
         ) from None
     if not np.isfinite(scale_km) or scale_km < 0:
         raise InputError(f"smooth: scale_km={scale_km}; expected a finite length >= 0 km")
-    g = _grid(ds)
+    g = grid_of(ds)
     arr, wrap = _values(field)
     _check_shape(arr, g, "smooth")
     if scale_km == 0:
@@ -721,7 +721,7 @@ def smooth(field, ds, scale_km):
         )
     units = field.attrs.get("units") if isinstance(field, xr.DataArray) else None
     name = field.name if isinstance(field, xr.DataArray) else None
-    work = _smooth_np(arr, g, scale_km)
+    work = smooth_np(arr, g, scale_km)
     return wrap(work, name, units)
 
 
@@ -1258,4 +1258,5 @@ def _weighted_corners(values, w, nan):
         return np.where(np.isfinite(w[..., 0]), out, np.nan)
     if nan != "propagate":
         raise InputError(f"sample: nan={nan!r}; expected 'propagate' or 'skip'")
-    return np.sum(values * np.nan_to_num(w), axis=-1) + np.where(np.isfinite(w[..., 0]), 0.0, np.nan)
+    outside = np.where(np.isfinite(w[..., 0]), 0.0, np.nan)
+    return np.sum(values * np.nan_to_num(w), axis=-1) + outside

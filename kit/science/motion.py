@@ -39,15 +39,12 @@ from collections import defaultdict
 import numpy as np
 import xarray as xr
 
+from kit.constants import EARTH_RADIUS_KM, G0, OMEGA, RD
 from kit.errors import InputError
 from kit.model import FrontMotion, TrackLink, json_float
+from kit.science.geo import PointSampler, gradient
 
 __all__ = [
-    "OMEGA",
-    "G0",
-    "RD",
-    "EARTH_RADIUS_KM",
-    "KT_PER_MS",
     "MIN_ABS_LAT_DEG",
     "coriolis_parameter",
     "geostrophic_wind",
@@ -56,16 +53,6 @@ __all__ = [
     "speeds_three_ways",
 ]
 
-#: Earth's angular velocity [rad s-1]
-OMEGA = 7.292115e-5
-#: standard gravity [m s-2] (the value the canonical ``z`` is divided by)
-G0 = 9.80665
-#: gas constant of dry air [J kg-1 K-1]
-RD = 287.04
-#: mean Earth radius [km] (IUGG mean radius R1)
-EARTH_RADIUS_KM = 6371.0088
-#: knots per metre per second (1 kt = 1852 m / 3600 s)
-KT_PER_MS = 3600.0 / 1852.0
 #: geostrophic winds are NaN equatorward of this latitude [degrees]
 MIN_ABS_LAT_DEG = 10.0
 
@@ -126,7 +113,6 @@ def geostrophic_speed(dp_pa, dist_km, lat, rho=1.25):
     Examples
     --------
     4 hPa over 200 km at 50 N (REFERENCES.md, Front motion):
-
     >>> round(float(geostrophic_speed(400.0, 200.0, 50.0)), 1)
     14.3
     """
@@ -188,7 +174,6 @@ def geostrophic_wind(
     Notes
     -----
     .. math::
-
         u_g = -\frac{g_0}{f}\frac{\partial z}{\partial y},\quad
         v_g = \frac{g_0}{f}\frac{\partial z}{\partial x}
         \qquad\text{or}\qquad
@@ -199,8 +184,6 @@ def geostrophic_wind(
     [REFERENCES, Front motion]). Gradients come from
     :func:`kit.science.geo.gradient` (on the sphere, or on the projection).
     """
-    from kit.science.geo import gradient
-
     if kind not in ("height", "mslp"):
         raise InputError(f"geostrophic_wind: kind={kind!r} unknown; expected 'height' or 'mslp'")
     d_east, d_north = gradient(height_or_pressure, ds)
@@ -274,7 +257,7 @@ def _aeqd_km(lon, lat, lon0, lat0):
     return d * np.sin(b), d * np.cos(b)
 
 
-def _destination(lon, lat, east, north, dist_km):
+def destination_along(lon, lat, east, north, dist_km):
     """Point ``dist_km`` [km] from (lon, lat) along the local direction (east, north).
 
     Negative distances go the opposite way. Longitudes are kept continuous
@@ -332,127 +315,7 @@ def _weighted_median(values, weights):
 # --------------------------------------------------------------------------
 # sampling a gridded field at points
 # --------------------------------------------------------------------------
-class _PointSampler:
-    """Bilinear sampling of 2-D (Y, X) fields of a canonical dataset at lon/lat points.
-
-    Regular grids (1-D ``lat``/``lon``) use the coordinate values directly,
-    wrapping longitude for global grids and accepting any longitude of the
-    point (shifted by 360 into the grid's range). Projected grids (2-D
-    ``lat``/``lon``) find the nearest grid point on the unit sphere, then
-    refine the fractional index with Newton steps on the local east/north
-    plane. Points outside the grid, or next to a NaN, give NaN.
-    """
-
-    def __init__(self, ds):
-        lat, lon = ds["lat"], ds["lon"]
-        self.regular = lat.ndim == 1
-        if self.regular:
-            self.lat = np.asarray(lat.values, float)
-            self.lon = np.asarray(lon.values, float)
-            if self.lat.size < 2 or self.lon.size < 2:
-                raise InputError(
-                    "grid: need at least 2 latitudes and 2 longitudes to sample fields"
-                )
-            if self.lat[0] > self.lat[-1]:
-                raise InputError(
-                    "grid: latitude must be ascending (canonical dataset, DEVELOPERS.md)"
-                )
-            dlon = float(np.median(np.diff(self.lon)))
-            span = self.lon[-1] - self.lon[0] + dlon
-            self.periodic = abs(span - 360.0) < 0.5 * dlon
-        else:
-            from scipy.spatial import cKDTree
-
-            self.lat2 = np.asarray(lat.values, float)
-            self.lon2 = np.asarray(lon.values, float)
-            self._tree = cKDTree(self._xyz(self.lon2.ravel(), self.lat2.ravel()))
-            self.periodic = False
-
-    @staticmethod
-    def _xyz(lon, lat):
-        lo, la = np.deg2rad(lon), np.deg2rad(lat)
-        return np.column_stack([np.cos(la) * np.cos(lo), np.cos(la) * np.sin(lo), np.sin(la)])
-
-    def index(self, lon, lat):
-        """Fractional (j, i) indices of points; NaN outside the grid."""
-        lon = np.asarray(lon, float).ravel()
-        lat = np.asarray(lat, float).ravel()
-        if self.regular:
-            j = np.interp(lat, self.lat, np.arange(self.lat.size), left=np.nan, right=np.nan)
-            lon0 = self.lon[0]
-            lo = lon0 + np.mod(lon - lon0, 360.0)
-            n = self.lon.size
-            if self.periodic:
-                ext = np.append(self.lon, self.lon[0] + 360.0)
-                i = np.interp(lo, ext, np.arange(n + 1))
-            else:
-                i = np.interp(lo, self.lon, np.arange(n), left=np.nan, right=np.nan)
-            return j, i
-        ny, nx = self.lat2.shape
-        _, k = self._tree.query(self._xyz(lon, lat))
-        j = (k // nx).astype(float)
-        i = (k % nx).astype(float)
-        for _ in range(4):
-            jj = np.clip(np.round(j).astype(int), 0, ny - 2)
-            ii = np.clip(np.round(i).astype(int), 0, nx - 2)
-            la0 = self._bilin(self.lat2, j, i)
-            lo0 = self._bilin(self.lon2, j, i, wrap_ref=lon)
-            # local Jacobian of (east, north) km with respect to (i, j)
-            ex, ny_ = _aeqd_km(self.lon2[jj, ii + 1], self.lat2[jj, ii + 1], lo0, la0)
-            ey, ny2 = _aeqd_km(self.lon2[jj + 1, ii], self.lat2[jj + 1, ii], lo0, la0)
-            e0, n0 = _aeqd_km(self.lon2[jj, ii], self.lat2[jj, ii], lo0, la0)
-            a11, a21 = ex - e0, ny_ - n0
-            a12, a22 = ey - e0, ny2 - n0
-            te, tn = _aeqd_km(lon, lat, lo0, la0)
-            det = a11 * a22 - a12 * a21
-            with np.errstate(divide="ignore", invalid="ignore"):
-                di = (a22 * te - a12 * tn) / det
-                dj = (-a21 * te + a11 * tn) / det
-            i = i + np.nan_to_num(di)
-            j = j + np.nan_to_num(dj)
-        outside = (j < -0.01) | (j > ny - 0.99) | (i < -0.01) | (i > nx - 0.99)
-        j = np.where(outside, np.nan, np.clip(j, 0, ny - 1))
-        i = np.where(outside, np.nan, np.clip(i, 0, nx - 1))
-        return j, i
-
-    @staticmethod
-    def _bilin(field, j, i, wrap_ref=None):
-        """Bilinear value of a 2-D array at fractional (j, i); NaN where j or i is NaN.
-
-        With ``wrap_ref`` (longitudes [degrees], one per point) the corner
-        values are longitudes taken within 180 degrees of it, so a cell that
-        straddles the antimeridian interpolates across it, not around the globe.
-        """
-        ny, nx = field.shape
-        bad = ~(np.isfinite(j) & np.isfinite(i))
-        jj = np.where(bad, 0.0, j)
-        ii = np.where(bad, 0.0, i)
-        j0 = np.clip(np.floor(jj).astype(int), 0, max(ny - 2, 0))
-        i0 = np.clip(np.floor(ii).astype(int), 0, max(nx - 2, 0))
-        fj = jj - j0
-        fi = ii - i0
-        j1 = np.minimum(j0 + 1, ny - 1)
-        i1 = np.minimum(i0 + 1, nx - 1)
-        c00, c01, c10, c11 = field[j0, i0], field[j0, i1], field[j1, i0], field[j1, i1]
-        if wrap_ref is not None:
-            ref = np.asarray(wrap_ref, float)
-            c00, c01, c10, c11 = (
-                ref + np.mod(c - ref + 180.0, 360.0) - 180.0 for c in (c00, c01, c10, c11)
-            )
-        v = c00 * (1 - fj) * (1 - fi) + c01 * (1 - fj) * fi + c10 * fj * (1 - fi) + c11 * fj * fi
-        return np.where(bad, np.nan, v)
-
-    def sample(self, field, lon, lat):
-        """Bilinear values of a 2-D (Y, X) array at the points (shape of ``lon``)."""
-        shape = np.shape(lon)
-        field = np.asarray(field, float)
-        j, i = self.index(lon, lat)
-        if self.regular and self.periodic:
-            field = np.concatenate([field, field[:, :1]], axis=1)
-        return self._bilin(field, j, i).reshape(shape)
-
-
-def _select(ds, name, *, time=None, level=None, member=None):
+def select_field(ds, name, *, time=None, level=None, member=None):
     """2-D numpy (Y, X) slice of a canonical variable; one-line InputError if missing."""
     if name not in ds:
         raise InputError(
@@ -820,7 +683,6 @@ def speeds_three_ways(
     The geostrophic wind component along the normal :math:`\hat n` depends
     only on the pressure gradient along the front, :math:`\hat t = \hat k
     \times \hat n`:
-
     .. math:: V_{g,n} = -\frac{1}{\rho f}\frac{\partial p}{\partial t}
 
     read as :math:`(p(+d/2) - p(-d/2))/d` at each vertex. The rule speed is
@@ -828,14 +690,14 @@ def speeds_three_ways(
     front (common practice, no source; a quasi-stationary front takes the warm
     factor where :math:`V_{g,n} > 0`, the cold one otherwise).
     """
-    sampler = _PointSampler(ds)
+    sampler = PointSampler(ds)
     cache = {}
     out = []
 
     def field(name, t, level, member):
         key = (name, np.datetime64(t, "ns"), level, member)
         if key not in cache:
-            cache[key] = _select(ds, name, time=t, level=level, member=member)
+            cache[key] = select_field(ds, name, time=t, level=level, member=member)
         return cache[key]
 
     if "mslp" in ds:
@@ -856,8 +718,8 @@ def speeds_three_ways(
 
         te, tn = _tangent(fr)
         half = rule_distance_km / 2.0
-        lo_p, la_p = _destination(lon, lat, te, tn, half)
-        lo_m, la_m = _destination(lon, lat, te, tn, -half)
+        lo_p, la_p = destination_along(lon, lat, te, tn, half)
+        lo_m, la_m = destination_along(lon, lat, te, tn, -half)
         pf = field(rule_name, fr.valid_time, rule_level, fr.member)
         dp = sampler.sample(pf, lo_p, la_p) - sampler.sample(pf, lo_m, la_m)
         f = coriolis_parameter(lat)

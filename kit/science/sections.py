@@ -30,7 +30,7 @@ from pyproj import CRS, Transformer
 from scipy.ndimage import gaussian_filter1d
 
 from kit import CAUTION
-from kit.constants import EARTH_RADIUS_KM, EARTH_RADIUS_M, G0, NM_KM, OMEGA, T0_K
+from kit.constants import EARTH_RADIUS_KM, EARTH_RADIUS_M, G0, NM_KM, OMEGA
 from kit.errors import InputError
 from kit.science import thermo
 from kit.science.geo import (
@@ -169,7 +169,7 @@ def _grid_km(ds):
 
 
 def _grid_crs(ds):
-    """The CF grid mapping of a projected run as a pyproj CRS, or None."""
+    """Return the CF grid mapping of a projected run as a pyproj CRS, or None."""
     gm_name = None
     for name in ("t", "u", "z"):
         if name in ds and "grid_mapping" in ds[name].attrs:
@@ -1052,6 +1052,6 @@ def _section_along_gradient(ds, site, t, member, length_km, spacing_km, level):
                           member=member)
     sec.attrs.update(front_kind="", site_km=float(half), site_name=sname, site_lat=slat,
                      site_lon=slon, section_bearing_deg=float(bearing),
-                     note=f"no front at {iso_minutes(t)}; section along the {level:.0f} hPa theta-w "
-                     "gradient, cold to warm")
+                     note=f"no front at {iso_minutes(t)}; section along the {level:.0f} hPa "
+                     "theta-w gradient, cold to warm")
     return sec

@@ -28,17 +28,18 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
-from kit.constants import TYPICAL_SLOPE_1_IN
+from kit.constants import G0, TYPICAL_SLOPE_1_IN
 from kit.errors import InputError
 from kit.model import FrontStructure, json_float
+from kit.science.fronts import effective_smoothing_km
+from kit.science.geo import PointSampler, gradient, grid_length_km, smooth
 from kit.science.motion import (
-    G0,
-    _destination,
-    _PointSampler,
-    _select,
     coriolis_parameter,
+    destination_along,
     geostrophic_wind,
+    select_field,
 )
+from kit.science.thermo import level_field
 
 __all__ = [
     "DEFAULT_LEVELS",
@@ -76,7 +77,6 @@ def margules_slope(t_cold, t_warm, v_cold, v_warm, lat):
     Notes
     -----
     .. math::
-
         \tan\alpha = \frac{f\,(T_1 v_2 - T_2 v_1)}{g\,(T_2 - T_1)}
         \approx \frac{f \bar T}{g}\frac{\Delta v}{\Delta T}
 
@@ -121,15 +121,8 @@ def _levels_present(ds, levels):
 
 def _smoothing_km(ds, settings):
     """Smoothing scale [km]: the fronts' own (fronts.effective_smoothing_km) where known."""
-    from kit.science.geo import grid_length_km
-
     if settings is None or hasattr(settings, "smoothing_grid_lengths"):
-        try:
-            from kit.science.fronts import effective_smoothing_km
-        except ImportError:  # older kit.science.fronts
-            effective_smoothing_km = None
-        if effective_smoothing_km is not None:
-            return float(effective_smoothing_km(ds, settings))
+        return float(effective_smoothing_km(ds, settings))
     scale = getattr(settings, "smoothing_km", None)
     if scale is None or not np.isfinite(scale):
         scale = max(75.0, 2.0 * float(np.nanmedian(grid_length_km(ds))))
@@ -141,8 +134,6 @@ def _tfp_2d(tau, ds):
 
     TFP = -grad|grad tau| . grad tau / |grad tau|  (Renard & Clarke 1965).
     """
-    from kit.science.geo import gradient
-
     ge, gn = gradient(tau, ds)
     mag = np.hypot(ge, gn)
     me, mn = gradient(mag, ds)
@@ -166,17 +157,14 @@ class _Fields:
                 f"slope: thermal field {self.name!r} unknown; expected 'theta_w' or 'theta'"
             )
         self.scale_km = _smoothing_km(ds, settings)
-        self.sampler = _PointSampler(ds)
+        self.sampler = PointSampler(ds)
         self._cache = {}
 
     def level(self, time, member, level):
         key = (np.datetime64(time, "ns"), member, float(level))
         if key not in self._cache:
-            from kit.science.geo import smooth
-            from kit.science.thermo import level_field
-
             if self.field is not None:
-                tau = _select(
+                tau = select_field(
                     xr.Dataset({"tau": self.field}), "tau", time=time, level=level, member=member
                 )
             else:
@@ -185,7 +173,7 @@ class _Fields:
                 )
             tau = np.asarray(smooth(tau, self.ds, self.scale_km), float)
             tfp, ge, gn = _tfp_2d(tau, self.ds)
-            z = _select(self.ds, "z", time=time, level=level, member=member)
+            z = select_field(self.ds, "z", time=time, level=level, member=member)
             self._cache[key] = (tfp, ge, gn, z)
         return self._cache[key]
 
@@ -319,7 +307,7 @@ def front_slope(
     ne = np.asarray(front.normal_east, float)[sel]
     nn = np.asarray(front.normal_north, float)[sel]
     # sample lines: (vertices, steps)
-    lon_l, lat_l = _destination(lon0[:, None], lat0[:, None], ne[:, None], nn[:, None], s[None, :])
+    lon_l, lat_l = destination_along(lon0[:, None], lat0[:, None], ne[:, None], nn[:, None], s[None, :])
     prof = {}
     for lv in levels:
         tfp, ge, gn, z = fields.level(front.valid_time, front.member, lv)
@@ -422,17 +410,17 @@ def front_margules_slope(front, ds, *, level=None, offset_km=250.0, max_vertices
     level = float(front.level_hpa if level is None else level)
     if not _levels_present(ds, [level]):
         return float("nan")
-    sampler = _sampler if _sampler is not None else _PointSampler(ds)
-    t = _select(ds, "t", time=front.valid_time, level=level, member=front.member)
-    z = _select(ds, "z", time=front.valid_time, level=level, member=front.member)
+    sampler = _sampler if _sampler is not None else PointSampler(ds)
+    t = select_field(ds, "t", time=front.valid_time, level=level, member=front.member)
+    z = select_field(ds, "z", time=front.valid_time, level=level, member=front.member)
     ug, vg = geostrophic_wind(z, ds, kind="height")
     sel = _vertex_choice(len(front.lon), max_vertices)
     lon = np.asarray(front.lon, float)[sel]
     lat = np.asarray(front.lat, float)[sel]
     ne = np.asarray(front.normal_east, float)[sel]
     nn = np.asarray(front.normal_north, float)[sel]
-    lo_c, la_c = _destination(lon, lat, ne, nn, offset_km)
-    lo_w, la_w = _destination(lon, lat, ne, nn, -offset_km)
+    lo_c, la_c = destination_along(lon, lat, ne, nn, offset_km)
+    lo_w, la_w = destination_along(lon, lat, ne, nn, -offset_km)
 
     def along(lo, la):
         return sampler.sample(ug, lo, la) * nn - sampler.sample(vg, lo, la) * ne

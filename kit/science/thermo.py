@@ -1153,6 +1153,7 @@ def _warm_layer_kernel(t, z, t_sfc=None, z_sfc=None):
     top = np.full(shape, np.nan)
     base = np.full(shape, np.nan)
     tmax = np.full(shape, np.nan)
+    tmin = np.full(shape, np.nan)  # coldest level of the sub-zero ground layer
     # Walk the columns upward: state 0 = before the ground layer, 1 = in sub-zero
     # air near the ground, 2 = inside the warm layer aloft, 3 = done.
     state = np.zeros(shape, dtype=np.int8)
@@ -1163,6 +1164,7 @@ def _warm_layer_kernel(t, z, t_sfc=None, z_sfc=None):
         tk, zk = tc[..., k], z[..., k]
         start = ok & (state == 0)
         state = np.where(start & (tk < 0), 1, np.where(start, 3, state))  # warm ground: none
+        tmin = np.where(ok & (state == 1) & (tk < 0), np.fmin(tmin, tk), tmin)
         enter = ok & (state == 1) & (tk >= 0) & np.isfinite(prev_t)
         with np.errstate(divide="ignore", invalid="ignore"):
             zc_in = prev_z + (zk - prev_z) * (0 - prev_t) / (tk - prev_t)
@@ -1181,10 +1183,11 @@ def _warm_layer_kernel(t, z, t_sfc=None, z_sfc=None):
     unfinished = state == 2
     base = np.where(unfinished | np.isnan(top), np.nan, base)
     tmax = np.where(np.isnan(top), np.nan, tmax + T0C)
-    return top, base, tmax
+    tmin = np.where(np.isnan(top), np.nan, tmin + T0C)
+    return top, base, tmax, tmin
 
 
-def warm_layer_aloft(t, z, *, dim="level", t_surface=None, z_surface=None):
+def warm_layer_aloft(t, z, *, dim="level", t_surface=None, z_surface=None, cold_min=False):
     """Warm (above 0 C) layer lying over sub-zero air near the ground.
 
     The classic setting for freezing rain and ice pellets: snow melts in the
@@ -1204,6 +1207,9 @@ def warm_layer_aloft(t, z, *, dim="level", t_surface=None, z_surface=None):
         each column and levels below ``z_surface`` are ignored.
     z_surface : array_like or xarray.DataArray, optional
         Ground height [m]; defaults to the lowest level's height.
+    cold_min : bool
+        Also return the coldest temperature of the sub-zero layer below the
+        warm layer [K] (how far a drop that melted aloft can refreeze).
 
     Returns
     -------
@@ -1212,7 +1218,8 @@ def warm_layer_aloft(t, z, *, dim="level", t_surface=None, z_surface=None):
         sub-zero ground layer (0 C crossings interpolated linearly in height)
         and the warmest level temperature inside it [K]. NaN where the air
         at the ground is not below 0 C, where no warm layer lies above it,
-        or where the warm layer reaches the top of the data.
+        or where the warm layer reaches the top of the data. With
+        ``cold_min``, a fourth value: the coldest level below the warm layer [K].
 
     Examples
     --------
@@ -1233,16 +1240,18 @@ def warm_layer_aloft(t, z, *, dim="level", t_surface=None, z_surface=None):
     is_xr, d = _column_args(dim, t, z)
     if is_xr:
         core = [[d] if (_is_xr(a) and d in a.dims) else [] for a in arrays]
+        n_out = 4 if cold_min else 3
         return xr.apply_ufunc(
-            _warm_layer_kernel,
+            lambda *a: _warm_layer_kernel(*a)[:n_out],
             *arrays,
             input_core_dims=core,
-            output_core_dims=[[], [], []],
+            output_core_dims=[[]] * n_out,
             dask="parallelized",
-            output_dtypes=[np.float64] * 3,
+            output_dtypes=[np.float64] * n_out,
             dask_gufunc_kwargs={"allow_rechunk": True},
         )
     t_m = np.moveaxis(_float(t), d, -1)
     z_m = np.moveaxis(_float(z), d, -1) if np.ndim(z) > 0 else _float(z)
     res = _warm_layer_kernel(t_m, z_m, *arrays[2:])
+    res = res if cold_min else res[:3]
     return tuple(r[()] if np.ndim(r) == 0 else r for r in res)

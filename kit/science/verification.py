@@ -23,7 +23,11 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from kit.constants import MS_PER_KT, T0_K
 from kit.errors import InputError
+from kit.science.geo import local_east_north_km
+from kit.science.thermo import wet_bulb_potential_temperature
+from kit.timefmt import iso_minutes, iso_seconds
 
 __all__ = [
     "StationSeries",
@@ -35,26 +39,23 @@ __all__ = [
     "position_pairs",
     "summarise_timing",
     "summarise_position",
-    "find_events",
-    "rerun_event",
-    "rerun_events",
 ]
 
 # Column name stems and their accepted unit suffixes -> converter to kit units.
 _COLUMNS = {
     "pressure": {"hpa": lambda x: x, "mb": lambda x: x, "pa": lambda x: x / 100.0,
                  "kpa": lambda x: x * 10.0},
-    "temperature": {"c": lambda x: x, "k": lambda x: x - 273.15,
+    "temperature": {"c": lambda x: x, "k": lambda x: x - T0_K,
                     "f": lambda x: (x - 32.0) * 5.0 / 9.0},
-    "dewpoint": {"c": lambda x: x, "k": lambda x: x - 273.15,
+    "dewpoint": {"c": lambda x: x, "k": lambda x: x - T0_K,
                  "f": lambda x: (x - 32.0) * 5.0 / 9.0},
     "wind_dir": {"deg": lambda x: x},
-    "wind_speed": {"kt": lambda x: x * 0.514444, "ms": lambda x: x,
+    "wind_speed": {"kt": lambda x: x * MS_PER_KT, "ms": lambda x: x,
                    "m_s": lambda x: x, "kmh": lambda x: x / 3.6},
     "precip": {"mm_h": lambda x: x, "mmh": lambda x: x},
 }
 _REQUIRED = ("pressure", "temperature", "dewpoint", "wind_dir", "wind_speed")
-_PASSAGE_COLUMNS = ["site", "passage_utc", "front_kind", "theta_w_change_k", "wind_turn_deg",
+PASSAGE_COLUMNS = ["site", "passage_utc", "front_kind", "theta_w_change_k", "wind_turn_deg",
                     "pressure_trough", "signals", "lead_of_wind_h", "confidence"]
 
 
@@ -157,7 +158,7 @@ def read_station_series(path, name=None):
     gaps = out.index.to_series().diff()
     for t_end, gap in gaps[gaps > 3 * step].items():
         problems.append(
-            f"gap of {gap / pd.Timedelta(hours=1):.1f} h ending {t_end:%Y-%m-%dT%H:%MZ}"
+            f"gap of {gap / pd.Timedelta(hours=1):.1f} h ending {iso_minutes(t_end)}"
         )
     return StationSeries(name or path.stem, out, problems)
 
@@ -277,8 +278,6 @@ def detect_passages(
     confidence. Thresholds are defaults chosen for mid-latitude synoptic
     fronts (common practice, no source); tune them per climate.
     """
-    from kit.science.thermo import wet_bulb_potential_temperature
-
     df = station.data
     step = df.index.to_series().diff().median()
     if not isinstance(step, pd.Timedelta) or step <= pd.Timedelta(0):
@@ -288,8 +287,8 @@ def detect_passages(
     half = max(2, int(round(window_h / hours)))
     theta_w = np.asarray(
         wet_bulb_potential_temperature(
-            reg["temperature_c"].to_numpy() + 273.15,
-            reg["dewpoint_c"].to_numpy() + 273.15,
+            reg["temperature_c"].to_numpy() + T0_K,
+            reg["dewpoint_c"].to_numpy() + T0_K,
             reg["pressure_hpa"].to_numpy(),
         ),
         dtype=float,
@@ -368,7 +367,7 @@ def detect_passages(
             "lead_of_wind_h": round(float(lead), 2) if np.isfinite(lead) else np.nan,
             "confidence": round(sum(conf[s] for s in g), 2),
         })
-    frame = pd.DataFrame(rows, columns=_PASSAGE_COLUMNS)
+    frame = pd.DataFrame(rows, columns=PASSAGE_COLUMNS)
     return frame.sort_values("passage_utc", ignore_index=True)
 
 
@@ -378,8 +377,6 @@ def detect_passages(
 
 def _to_local_km(lon, lat, lon0, lat0):
     """Azimuthal equidistant plane about (lon0, lat0) [km], as (n, 2) points."""
-    from kit.science.geo import local_east_north_km
-
     east, north = local_east_north_km(np.asarray(lon, float), np.asarray(lat, float), lon0, lat0)
     return np.column_stack([east, north])
 
@@ -502,10 +499,6 @@ def _lead_bin(lead_h):
     return f">={_LEAD_BINS_H[-1]} h" if lead_h >= _LEAD_BINS_H[-1] else "<0 h"
 
 
-def _utc(t):
-    return pd.Timestamp(t).strftime("%Y-%m-%dT%H:%M:%SZ")
-
-
 def timing_pairs(forecast, observed, reference_times, *, max_error_h=12.0, event=""):
     """Pair forecast passages with observed passages of the same site and kind.
 
@@ -547,11 +540,12 @@ def timing_pairs(forecast, observed, reference_times, *, max_error_h=12.0, event
             lead = (f["t"] - ref) / pd.Timedelta(hours=1)
             row = {"event": event, "site": f["site"], "front_kind": f["front_kind"], "run": run,
                    "lead_h": round(lead, 2), "lead_bin": _lead_bin(lead),
-                   "forecast_utc": _utc(f["t"])}
+                   "forecast_utc": iso_seconds(f["t"])}
             if len(cand) and err.abs().min() <= max_error_h:
                 k = err.abs().idxmin()
                 used.add(k)
-                row.update(observed_utc=_utc(cand.loc[k, "t"]), error_h=round(float(err[k]), 2),
+                row.update(observed_utc=iso_seconds(cand.loc[k, "t"]),
+                           error_h=round(float(err[k]), 2),
                            outcome="hit")
             else:
                 row.update(observed_utc="", error_h=np.nan, outcome="false alarm")
@@ -561,7 +555,7 @@ def timing_pairs(forecast, observed, reference_times, *, max_error_h=12.0, event
                 continue
             rows.append({"event": event, "site": o["site"], "front_kind": o["front_kind"],
                          "run": run, "lead_h": np.nan, "lead_bin": "",
-                         "forecast_utc": "", "observed_utc": _utc(o["t"]), "error_h": np.nan,
+                         "forecast_utc": "", "observed_utc": iso_seconds(o["t"]), "error_h": np.nan,
                          "outcome": "miss"})
     cols = ["event", "site", "front_kind", "run", "lead_h", "lead_bin", "forecast_utc",
             "observed_utc", "error_h", "outcome"]
@@ -591,7 +585,7 @@ def position_pairs(forecast_fronts, verifying_fronts, reference_times, *, event=
             lead = (pd.Timestamp(f0.valid_time) - ref) / pd.Timedelta(hours=1)
             rows.append({
                 "event": event, "run": run, "member": "" if member is None else member,
-                "valid_utc": _utc(f0.valid_time), "front_kind": f0.kind,
+                "valid_utc": iso_seconds(f0.valid_time), "front_kind": f0.kind,
                 "lead_h": round(lead, 2), "lead_bin": _lead_bin(lead),
                 "mean_distance_km": round(d["mean_ab_km"], 1) if d else np.nan,
                 "mhd_km": round(d["mhd_km"], 1) if d else np.nan,
@@ -654,175 +648,3 @@ def summarise_position(pairs):
                            "frac_within_100km": ("frac_within_100km", "mean")},
                    all_rows=False)
     return out.round({"mean_distance_km": 1, "mhd_km": 1, "frac_within_100km": 3})
-
-
-# --------------------------------------------------------------------------
-# Reruns
-# --------------------------------------------------------------------------
-
-def find_events(paths):
-    """Expand arguments into event folders (a folder holding ``runs/`` or a parent of several).
-
-    Raises
-    ------
-    InputError
-        When an argument is not an event folder and holds none.
-    """
-    events = []
-    for p in map(Path, paths):
-        if (p / "runs").is_dir():
-            events.append(p)
-            continue
-        found = sorted(d for d in p.iterdir() if (d / "runs").is_dir()) if p.is_dir() else []
-        if not found:
-            raise InputError(
-                f"{p}: not an event folder; expected runs/, analyses/, stations/ and sites.csv "
-                "inside it (or a folder of such folders)"
-            )
-        events.extend(found)
-    return events
-
-
-def _check_event(event):
-    missing = [n for n in ("runs", "analyses", "stations", "sites.csv") if not (event / n).exists()]
-    if missing:
-        raise InputError(
-            f"{event}: event folder lacks {', '.join(missing)}; expected runs/, analyses/, "
-            "stations/ and sites.csv"
-        )
-    runs = sorted(d for d in (event / "runs").iterdir() if d.is_dir() or d.suffix == ".nc")
-    if not runs:
-        raise InputError(f"{event}/runs: no model runs; expected one folder or .nc file per run")
-    return runs
-
-
-def rerun_event(event_dir, *, level=850.0):
-    """Verify one past event: observed passages, timing and position pairs.
-
-    Parameters
-    ----------
-    event_dir : str or Path
-        Event folder (module docstring).
-    level : float
-        Level the fronts are located on [hPa].
-
-    Returns
-    -------
-    dict of pandas.DataFrame
-        ``observed`` (passages found in the station series), ``station_problems``,
-        ``timing`` (:func:`timing_pairs`) and ``position`` (:func:`position_pairs`).
-    """
-    from kit.products.arrivals import arrival_table
-    from kit.io.runs import open_run
-    from kit.science.motion import analyse_run
-    from kit.io.sites import read_sites
-
-    event = Path(event_dir)
-    run_paths = _check_event(event)
-    name = event.name
-    sites = read_sites(event / "sites.csv")
-    observed, problems = [], []
-    for _, site in sites.iterrows():
-        path = event / "stations" / f"{site['name']}.csv"
-        if not path.exists():
-            problems.append({"event": name, "site": site["name"], "problem": "no station series"})
-            continue
-        series = read_station_series(path, name=site["name"])
-        problems += [{"event": name, "site": site["name"], "problem": p} for p in series.problems]
-        observed.append(detect_passages(series, latitude=float(site["lat"])))
-    observed = (pd.concat(observed, ignore_index=True) if observed
-                else pd.DataFrame(columns=_PASSAGE_COLUMNS))
-    runs = [open_run(p).load() for p in run_paths]
-    refs = {ds.attrs["run"]: pd.Timestamp(ds["reference_time"].values) for ds in runs}
-    fronts_by_run = [analyse_run(ds, level=level) for ds in runs]
-    forecast = arrival_table(runs, sites, fronts_by_run, level=level)
-    verifying = analyse_run(open_run(event / "analyses"), level=level)
-    fronts = [f for run_fronts in fronts_by_run for f in run_fronts]
-    obs_out = observed.copy()
-    obs_out.insert(0, "event", name)
-    obs_out["passage_utc"] = obs_out["passage_utc"].map(_utc)
-    return {
-        "observed": obs_out,
-        "station_problems": pd.DataFrame(problems, columns=["event", "site", "problem"]),
-        "timing": timing_pairs(forecast, observed, refs, event=name),
-        "position": position_pairs(fronts, verifying, refs, event=name),
-    }
-
-
-def rerun_events(event_dirs, *, scheduler=None, workers=2, level=850.0, progress=None):
-    """Verify several events in parallel with dask.distributed.
-
-    Parameters
-    ----------
-    event_dirs : list of str or Path
-    scheduler : str, optional
-        Address of an existing dask scheduler (``tcp://host:port``); default a
-        local cluster of ``workers`` processes on this machine.
-    workers : int
-        Worker processes of the local cluster.
-    level : float
-        Front level [hPa].
-    progress : bool or None
-        Show a progress bar (tqdm, on stderr); None shows it only when stderr
-        is a terminal (so a logged, headless run gets no bar codes).
-
-    Returns
-    -------
-    dict of pandas.DataFrame
-        As :func:`rerun_event`, concatenated over events, plus ``workers_used``
-        (how many distinct workers ran tasks).
-    """
-    from dask.distributed import Client, LocalCluster, as_completed
-    from tqdm.auto import tqdm
-
-    events = find_events(event_dirs)
-    for event in events:  # fail fast, before any worker starts
-        _check_event(event)
-    cluster = None
-    if scheduler:
-        try:
-            client = Client(scheduler, timeout="10s")
-        except OSError as exc:
-            raise InputError(
-                f"--scheduler {scheduler}: cannot reach the dask scheduler ({exc}); expected "
-                "the address of a running scheduler, e.g. tcp://scheduler-host:8786"
-            ) from None
-    else:
-        cluster = LocalCluster(n_workers=max(1, int(workers)), threads_per_worker=1,
-                               processes=True, dashboard_address=":0")
-        client = Client(cluster)
-        client.wait_for_workers(max(1, int(workers)), timeout="120s")
-    try:
-        futures = {client.submit(_rerun_task, str(e), level, pure=False): e for e in events}
-        results, where = [], set()
-        bar = tqdm(total=len(futures), desc="events", unit="event", leave=False,
-                   disable=None if progress is None else not progress)
-        try:
-            for fut in as_completed(futures):
-                out, worker = fut.result()
-                results.append(out)
-                where.add(worker)
-                bar.update(1)
-        finally:
-            bar.close()
-    finally:
-        client.close()
-        if cluster is not None:
-            cluster.close()
-    merged = {k: pd.concat([r[k] for r in results], ignore_index=True) for k in results[0]}
-    merged["workers_used"] = len(where)
-    return merged
-
-
-def _rerun_task(event_dir, level):
-    import dask
-    from dask.distributed import get_worker
-
-    try:
-        worker = get_worker().address
-    except ValueError:
-        worker = "local"
-    # the lazy arrays of one event are computed inside this worker process;
-    # without this they would be sent back to the cluster as nested tasks
-    with dask.config.set(scheduler="threads"):
-        return rerun_event(event_dir, level=level), worker

@@ -51,7 +51,8 @@ from kit.products.fronts import fronts_to_geojson
 from kit.products.shift import write_shift_products
 from kit.science.fronts import FrontSettings, default_thresholds, effective_smoothing_km
 from kit.science.sections import section_across_front
-from kit.science.verification import rerun_event, summarise_position, summarise_timing
+from kit.products.rerun import rerun_event
+from kit.science.verification import summarise_position, summarise_timing
 
 __all__ = [
     "FrontPanel",
@@ -425,7 +426,7 @@ class FrontPanel:
                 levels=self._shading_levels(ds, label, member, level, field),
                 width_in=self.width_in, dpi=self.dpi)
         frame = self._frames[key]
-        at_time = maps._fronts_at(fronts, valid, level, member)
+        at_time = maps.fronts_at(fronts, valid, level, member)
         site = self._site()
         self.map_image.value = frame.draw(valid, at_time, site=site, run=label)
         self._fill_front_pick(at_time)
