@@ -225,8 +225,10 @@ class Front:
     def __post_init__(self):
         n = None
         for name in VERTEX_FIELDS:
-            arr = np.array(getattr(self, name), dtype=float)
-            arr.setflags(write=False)
+            arr = np.asarray(getattr(self, name), dtype=float)
+            if arr.flags.writeable:  # a caller's array: keep a read-only copy
+                arr = arr.copy()
+                arr.setflags(write=False)
             object.__setattr__(self, name, arr)
             if n is None:
                 n = arr.shape
@@ -288,15 +290,16 @@ class Front:
         return None
 
     @property
-    def motion_speed_ms(self) -> float:
-        """Speed to move the line with [m s-1]: tracked, else the normal wind ``speed_ms``."""
-        sp = self.speed_tracked_ms
-        return float(self.speed_ms) if sp is None else float(sp)
+    def motion_speed_ms(self) -> float | None:
+        """Speed the line moves at [m s-1], + toward the cold side.
 
-    @property
-    def slope_1_in(self) -> float | None:
-        """The front's own slope N (1 in N), None where not resolved or not measured."""
-        return None if self.structure is None else self.structure.slope_1_in
+        The tracked speed once the front has been tracked or had its speeds
+        measured (None where its track has one time only); for a front that
+        went through neither, the front-normal wind ``speed_ms``.
+        """
+        if self.link is None and self.motion is None:
+            return float(self.speed_ms)
+        return self.speed_tracked_ms
 
 
 @dataclass(frozen=True)

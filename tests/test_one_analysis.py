@@ -10,25 +10,12 @@ import json
 
 import numpy as np
 import pandas as pd
-import pytest
-from charts_synthetic import make_run, write_cf_run
+from test_cli_shift import event  # noqa: F401  (the same invented two-run event)
 
 import kit.pipeline
 import kit.products.shift as shift
 from kit.charts import maps
 from kit.model import Analysis
-
-
-@pytest.fixture(scope="module")
-def event(tmp_path_factory):
-    root = tmp_path_factory.mktemp("one_event")
-    kw = dict(lat0=38.0, lat1=62.0, lon0=-30.0, lon1=16.0, step=1.5, hours=(0, 6, 12))
-    write_cf_run(make_run(**kw), root / "runs" / "b")
-    write_cf_run(make_run(ref="2031-02-02T18:00", run="x", **kw), root / "runs" / "a")
-    pd.DataFrame({"name": ["Harrowby Field", "Kestrel Point"], "lat": [50.2, 55.0],
-                  "lon": [-5.0, 2.0], "elevation_m": [40, 12]}).to_csv(root / "sites.csv",
-                                                                      index=False)
-    return root
 
 
 def _spy(monkeypatch, owner, name, calls):
@@ -42,7 +29,7 @@ def _spy(monkeypatch, owner, name, calls):
     monkeypatch.setattr(owner, name, spy)
 
 
-def test_every_product_of_a_shift_comes_from_one_analysis(event, tmp_path, monkeypatch):
+def test_every_product_of_a_shift_comes_from_one_analysis(event, tmp_path, monkeypatch):  # noqa: F811
     calls = {k: [] for k in ("analyse", "find", "arrivals", "section", "overview", "through",
                              "draw", "timeline")}
     _spy(monkeypatch, shift, "analyse", calls["analyse"])

@@ -867,7 +867,7 @@ def find_passages(
                 hJ, _, gJ = steps[-2]
                 rate = (gK["d_km"] - gJ["d_km"]) / (hK - hJ)  # km h-1
             else:
-                sp = fK.props.get("speed_tracked_ms", fK.speed_ms) if fK.props else fK.speed_ms
+                sp = fK.motion_speed_ms
                 rate = -float(sp) * 3.6 if sp is not None and np.isfinite(sp) else 0.0
             dK = gK["d_km"]
             if rate != 0 and dK * rate < 0 and abs(rate) <= _MAX_FRONT_SPEED_KMH:

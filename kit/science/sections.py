@@ -961,9 +961,7 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
                      site_lat=slat, site_lon=slon, section_bearing_deg=float(bearing))
     if front.track is not None:
         sec.attrs["front_track"] = int(front.track)
-    # a tracked front moves at its tracked speed (none where its track has one time only);
-    # a front that was never tracked at its normal wind
-    speed = front.speed_tracked_ms if front.link is not None else front.speed_ms
+    speed = front.motion_speed_ms
     if speed is not None and np.isfinite(speed):
         sec.attrs["front_speed_ms"] = float(speed)
     return sec
