@@ -1,0 +1,462 @@
+"""Every shift product of one or more runs, from one analysis per run, into a new folder.
+
+Writes into a NEW sub-folder of DIR (``shift_<newest run>``, then ``-2``, ``-3``
+...), so earlier products are never overwritten:
+
+- ``fronts.geojson``: every front of every run (RFC 7946, caution in properties);
+- ``fronts.csv``: one row per front (kind, valid time, level, length, speeds,
+  track, run, member, slopes...);
+- ``maps/``: a frontal map per valid time (every ``--maps-every-h`` hours) of
+  each run, the run's fronts through time (small multiples) and the overview
+  coloured by lead time;
+- ``sections/``: a cross-section through each site across each front that
+  passes it, at the valid time nearest the passage (newest run);
+- ``arrivals.csv`` and ``arrivals.html``: the arrival table of every run;
+  ``timelines/``: one site timeline per site (newest run);
+- ``briefing_pack.pdf``: cover, overview, maps, sections, arrival table and
+  timelines, the caution on every page;
+- ``manifest.json`` and ``index.html``: the list of files (size, checksum,
+  what each is) and the caution.
+
+The set is built in a hidden ``.incomplete_...`` folder and renamed when
+complete, so a folder named ``shift_...`` always holds a whole set. Earlier
+folders are never touched: an interrupted run (Ctrl-C) keeps its partial
+products in the hidden folder (reported on stderr); a failed one (a full disk,
+unusable data) removes it and reports one error line. A progress bar goes to stderr; the
+finished folder is printed on stdout.
+"""
+
+import hashlib
+import html
+import os
+import re
+import shutil
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from tqdm import tqdm
+
+from kit import CAUTION, __version__
+from kit.charts import maps
+from kit.charts.sections import section_figure
+from kit.charts.style import source_text
+from kit.charts.timelines import timeline_figure
+from kit.errors import InputError, OutputError
+from kit.io.runs import open_run
+from kit.io.sites import check_sites_on_grid, read_sites
+from kit.model import fronts_table
+from kit.pipeline import analyse
+from kit.products.arrivals import arrival_table
+from kit.products.briefing import BriefingPack
+from kit.products.files import (
+    new_product_dir,
+    save_figure,
+    write_bytes,
+    write_csv,
+    write_html_table,
+    write_json,
+    write_text,
+)
+from kit.products.fronts import fronts_to_geojson
+from kit.science.fronts import FrontSettings
+from kit.science.sections import section_across_front
+from kit.timefmt import iso_seconds
+
+__all__ = ["write_shift_products", "PRODUCT_KINDS"]
+
+#: what each product kind is, for the manifest and index page
+PRODUCT_KINDS = {
+    "fronts_geojson": "Fronts of every run (GeoJSON LineStrings, RFC 7946)",
+    "fronts_csv": "One row per front: kind, valid time, length, speeds, track, slope",
+    "map": "Frontal map at one valid time",
+    "through_run": "Fronts through the run (small multiples)",
+    "overview": "Front lines through the run, coloured by lead time",
+    "section": "Cross-section through a site across a front",
+    "arrivals_csv": "Front arrivals per site (CSV, contract columns)",
+    "arrivals_html": "Front arrivals per site (HTML table)",
+    "timeline": "Site timeline with front passages",
+    "pack": "Briefing pack (PDF)",
+    "manifest": "This list of products (JSON)",
+}
+
+
+def _slug(text):
+    return re.sub(r"[^A-Za-z0-9_.-]+", "_", str(text)).strip("_") or "x"
+
+
+def _lead_h(ds, t):
+    if "reference_time" not in ds.coords:
+        return None
+    ref = np.datetime64(ds["reference_time"].values, "ns")
+    return float((np.datetime64(t, "ns") - ref) / np.timedelta64(1, "h"))
+
+
+def _scalar_columns(frame):
+    """Drop columns holding lists/arrays (per-vertex values) for a flat CSV."""
+    keep = []
+    for col in frame.columns:
+        values = frame[col].dropna()
+        if len(values) and values.map(lambda v: isinstance(v, (list, tuple, np.ndarray,
+                                                                dict))).any():
+            continue
+        keep.append(col)
+    out = frame[keep].copy()
+    out.attrs = dict(frame.attrs)
+    return out
+
+
+class _Products:
+    """Book-keeping of the files written into the product folder."""
+
+    def __init__(self, folder, bar):
+        self.folder = Path(folder)
+        self.bar = bar
+        self.files = []
+
+    def add(self, path, kind, **info):
+        path = Path(path)
+        data = path.read_bytes()
+        self.files.append({
+            "path": path.relative_to(self.folder).as_posix(),
+            "kind": kind,
+            "description": PRODUCT_KINDS.get(kind, kind),
+            "bytes": len(data),
+            "sha256": hashlib.sha256(data).hexdigest(),
+            **info,
+        })
+        self.bar.update(1)
+        return path
+
+    def figure(self, fig, rel, kind, pack=None, **info):
+        path = save_figure(fig, self.folder / rel)
+        if pack is not None:
+            pack.add_figure(fig, title=kind)
+        self.add(path, kind, **info)
+        fig.clear()
+        return path
+
+
+def _load(run_args, sites_path):
+    sites = read_sites(sites_path)
+    runs = []
+    for arg in run_args:
+        ds = open_run(arg)
+        check_sites_on_grid(sites, ds)
+        runs.append(ds)
+    # newest run last (by reference time), as the briefing reads them
+    def ref(ds):
+        return np.datetime64(ds["reference_time"].values, "ns") if "reference_time" in (
+            ds.coords) else np.datetime64("NaT")
+
+    order = sorted(range(len(runs)), key=lambda i: (ref(runs[i]), i))
+    runs = [runs[i] for i in order]
+    labels = [str(ds.attrs.get("run") or f"run{i + 1}") for i, ds in enumerate(runs)]
+    if len(set(labels)) != len(labels):
+        raise InputError(
+            "RUN arguments: two runs share the label "
+            f"{next(x for x in labels if labels.count(x) > 1)}; expected different runs"
+        )
+    return runs, labels, sites
+
+
+def _analyse(runs, level, field):
+    """One Analysis per run: every product of the shift is made from these (and only these)."""
+    settings = FrontSettings(field=field)
+    return [analyse(ds, level=level, settings=settings) for ds in runs]
+
+
+def _map_times(ds, every_h):
+    times = np.atleast_1d(ds["time"].values)
+    if every_h <= 0:
+        return list(times)
+    out = []
+    for t in times:
+        lead = _lead_h(ds, t)
+        if lead is None or abs(lead / every_h - round(lead / every_h)) < 1e-6:
+            out.append(t)
+    return out or list(times)
+
+
+def _section_jobs(table, analysis, sites, max_sections):
+    """(site row, front, ds) for each front passage at each site in the newest run."""
+    newest = str(analysis.dataset.attrs.get("run") or analysis.run)
+    ds = analysis.dataset
+    fronts = analysis.fronts
+    if table is None or table.empty or "track" not in table:
+        return []
+    rows = table[(table["run"].astype(str) == newest) & (table["passage_utc"] != "")]
+    jobs = []
+    seen = set()
+    for _, row in rows.iterrows():
+        track = row["track"]
+        if pd.isna(track):
+            continue
+        key = (row["site"], int(track), row.get("member"))
+        if key in seen:
+            continue
+        seen.add(key)
+        candidates = [f for f in fronts if f.track is not None and int(f.track) == int(track)]
+        if not candidates:
+            continue
+        when = np.datetime64(pd.Timestamp(str(row["passage_utc"]).rstrip("Z")), "ns")
+        front = min(candidates, key=lambda f: abs(np.datetime64(f.valid_time, "ns") - when))
+        site = sites[sites["name"] == row["site"]].iloc[0]
+        jobs.append((site, front, ds, abs(np.datetime64(front.valid_time, "ns") - when)))
+    jobs.sort(key=lambda j: j[3])
+    return [(s, f, d) for s, f, d, _ in jobs[:max_sections]]
+
+
+def _index_html(manifest):
+    rows = []
+    for f in manifest["files"]:
+        link = html.escape(f["path"])
+        thumb = (f"<img src='{link}' alt='' style='max-width:160px;max-height:110px'>"
+                 if f["path"].endswith(".png") else "")
+        rows.append(f"<tr><td>{thumb}</td><td><a href='{link}'>{link}</a></td>"
+                    f"<td>{html.escape(f['description'])}</td><td>{f['bytes']:,}</td></tr>")
+    runs = html.escape(", ".join(manifest["runs"]))
+    return (
+        "<!DOCTYPE html>\n<html><head><meta charset='utf-8'>"
+        f"<title>frontshift shift products: {runs}</title>"
+        "<style>body{font-family:sans-serif;margin:1.5em;color:#1e2a33}"
+        "table{border-collapse:collapse}td,th{padding:4px 8px;border-bottom:1px solid #ccd3d8;"
+        "text-align:left;vertical-align:middle}th{background:#e9eef1}"
+        ".caution{color:#8a3b00;font-weight:bold}</style></head><body>"
+        f"<h2>Shift products: runs {runs}</h2>"
+        f"<p class='caution'>{html.escape(CAUTION)}</p>"
+        f"<p>Valid {html.escape(manifest['valid_from'])} to {html.escape(manifest['valid_to'])}"
+        f" &middot; fronts at {manifest['level_hpa']:g} hPa on {html.escape(manifest['field'])}"
+        f" &middot; source: {html.escape(manifest['source'])}"
+        f" &middot; made {html.escape(manifest['created_utc'])} by frontshift "
+        f"{html.escape(manifest['version'])}</p>"
+        "<table><tr><th></th><th>File</th><th>What</th><th>Bytes</th></tr>"
+        + "".join(rows) + "</table></body></html>\n"
+    )
+
+
+def _finish_folder(tmp, parent, stamp, overwrite):
+    """Rename the complete set into place; never replace a folder unless asked."""
+    target = parent / stamp
+    if overwrite and target.exists():
+        trash = parent / f".replaced_{stamp}_{os.getpid()}"
+        os.rename(target, trash)
+        os.rename(tmp, target)
+        shutil.rmtree(trash, ignore_errors=True)
+        return target
+    for n in range(1, 1000):
+        cand = parent / (stamp if n == 1 else f"{stamp}-{n}")
+        if cand.exists():
+            continue
+        try:
+            os.rename(tmp, cand)
+        except OSError:
+            continue
+        return cand
+    raise OutputError(f"{parent}: too many product folders named {stamp}; clean up or pick --out")
+
+
+def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta_w",
+                         maps_every_h=6.0, max_sections=24, overwrite=False, progress=True):
+    """Analyse the runs and write every shift product into a new sub-folder of ``out``.
+
+    Parameters
+    ----------
+    run_args : list of str or Path
+        RUN arguments (file, glob or folder of one run each).
+    sites_path : str or Path
+        Site list CSV.
+    out : str or Path
+        Parent folder of the product folders.
+    level : float
+        Front level [hPa].
+    field : {"theta_w", "theta"}
+        Thermal field.
+    maps_every_h : float
+        A map every this many hours of lead time [h]; 0 for every step.
+    max_sections : int
+        Most cross-sections.
+    overwrite : bool
+        Replace the folder named for the same runs once the new set is complete.
+    progress : bool
+        Show a tqdm progress bar on stderr.
+
+    Returns
+    -------
+    pathlib.Path
+        The finished product folder.
+    """
+    if not 100.0 <= float(level) <= 1050.0:
+        raise InputError(f"--level {level:g}: expected a pressure level 100 to 1050 hPa")
+    if maps_every_h < 0:
+        raise InputError(f"--maps-every-h {maps_every_h:g}: expected 0 (every step) or more")
+    if max_sections < 0:
+        raise InputError(f"--max-sections {max_sections}: expected 0 or more")
+    started = time.time()
+    bar = tqdm(total=4, desc="shift", unit="step", file=sys.stderr, disable=not progress,
+               dynamic_ncols=True, leave=False)
+    bar.set_postfix_str("reading runs")
+    runs, labels, sites = _load(run_args, sites_path)
+    bar.update(1)
+    bar.set_postfix_str("finding fronts")
+    analyses = _analyse(runs, level, field)
+    settings = analyses[-1].settings
+    bar.update(1)
+    all_fronts = [f for a in analyses for f in a.fronts]
+
+    bar.set_postfix_str("arrival table")
+    table, series = arrival_table(analyses, sites, return_series=True)
+    bar.update(1)
+    section_jobs = _section_jobs(table, analyses[-1], sites, max_sections)
+
+    # how many products: the bar's real length
+    map_times = [_map_times(ds, maps_every_h) for ds in runs]
+    n_products = (2 + sum(len(t) + 2 for t in map_times) + len(section_jobs)
+                  + (2 if table is not None else 0)
+                  + (len(sites) if series else 0) + 2)
+    bar.total = 4 + n_products
+    bar.refresh()
+
+    parent = Path(out)
+    if parent.exists() and not parent.is_dir():
+        raise InputError(f"--out {parent}: is a file; expected a folder")
+    stamp = f"shift_{_slug(labels[-1])}"
+    tmp = new_product_dir(parent, f".incomplete_{stamp}")
+    products = _Products(tmp, bar)
+    t_first = min(np.datetime64(ds["time"].values[0], "ns") for ds in runs)
+    t_last = max(np.datetime64(ds["time"].values[-1], "ns") for ds in runs)
+    sources = "; ".join(str(ds.attrs.get("source", a)) for a, ds in zip(run_args, runs,
+                                                                          strict=True))
+    short_source = "; ".join(source_text(ds, limit=60) for ds in runs)
+    newest = analyses[-1].fronts
+    n_kind = {k: sum(f.kind == k for f in newest) for k in ("cold", "warm", "quasi-stationary")}
+    n_tracks = len({f.track for f in newest if f.track is not None})
+    summary = [
+        f"Newest run {labels[-1]}: {len(newest)} front lines in {n_tracks} tracks "
+        f"({n_kind['cold']} cold, {n_kind['warm']} warm, {n_kind['quasi-stationary']} "
+        f"quasi-stationary) at {level:g} hPa",
+    ]
+    if table is not None:
+        passed = table[table["passage_utc"] != ""]
+        summary.append(f"{len(passed)} front passages at {len(sites)} sites over "
+                       f"{len(runs)} run(s)")
+    contents = ["Fronts through the run and their tracks", "Frontal maps by valid time"]
+    if section_jobs:
+        contents.append("Cross-sections through the sites across passing fronts")
+    if table is not None:
+        contents.append("Arrival table (times UTC, speeds kt, heights m)")
+    if series:
+        contents.append("Site timelines")
+    pack = BriefingPack(tmp / "briefing_pack.pdf", runs=labels, valid_window=(t_first, t_last),
+                        source=short_source, sites=list(sites["name"]), summary=summary,
+                        contents=contents)
+    try:
+        # fronts: GeoJSON and table
+        bar.set_postfix_str("fronts")
+        collection = fronts_to_geojson(all_fronts)
+        collection["properties"] = {
+            "product": "frontshift shift: fronts", "level_hpa": float(level),
+            "field": settings.field, "runs": labels, "source": sources, "caution": CAUTION,
+        }
+        products.add(write_json(tmp / "fronts.geojson", collection), "fronts_geojson",
+                     features=len(collection.get("features", [])))
+        ftable = _scalar_columns(fronts_table(all_fronts))
+        if "valid_time" in ftable:
+            ftable["valid_time"] = [iso_seconds(t) for t in ftable["valid_time"]]
+        ftable["caution"] = CAUTION
+        products.add(write_csv(tmp / "fronts.csv", ftable), "fronts_csv", rows=len(ftable))
+
+        # maps, newest run first into the pack
+        for k in reversed(range(len(runs))):
+            ds, fronts, label = runs[k], list(analyses[k].fronts), labels[k]
+            in_pack = pack if k == len(runs) - 1 else None
+            bar.set_postfix_str(f"maps {label}")
+            products.figure(maps.fronts_overview(ds, fronts, level=level, sites=sites),
+                            f"maps/overview_{_slug(label)}.png", "overview",
+                            pack=pack, run=label)
+            products.figure(maps.fronts_through_time(ds, fronts, level=level, field=field,
+                                                     sites=sites),
+                            f"maps/through_run_{_slug(label)}.png", "through_run",
+                            pack=in_pack, run=label)
+            # one map frame per run, redrawn per valid time (same colours through the run)
+            frame = maps.MapSeries(ds, sites=sites, level=level, field=field)
+            for t in map_times[k]:
+                png = frame.draw(t, fronts, run=label)
+                rel = f"maps/map_{_slug(label)}_{pd.Timestamp(t):%Y%m%dT%H%MZ}.png"
+                if in_pack is not None:
+                    in_pack.add_figure(frame.fig, title="map")
+                products.add(write_bytes(tmp / rel, png), "map", run=label,
+                             valid_time=iso_seconds(t),
+                             fronts=frame.fig._frontshift.get("fronts", 0))
+            frame.fig.clear()
+
+        # sections through the sites across the passing fronts (newest run)
+        for site, front, ds in section_jobs:
+            bar.set_postfix_str(f"section {site['name']}")
+            sec = section_across_front(ds, front, site)
+            fig = section_figure(sec)
+            name = (f"sections/section_{_slug(site['name'])}_{front.kind}_track{front.track}_"
+                    f"{pd.Timestamp(front.valid_time):%Y%m%dT%H%MZ}.png")
+            products.figure(fig, name, "section", pack=pack, site=str(site["name"]),
+                            front_kind=front.kind, track=int(front.track),
+                            valid_time=iso_seconds(front.valid_time))
+
+        # arrival table and timelines
+        if table is not None:
+            bar.set_postfix_str("arrivals")
+            frame = table.copy()
+            frame["caution"] = CAUTION
+            products.add(write_csv(tmp / "arrivals.csv", frame), "arrivals_csv",
+                         rows=len(frame))
+            title = (f"Front arrivals at {len(sites)} sites: runs {', '.join(labels)} "
+                     "(times UTC, speeds kt)")
+            products.add(write_html_table(tmp / "arrivals.html", table, title, CAUTION),
+                         "arrivals_html", rows=len(table))
+            pack.add_table(table, title="Front arrivals per site", run=", ".join(labels))
+            if series:
+                for _, site in sites.iterrows():
+                    key = next((k for k in series if k[0] == labels[-1]
+                                and k[2] == site["name"]), None)
+                    if key is None:
+                        bar.update(1)
+                        continue
+                    bar.set_postfix_str(f"timeline {site['name']}")
+                    rows = table[table["site"] == site["name"]]
+                    products.figure(timeline_figure(series[key], rows),
+                                    f"timelines/timeline_{_slug(site['name'])}.png",
+                                    "timeline", pack=pack, site=str(site["name"]))
+
+        bar.set_postfix_str("briefing pack")
+        products.add(pack.close(), "pack", pages=pack.pages)
+
+        manifest = {
+            "product": "frontshift shift", "version": __version__,
+            "created_utc": iso_seconds(pd.Timestamp.now("UTC")),
+            "runs": labels, "run_args": [str(a) for a in run_args], "sites": str(sites_path),
+            "level_hpa": float(level), "field": field, "source": sources,
+            "valid_from": iso_seconds(t_first), "valid_to": iso_seconds(t_last),
+            "caution": CAUTION, "files": products.files,
+            "seconds": round(time.time() - started, 1),
+        }
+        products.add(write_json(tmp / "manifest.json", manifest), "manifest")
+        manifest["files"] = products.files
+        write_text(tmp / "index.html", _index_html(manifest))
+        bar.update(1)
+    except KeyboardInterrupt:
+        # interrupted by the forecaster: keep what was written, say where
+        pack.abandon()
+        bar.close()
+        sys.stderr.write(f"partial products kept in {tmp}; earlier folders are untouched\n")
+        raise
+    except BaseException:
+        # a failure (full disk, bad data): nothing half-made is left; one error line
+        pack.abandon()
+        bar.close()
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    bar.close()
+    return _finish_folder(tmp, parent, stamp, overwrite)
+
+
