@@ -39,10 +39,17 @@ from collections import defaultdict
 import numpy as np
 import xarray as xr
 
-from kit.constants import EARTH_RADIUS_KM, G0, OMEGA, RD
+from kit.constants import G0, OMEGA, RD
 from kit.errors import InputError
 from kit.model import FrontMotion, TrackLink, json_float
-from kit.science.geo import PointSampler, gradient
+from kit.science.geo import (
+    PointSampler,
+    destination,
+    direction_bearing_deg,
+    gradient,
+    great_circle_km,
+    local_east_north_km,
+)
 
 __all__ = [
     "MIN_ABS_LAT_DEG",
@@ -230,58 +237,12 @@ def _density_from_t(p, ds):
     return p / (RD * t)
 
 
-# --------------------------------------------------------------------------
-# spherical helpers (vectorised over many origins, which kit.science.geo's
-# single-origin local_east_north_km does not do)
-# --------------------------------------------------------------------------
-def _haversine_km(lon1, lat1, lon2, lat2):
-    p1, p2 = np.deg2rad(lat1), np.deg2rad(lat2)
-    dl = np.deg2rad(np.asarray(lon2, float) - np.asarray(lon1, float))
-    a = np.sin((p2 - p1) / 2) ** 2 + np.cos(p1) * np.cos(p2) * np.sin(dl / 2) ** 2
-    return 2 * EARTH_RADIUS_KM * np.arcsin(np.sqrt(np.clip(a, 0.0, 1.0)))
-
-
-def _aeqd_km(lon, lat, lon0, lat0):
-    """Azimuthal-equidistant east/north [km] of points seen from origins.
-
-    Broadcasts: origins (K, 1) with points (1, M) give (K, M) arrays. Distances
-    and bearings from the origin are exact on the sphere, so a line cast along
-    a direction given in the origin's local east/north frame is exact too.
-    """
-    p0, p1 = np.deg2rad(lat0), np.deg2rad(lat)
-    dl = np.deg2rad(np.asarray(lon, float) - np.asarray(lon0, float))
-    d = _haversine_km(lon0, lat0, lon, lat)
-    b = np.arctan2(
-        np.sin(dl) * np.cos(p1), np.cos(p0) * np.sin(p1) - np.sin(p0) * np.cos(p1) * np.cos(dl)
-    )
-    return d * np.sin(b), d * np.cos(b)
-
-
-def destination_along(lon, lat, east, north, dist_km):
-    """Point ``dist_km`` [km] from (lon, lat) along the local direction (east, north).
-
-    Negative distances go the opposite way. Longitudes are kept continuous
-    with the start point (they may leave -180..180).
-    """
-    lon, lat = np.asarray(lon, float), np.asarray(lat, float)
-    brg = np.arctan2(east, north)
-    dist = np.asarray(dist_km, float)
-    brg = np.where(dist < 0, brg + np.pi, brg)
-    delta = np.abs(dist) / EARTH_RADIUS_KM
-    p1 = np.deg2rad(lat)
-    p2 = np.arcsin(np.sin(p1) * np.cos(delta) + np.cos(p1) * np.sin(delta) * np.cos(brg))
-    dl = np.arctan2(
-        np.sin(brg) * np.sin(delta) * np.cos(p1), np.cos(delta) - np.sin(p1) * np.sin(p2)
-    )
-    return lon + np.rad2deg(dl), np.rad2deg(p2)
-
-
 def _vertex_weights_km(lon, lat):
     """Length [km] each vertex stands for: half of each adjacent segment."""
     lon, lat = np.asarray(lon, float), np.asarray(lat, float)
     if lon.size < 2:
         return np.ones_like(lon)
-    seg = _haversine_km(lon[:-1], lat[:-1], lon[1:], lat[1:])
+    seg = great_circle_km(lon[:-1], lat[:-1], lon[1:], lat[1:])
     w = np.zeros(lon.size)
     w[:-1] += seg / 2
     w[1:] += seg / 2
@@ -367,7 +328,7 @@ def _normal_offsets_km(front_a, front_b, max_gap_km, *, min_normal_dot=0.0):
     lb, pb = np.asarray(front_b.lon, float), np.asarray(front_b.lat, float)
     if lb.size < 2:
         return np.full(la.size, np.nan)
-    x, y = _aeqd_km(lb[None, :], pb[None, :], la[:, None], pa[:, None])  # (K, M)
+    x, y = local_east_north_km(lb[None, :], pb[None, :], la[:, None], pa[:, None])  # (K, M)
     px, py = x[:, :-1], y[:, :-1]
     dx, dy = x[:, 1:] - px, y[:, 1:] - py
     nx = np.asarray(front_a.normal_east, float)[:, None]
@@ -393,7 +354,7 @@ def _bbox_gap_km(a, b):
     """Return the least vertex-to-vertex distance [km] of two lines (subsampled, cheap)."""
     sa = max(1, len(a.lon) // 40)
     sb = max(1, len(b.lon) // 40)
-    d = _haversine_km(
+    d = great_circle_km(
         np.asarray(a.lon)[::sa, None],
         np.asarray(a.lat)[::sa, None],
         np.asarray(b.lon)[None, ::sb],
@@ -718,8 +679,8 @@ def speeds_three_ways(
 
         te, tn = _tangent(fr)
         half = rule_distance_km / 2.0
-        lo_p, la_p = destination_along(lon, lat, te, tn, half)
-        lo_m, la_m = destination_along(lon, lat, te, tn, -half)
+        lo_p, la_p = destination(lon, lat, direction_bearing_deg(te, tn), half, wrap=False)
+        lo_m, la_m = destination(lon, lat, direction_bearing_deg(te, tn), -half, wrap=False)
         pf = field(rule_name, fr.valid_time, rule_level, fr.member)
         dp = sampler.sample(pf, lo_p, la_p) - sampler.sample(pf, lo_m, la_m)
         f = coriolis_parameter(lat)

@@ -32,10 +32,16 @@ from kit.constants import G0, TYPICAL_SLOPE_1_IN
 from kit.errors import InputError
 from kit.model import FrontStructure, json_float
 from kit.science.fronts import effective_smoothing_km
-from kit.science.geo import PointSampler, gradient, grid_length_km, smooth
+from kit.science.geo import (
+    PointSampler,
+    destination,
+    direction_bearing_deg,
+    gradient,
+    grid_length_km,
+    smooth,
+)
 from kit.science.motion import (
     coriolis_parameter,
-    destination_along,
     geostrophic_wind,
     select_field,
 )
@@ -307,7 +313,9 @@ def front_slope(
     ne = np.asarray(front.normal_east, float)[sel]
     nn = np.asarray(front.normal_north, float)[sel]
     # sample lines: (vertices, steps)
-    lon_l, lat_l = destination_along(lon0[:, None], lat0[:, None], ne[:, None], nn[:, None], s[None, :])
+    lon_l, lat_l = destination(
+        lon0[:, None], lat0[:, None], direction_bearing_deg(ne, nn)[:, None], s[None, :], wrap=False
+    )
     prof = {}
     for lv in levels:
         tfp, ge, gn, z = fields.level(front.valid_time, front.member, lv)
@@ -419,8 +427,8 @@ def front_margules_slope(front, ds, *, level=None, offset_km=250.0, max_vertices
     lat = np.asarray(front.lat, float)[sel]
     ne = np.asarray(front.normal_east, float)[sel]
     nn = np.asarray(front.normal_north, float)[sel]
-    lo_c, la_c = destination_along(lon, lat, ne, nn, offset_km)
-    lo_w, la_w = destination_along(lon, lat, ne, nn, -offset_km)
+    lo_c, la_c = destination(lon, lat, direction_bearing_deg(ne, nn), offset_km, wrap=False)
+    lo_w, la_w = destination(lon, lat, direction_bearing_deg(ne, nn), -offset_km, wrap=False)
 
     def along(lo, la):
         return sampler.sample(ug, lo, la) * nn - sampler.sample(vg, lo, la) * ne
