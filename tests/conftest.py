@@ -125,7 +125,8 @@ def synthetic_fields(
     from kit.io.runs import CANONICAL_UNITS
 
     for n, u in CANONICAL_UNITS.items():
-        ds[n].attrs["units"] = u
+        if n in ds:  # optional fields (ps, zsfc) the synthetic run does not carry
+            ds[n].attrs["units"] = u
     ds.attrs["run"] = pd.Timestamp(ref).strftime("%Y-%m-%dT%HZ")
     ds.attrs["grid"] = "latlon"
     ds.attrs["source"] = "synthetic"

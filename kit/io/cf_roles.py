@@ -36,6 +36,8 @@ CANONICAL_NAMES = {
     "v": ("northward_wind", "northward wind (earth-relative)"),
     "z": ("geopotential_height", "geopotential height"),
     "mslp": ("air_pressure_at_mean_sea_level", "mean sea-level pressure"),
+    "ps": ("surface_air_pressure", "surface pressure"),
+    "zsfc": ("surface_altitude", "height of the model surface above sea level"),
     "t2m": ("air_temperature", "2 m air temperature"),
     "td2m": ("dew_point_temperature", "2 m dew point"),
     "u10": ("eastward_wind", "10 m eastward wind (earth-relative)"),
@@ -121,7 +123,11 @@ _SURFACE_ROLES = {
     ),
     "ps": (
         ("surface_air_pressure",),
-        ("sp", "ps", "PRES_surface", "psfc", "PSFC", "pres_sfc", "PS"),
+        ("sp", "ps", "PRES_surface", "psfc", "PSFC", "pres_sfc", "PS", "pressfc"),
+    ),
+    "zsfc": (
+        ("surface_altitude", "surface_geopotential"),
+        ("orog", "zsfc", "HGT_surface", "hgtsfc", "hsurf", "HSURF", "oro", "topo", "FIS"),
     ),
     "precip": (
         (
@@ -156,7 +162,15 @@ _SURFACE_ROLES = {
 
 # names that mean "this quantity near the surface" for level-role short names
 # found without a level dimension
-_SURFACE_OF = {"t": "t2m", "td": "td2m", "rh": "rh2m", "q": "q2m", "u": "u10", "v": "v10"}
+_SURFACE_OF = {
+    "t": "t2m",
+    "td": "td2m",
+    "rh": "rh2m",
+    "q": "q2m",
+    "u": "u10",
+    "v": "v10",
+    "z": "zsfc",
+}
 
 #: roles on pressure levels (t's levels): temperature, humidity, wind, height
 UPPER_AIR_ROLES = tuple(_LEVEL_ROLES)
@@ -194,6 +208,7 @@ _ROLE_QUANTITY = {
     "z": "height",
     "mslp": "pressure",
     "ps": "pressure",
+    "zsfc": "height",
     "precip": "precip",
 }
 
@@ -274,7 +289,7 @@ def find_roles(ds, level_dims, where):
             role, is_level_table = hit
             if is_level_table and not lev:
                 role = _SURFACE_OF.get(role)
-                if role is None:  # z without levels: a surface height, not used
+                if role is None:
                     continue
             elif not is_level_table and lev and role in _SURFACE_OF.values():
                 continue

@@ -244,6 +244,13 @@ def _fields_in_kit_units(ds, roles, levels, main_level_dim, level_dims, grid_dim
     if "mslp" in roles:
         da, name = prep("mslp")
         out["mslp"] = to_pascal(da, where, name)
+    # the model surface, for masking pressure levels below the ground
+    if "ps" in roles:
+        da, name = prep("ps")
+        out["ps"] = to_pascal(da, where, name)
+    if "zsfc" in roles:
+        da, name = prep("zsfc")
+        out["zsfc"] = to_geopotential_height(da, where, name, None)
     extra = {}
     if "td" not in out:
         if "rh" in roles:
