@@ -101,6 +101,16 @@ class FrontDetection:
         Level of the wind that typed the line [hPa].
     k1_K_100km2, k2_K_100km : float or None
         The two thresholds the masks used [K (100 km)-2], [K (100 km)-1].
+    thresholds_from : str or None
+        ``"published"``, ``"quantiles"`` or ``"given"``.
+    cyclonic_vorticity_share, cyclonic_shear_share, trough_share : float or None
+        Share of the line length [0..1] with cyclonic relative vorticity, with
+        cyclonic along-front shear and in a pressure trough at the steering
+        level (:mod:`kit.science.signature`); None where not evaluable.
+    signature_share : float or None
+        Share with (vorticity or shear) and trough: the confirmation criterion.
+    trough_field : str or None
+        Field the trough was looked for in (``"mslp"`` or ``"z850"`` ...).
     """
 
     field: str
@@ -110,6 +120,12 @@ class FrontDetection:
     steering_level_hpa: float
     k1_K_100km2: float | None = None
     k2_K_100km: float | None = None
+    thresholds_from: str | None = None
+    cyclonic_vorticity_share: float | None = None
+    cyclonic_shear_share: float | None = None
+    trough_share: float | None = None
+    signature_share: float | None = None
+    trough_field: str | None = None
 
 
 @dataclass(frozen=True)
@@ -267,6 +283,17 @@ class Front:
                 out["k1_K_100km2"] = d.k1_K_100km2
             if d.k2_K_100km is not None:
                 out["k2_K_100km"] = d.k2_K_100km
+            for name in (
+                "thresholds_from",
+                "cyclonic_vorticity_share",
+                "cyclonic_shear_share",
+                "trough_share",
+                "signature_share",
+                "trough_field",
+            ):
+                value = getattr(d, name)
+                if value is not None:
+                    out[name] = round(value, 3) if isinstance(value, float) else value
         if self.link is not None:
             out.update(
                 track_event=self.link.event,

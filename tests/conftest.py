@@ -92,6 +92,11 @@ def synthetic_fields(
     v = 2.0 + 0.5 * np.cos(np.deg2rad(lo)) + 0.0 * la + 0.0 * pl + 0.0 * hh
     sfc = (times.size, lat.size, lon.size)
     mslp = 101000.0 + 150.0 * np.sin(np.deg2rad(lo[:, 0] * 4)) + 0.0 * la[:, 0] + np.zeros(sfc)
+    if front:
+        # the flow signature of a real front: a pressure trough along the zone and
+        # cyclonic shear of the along-front wind across it
+        mslp = mslp - 400.0 * np.exp(-(((lo[:, 0] - x0[:, 0]) / 3.0) ** 2))
+        v = v + 4.0 * np.tanh((lo - x0) / 2.0)
     precip = np.maximum(0.0, 2.0 * np.exp(-(((lo[:, 0] - lon.mean()) / 4.0) ** 2))) + np.zeros(sfc)
     rng = np.random.default_rng(seed) if seed is not None else None
     if rng is not None:

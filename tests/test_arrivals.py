@@ -16,20 +16,14 @@ import pandas as pd
 import pytest
 import xarray as xr
 
-from kit.products.arrivals import (
-    CONTRACT_COLUMNS,
-    add_spread,
-    arrival_table,
-    format_utc,
-    signed_distance_km,
-    site_series,
-)
 from kit.constants import T0_K
 from kit.errors import InputError
-from kit.science.thermo import freezing_level, warm_layer_aloft
 from kit.model import Analysis, Front, FrontStructure, TrackLink
 from kit.pipeline import analyse
+from kit.products.arrivals import CONTRACT_COLUMNS, add_spread, arrival_table
 from kit.science.fronts import FrontSettings
+from kit.science.passages import format_utc, signed_distance_km, site_series
+from kit.science.thermo import freezing_level, warm_layer_aloft
 
 R_KM = 6371.0088
 T0 = np.datetime64("2027-01-14T00:00", "ns")

@@ -34,7 +34,8 @@ from kit.pipeline import analyse
 SITES = pd.DataFrame({"name": ["Harrowby Field", "Kestrel Point", "Tor Heights"],
                       "lat": [50.2, 55.0, 48.0], "lon": [-5.0, 2.0, -12.0],
                       "elevation_m": [40.0, 12.0, 610.0]})
-GRID = dict(lat0=40.0, lat1=60.0, lon0=-20.0, lon1=10.0, step=2.0)
+#: a regional domain large enough for fronts away from its edge buffer
+GRID = dict(lat0=34.0, lat1=66.0, lon0=-34.0, lon1=24.0, step=2.0)
 #: the "high ground" where 1000, 925 and 850 hPa lie below the surface (NaN)
 PATCH = dict(lat=slice(44.0, 52.0), lon=slice(-16.0, -8.0))
 

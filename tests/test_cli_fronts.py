@@ -46,10 +46,13 @@ def write_run(
         t[-1] = np.nan  # a step that came through empty
     td = t - 2.0
     u = np.full(t.shape, -wind_to_cold)  # cold side is west: blowing west = toward cold
-    v = np.zeros(t.shape)
+    # the flow signature of a real front: cyclonic shear of the along-front wind
+    # and a height trough along the zone
+    xs = np.stack([e - shift_km - it * 100.0 for it in range(steps)])[:, None]
+    v = np.broadcast_to(5.0 * np.tanh(xs / 150.0), t.shape).copy()
     z = np.broadcast_to(
         (44330.8 * (1 - (LEVELS / 1013.25) ** 0.190263))[None, :, None, None], t.shape
-    )
+    ) - 30.0 * np.exp(-((xs / 200.0) ** 2))
     dims = ("time", "isobaric", "latitude", "longitude")
     ds = xr.Dataset(
         {
@@ -197,11 +200,15 @@ def test_fronts_command_on_a_lambert_cf_run(tmp_path):
     theta = 285.0 + 7.0 * np.tanh((e * np.cos(a) + n * np.sin(a)) / 120.0)
     levels = np.array([1000.0, 850.0, 700.0])
     t = np.stack([theta * (p / 1000.0) ** KAPPA for p in levels])[None]
-    u = np.full(t.shape, 5.0 * np.cos(a))  # toward the warm side: a cold front
-    v = np.full(t.shape, 5.0 * np.sin(a))
+    # toward the warm side: a cold front; with the flow signature of a real
+    # front: cyclonic shear of the along-front wind and a height trough
+    across = (e * np.cos(a) + n * np.sin(a))[None, None]
+    along = 5.0 * np.tanh(across / 150.0)
+    u = np.broadcast_to(5.0 * np.cos(a) - np.sin(a) * along, t.shape)
+    v = np.broadcast_to(5.0 * np.sin(a) + np.cos(a) * along, t.shape)
     z = np.broadcast_to(
         (44330.8 * (1 - (levels / 1013.25) ** 0.190263))[None, :, None, None], t.shape
-    )
+    ) - 30.0 * np.exp(-((across / 200.0) ** 2))
     dims = ("time", "pressure", "y", "x")
     gm = {"grid_mapping": "lcc"}
     ds = xr.Dataset(

@@ -30,9 +30,10 @@ def event(tmp_path_factory):
     kw = dict(lat0=38.0, lat1=62.0, lon0=-30.0, lon1=16.0, step=1.5, hours=(0, 6, 12))
     write_cf_run(make_run(**kw), root / "runs" / "b")
     write_cf_run(make_run(ref="2031-02-02T18:00", run="x", **kw), root / "runs" / "a")
-    pd.DataFrame({"name": ["Harrowby Field", "Kestrel Point"], "lat": [50.2, 55.0],
-                  "lon": [-5.0, 2.0], "elevation_m": [40, 12]}).to_csv(root / "sites.csv",
-                                                                      index=False)
+    # Marrow Rock lies in the path of the fronts within the 12 h of the runs
+    pd.DataFrame({"name": ["Harrowby Field", "Kestrel Point", "Marrow Rock"],
+                  "lat": [50.2, 55.0, 48.0], "lon": [-5.0, 2.0, -14.0],
+                  "elevation_m": [40, 12, 25]}).to_csv(root / "sites.csv", index=False)
     return root
 
 
@@ -105,7 +106,7 @@ def test_arrivals_products(products):
     _, folder = products
     table = pd.read_csv(folder / "arrivals.csv", keep_default_na=False)
     assert list(table.columns[: len(CONTRACT)]) == CONTRACT
-    assert set(table["site"]) <= {"Harrowby Field", "Kestrel Point"}
+    assert set(table["site"]) <= {"Harrowby Field", "Kestrel Point", "Marrow Rock"}
     assert (table["caution"] == CAUTION).all()
     for value in table["passage_utc"]:
         assert value == "" or value.endswith("Z")

@@ -163,12 +163,21 @@ def test_tfp_peak_value_and_position_tanh_zone():
     assert peak == pytest.approx(tfp_star, rel=2e-3)
     assert abs(x_peak - u_star * L) < 0.25 * (x[1] - x[0])
     # the located line sits there too: within a quarter grid length
-    s = settings(field="theta", smoothing_km=0.0, smoothing_grid_lengths=0.0, min_length_km=100.0)
+    # (an analytic zone placed on the equator: the tropics rule is switched off)
+    s = settings(
+        field="theta",
+        smoothing_km=0.0,
+        smoothing_grid_lengths=0.0,
+        min_length_km=100.0,
+        tropics_lat=0.0,
+    )
     fronts = F.find_fronts(ds, level=1000.0, settings=s)
     assert len(fronts) == 1
     fx = R * np.deg2rad(fronts[0].lon)
     assert np.max(np.abs(fx - u_star * L)) < 0.25 * (x[1] - x[0])
-    assert fronts[0].length_km == pytest.approx(R / 1000 * np.deg2rad(2.0), rel=0.02)
+    # the whole domain but the edge buffer (3 grid lengths at each end)
+    buffer_deg = 2 * s.edge_buffer_grid_lengths * res
+    assert fronts[0].length_km == pytest.approx(R / 1000 * np.deg2rad(2.0 - buffer_deg), rel=0.02)
     # the locating function changes sign there (Hewson 1998: its zero line)
     loc = F.locating_function(tau, ds)[lat.size // 2]
     j = int(np.searchsorted(x, u_star * L))
@@ -413,26 +422,22 @@ def test_lines_run_with_the_cold_side_on_the_left():
 
 
 # --------------------------------------------------------------------------- thresholds
-def test_default_thresholds_from_memory_and_their_scaling():
+def test_default_thresholds_from_memory_never_scaled():
     k1, k2 = F.default_thresholds(100.0)
     # [memory] Hewson (1998), 850 hPa theta-w: 0.33 K (100 km)^-2, 1.49 K (100 km)^-1
     assert k1 == pytest.approx(0.33e-10, rel=1e-12)
     assert k2 == pytest.approx(1.49e-5, rel=1e-12)
-    # kit's scaling for wider smoothing, checked against a step smoothed by
-    # scipy [lib]: its max gradient falls as 1/s, its max TFP as 1/s^2
-    h = 1.0
-    x = np.arange(-4000.0, 4000.0, h)
-    step = np.where(x > 0, 5.0, -5.0)
-    peaks = {}
-    for s_km in (200.0, 400.0):
-        sm = ndimage.gaussian_filter1d(step, s_km / h, truncate=6.0)
-        g = np.gradient(sm, h)
-        peaks[s_km] = (g.max(), (-np.gradient(g, h)).max())
-    k1a, k2a = F.default_thresholds(200.0)
-    k1b, k2b = F.default_thresholds(400.0)
-    assert k2a / k2b == pytest.approx(peaks[200.0][0] / peaks[400.0][0], rel=1e-3)
-    assert k1a / k1b == pytest.approx(peaks[200.0][1] / peaks[400.0][1], rel=1e-2)
-    assert F.default_thresholds(50.0) == (k1, k2)  # kept below 100 km
+    # never scaled to a larger smoothing (the first round's scaling let 2.5-degree
+    # grids pass about 15 % of the globe)
+    assert F.default_thresholds(400.0) == (k1, k2)
+    s = F.FrontSettings()
+    assert F.threshold_rule(80.0, s)[:3] == ("published", k1, k2)
+    assert F.threshold_rule(s.published_max_smoothing_km, s)[0] == "published"
+    rule, a, b, q1, q2 = F.threshold_rule(460.0, s)
+    assert (rule, a, b) == ("quantiles", None, None)
+    assert (q1, q2) == (F.DEFAULT_K1_QUANTILE, F.DEFAULT_K2_QUANTILE)
+    assert F.threshold_rule(460.0, F.FrontSettings(k1=1e-10))[:3] == ("given", 1e-10, k2)
+    assert F.threshold_rule(80.0, F.FrontSettings(k2_quantile=0.9))[1:] == (k1, None, None, 0.9)
 
 
 def test_masks_definition():

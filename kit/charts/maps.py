@@ -380,8 +380,50 @@ def _speed_kt(front):
     return None
 
 
-def draw_fronts(ax, fronts, *, size=7.0, linewidth=2.2, labels=True):
-    """Draw fronts with WMO symbols; label each with its speed [kt].
+def map_pieces(ax, lon, lat):
+    """Project a line onto the map and cut it where it leaves the map.
+
+    The line is cut, in map coordinates, where a step jumps more than a
+    quarter of the projection's width (it crossed the map's seam, wherever
+    the central longitude puts it) and where it leaves the visible extent;
+    cartopy does this for its own geometries, but a plain projected line
+    would be drawn right round the globe.
+
+    Returns
+    -------
+    list of ndarray (n, 2)
+        Pieces of at least two points, in map coordinates.
+    """
+    pts = ax.projection.transform_points(_pc(), np.asarray(lon, float), np.asarray(lat, float))
+    x, y = pts[:, 0], pts[:, 1]
+    ok = np.isfinite(x) & np.isfinite(y)
+    x0, x1 = ax.get_xlim()
+    y0, y1 = ax.get_ylim()
+    mx, my = 0.01 * (x1 - x0), 0.01 * (y1 - y0)
+    ok &= (x >= x0 - mx) & (x <= x1 + mx) & (y >= y0 - my) & (y <= y1 + my)
+    xl = ax.projection.x_limits
+    width = abs(xl[1] - xl[0]) if np.all(np.isfinite(xl)) else abs(x1 - x0)
+    jump = np.zeros(x.size, dtype=bool)
+    jump[1:] = np.abs(np.diff(x)) > 0.25 * width
+    pieces, cur = [], []
+    for k in range(x.size):
+        if not ok[k] or jump[k]:
+            if len(cur) >= 2:
+                pieces.append(np.asarray(cur))
+            cur = []
+        if ok[k]:
+            cur.append((x[k], y[k]))
+    if len(cur) >= 2:
+        pieces.append(np.asarray(cur))
+    return pieces
+
+
+def _far_from(placed, xy, min_dist):
+    return all(np.hypot(xy[0] - p[0], xy[1] - p[1]) >= min_dist for p in placed)
+
+
+def draw_fronts(ax, fronts, *, size=7.0, linewidth=2.2, labels=True, min_label_km=800.0):
+    """Draw fronts with WMO symbols; label the longer ones with their speed [kt].
 
     Parameters
     ----------
@@ -392,38 +434,79 @@ def draw_fronts(ax, fronts, *, size=7.0, linewidth=2.2, labels=True):
     linewidth : float
         Line width [points].
     labels : bool
-        Write the front speed (knots) beside the middle of each line.
+        Write the front speed (knots) beside the middle of each line: only
+        lines of at least ``min_label_km`` with a speed, longest first, and
+        never closer than 8 % of the map width to a label already placed.
+    min_label_km : float
+        Shortest line that gets a speed label [km].
 
     Returns
     -------
     list of matplotlib.lines.Line2D
-        One line per front, with the MetPy path effect attached.
+        One line per drawn piece, with the MetPy path effect attached.
     """
     lines = []
-    for front in fronts:
+    placed = []
+    x0, x1 = ax.get_xlim()
+    min_dist = 0.08 * abs(x1 - x0)
+    for front in sorted(fronts, key=lambda f: -float(f.length_km or 0.0)):
         lon, lat = symbol_side(front)
         if lon.size < 2:
             continue
         colour = style.FRONT_COLOURS["cold" if front.kind == "quasi-stationary" else front.kind]
         # project once here: the symbol path effects would re-project the line at every pass
-        pts = ax.projection.transform_points(_pc(), np.asarray(lon), np.asarray(lat))
-        ok = np.isfinite(pts[:, 0]) & np.isfinite(pts[:, 1])
-        if ok.sum() < 2:
+        pieces = map_pieces(ax, lon, lat)
+        for xy in pieces:
+            (line,) = ax.plot(xy[:, 0], xy[:, 1], color=colour, linewidth=linewidth,
+                              path_effects=[_front_effect(front.kind, size)], zorder=6,
+                              solid_capstyle="round")
+            line.set_gid(f"frontshift-front-{front.kind}")
+            lines.append(line)
+        if not (labels and pieces) or float(front.length_km or 0.0) < min_label_km:
             continue
-        (line,) = ax.plot(pts[ok, 0], pts[ok, 1], color=colour, linewidth=linewidth,
-                          path_effects=[_front_effect(front.kind, size)], zorder=6,
-                          solid_capstyle="round")
-        line.set_gid(f"frontshift-front-{front.kind}")
-        lines.append(line)
-        if labels:
-            kt = _speed_kt(front)
-            if kt is not None:
-                mid = int(np.flatnonzero(ok)[ok.sum() // 2])
-                ax.text(pts[mid, 0], pts[mid, 1], f"{kt:.0f} kt",
-                        fontsize=style.FONT["small"], color=colour, fontweight="bold",
-                        ha="left", va="bottom", path_effects=_HALO, zorder=7,
-                        clip_on=True)
+        kt = _speed_kt(front)
+        if kt is None:
+            continue
+        main = max(pieces, key=len)
+        xy = main[len(main) // 2]
+        if not _far_from(placed, xy, min_dist):
+            continue
+        placed.append(xy)
+        ax.text(xy[0], xy[1], f"{kt:.0f} kt", fontsize=style.FONT["small"], color=colour,
+                fontweight="bold", ha="left", va="bottom", path_effects=_HALO, zorder=7,
+                clip_on=True)
     return lines
+
+
+def quiet_corner(ax, fronts=(), sites=None):
+    """Legend location in the map corner with the fewest front points and sites."""
+    x0, x1 = ax.get_xlim()
+    y0, y1 = ax.get_ylim()
+    xs, ys = [], []
+    for f in fronts:
+        for xy in map_pieces(ax, f.lon, f.lat):
+            xs.append(xy[:, 0])
+            ys.append(xy[:, 1])
+    if sites is not None and len(sites):
+        pts = ax.projection.transform_points(
+            _pc(), np.asarray(sites["lon"], float), np.asarray(sites["lat"], float))
+        xs.append(pts[:, 0])
+        ys.append(pts[:, 1])
+    if not xs:
+        return "upper left"
+    x = (np.concatenate(xs) - x0) / (x1 - x0)
+    y = (np.concatenate(ys) - y0) / (y1 - y0)
+    boxes = {"upper left": (x < 0.3) & (y > 0.7), "upper right": (x > 0.7) & (y > 0.7),
+             "lower left": (x < 0.3) & (y < 0.3), "lower right": (x > 0.7) & (y < 0.3)}
+    return min(boxes, key=lambda k: int(np.sum(boxes[k])))
+
+
+def kind_summary(fronts):
+    """Return e.g. "2 cold fronts, 1 quasi-stationary front" (empty when none)."""
+    counts = {k: sum(f.kind == k for f in fronts) for k in style.FRONT_COLOURS}
+    names = {"cold": "cold front", "warm": "warm front", "quasi-stationary":
+             "quasi-stationary front"}
+    return ", ".join(f"{n} {names[k]}{'s' if n != 1 else ''}" for k, n in counts.items() if n)
 
 
 def draw_sites(ax, sites, *, names=True):
@@ -590,12 +673,11 @@ def front_map(ds, fronts, *, time, level=850.0, field="theta_w", sites=None, mem
     has_isobars = isobars and draw_isobars(ax, ds_t) is not None
     draw_fronts(ax, drawn, labels=labels)
     draw_sites(ax, sites)
-    front_legend(ax, isobars=has_isobars, sites=sites is not None and len(sites) > 0)
+    front_legend(ax, isobars=has_isobars, sites=sites is not None and len(sites) > 0,
+                 loc=quiet_corner(ax, drawn, sites))
     label = FIELDS[field][0]
     colour_key(fig, shading, f"{label} at {level:g} hPa [\u00b0C]")
-    counts = {k: sum(f.kind == k for f in drawn) for k in style.FRONT_COLOURS}
-    summary = ", ".join(f"{n} {style.KIND_LABELS[k]}{'s' if n != 1 else ''}"
-                        for k, n in counts.items() if n)
+    summary = kind_summary(drawn)
     extra = f"Fronts at {level:g} hPa on {label}" + (f" (member {member})" if member is not None
                                                      else "")
     extra += f": {summary}" if summary else ": no fronts found"
@@ -741,7 +823,13 @@ def fronts_overview(ds, fronts, *, level=850.0, sites=None, member=None, width_i
         line.set_gid(f"frontshift-track-{f.kind}")
         if f.track is not None:
             last[f.track] = (lon[len(lon) // 2], f.lat[len(f.lat) // 2], f.kind)
+    placed = []
+    x0, x1 = ax.get_xlim()
     for track, (x, y, kind) in last.items():
+        xy = ax.projection.transform_point(x, y, _pc())
+        if not (np.all(np.isfinite(xy)) and _far_from(placed, xy, 0.05 * abs(x1 - x0))):
+            continue  # labels never overlap: the later track keeps its line only
+        placed.append(xy)
         ax.text(x, y, f"#{track}", transform=_pc(), fontsize=style.FONT["small"],
                 fontweight="bold", color=style.FRONT_COLOURS["cold" if kind == "quasi-stationary"
                                                               else kind],
@@ -755,7 +843,7 @@ def fronts_overview(ds, fronts, *, level=850.0, sites=None, member=None, width_i
     colour_key(fig, sm, "lead time [h]", ticks=ticks)
     handles = [Line2D([0], [0], color=style.INK, linestyle=dashes[k], linewidth=1.6,
                       label=style.KIND_LABELS[k]) for k in ("cold", "warm", "quasi-stationary")]
-    ax.legend(handles=handles, loc="upper left", fontsize=style.FONT["small"],
+    ax.legend(handles=handles, loc=quiet_corner(ax, chosen, sites), fontsize=style.FONT["small"],
               framealpha=0.92).set_zorder(20)
     t0, t1 = times[0], times[-1]
     style.stamp(fig, run=ds.attrs.get("run", "unnamed run"), valid_time=(t0, t1),
@@ -874,9 +962,7 @@ class MapSeries:
                                    markeredgewidth=1.8, transform=_pc(), zorder=10)
             self.layer.append(mark)
         self.layer.extend(self.ax.texts[n_texts:])  # isobar and speed labels of this layer
-        counts = {k: sum(f.kind == k for f in drawn) for k in style.FRONT_COLOURS}
-        summary = ", ".join(f"{n} {style.KIND_LABELS[k]}{'s' if n != 1 else ''}"
-                            for k, n in counts.items() if n) or "no fronts found"
+        summary = kind_summary(drawn) or "no fronts found"
         extra = (f"Fronts at {self.level:g} hPa on {FIELDS[self.field][0]}"
                  + (f" (member {self.member})" if self.member is not None else "")
                  + f": {summary}")

@@ -53,15 +53,21 @@ TIMELINE_COLOURS = {
 }
 
 
-
 def _t(text):
     return pd.Timestamp(str(text).rstrip("Z")).to_datetime64()
 
 
 def _panel_legend(ax, loc):
     """Draw the legend of one timeline panel in the briefing style (two columns, white box)."""
-    return ax.legend(loc=loc, fontsize=FONT["small"], frameon=True, framealpha=0.95,
-                     facecolor="white", edgecolor="none", ncol=2)
+    return ax.legend(
+        loc=loc,
+        fontsize=FONT["small"],
+        frameon=True,
+        framealpha=0.95,
+        facecolor="white",
+        edgecolor="none",
+        ncol=2,
+    )
 
 
 def timeline_figure(series, rows=None, *, title_extra=None):
@@ -70,7 +76,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
     Parameters
     ----------
     series : xarray.Dataset
-        :func:`kit.products.arrivals.site_series` of one run (one member selected).
+        :func:`kit.science.passages.site_series` of one run (one member selected).
     rows : pandas.DataFrame, optional
         Rows of :func:`kit.products.arrivals.arrival_table` for this site (any runs); rows
         of the drawn run are solid lines, others dashed.

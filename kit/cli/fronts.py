@@ -17,7 +17,13 @@ from kit.cli.common import load_runs, output_path
 from kit.errors import InputError, OutputError
 from kit.pipeline import analyse
 from kit.products.files import write_json
-from kit.products.fronts import fronts_to_geojson
+from kit.products.fronts import (
+    fronts_to_geojson,
+    plausibility,
+    plausibility_metadata,
+    plausibility_notes,
+    plausibility_text,
+)
 from kit.science.fronts import FrontSettings, level_index
 
 __all__ = ["add_parser", "run"]
@@ -104,11 +110,14 @@ def run(args):
     settings = _settings(args)
     runs = load_runs(args.runs, member=args.member)
     fronts = []
+    analyses = []
     for ds in runs:
-        fronts.extend(analyse(ds, level=args.level, settings=settings).fronts)
+        analyses.append(analyse(ds, level=args.level, settings=settings))
+        fronts.extend(analyses[-1].fronts)
     collection = fronts_to_geojson(fronts)
     pairs = list(zip(args.runs, runs, strict=True))
-    notes = _notes(runs, fronts, args.level, settings)
+    report = plausibility(analyses)
+    notes = _notes(runs, fronts, args.level, settings) + plausibility_notes(report)
     collection["properties"] = {
         "product": "frontshift fronts",
         "level_hpa": float(args.level),
@@ -116,6 +125,7 @@ def run(args):
         "runs": [str(ds.attrs.get("run", Path(str(a)).name)) for a, ds in pairs],
         "source": "; ".join(str(ds.attrs.get("source", a)) for a, ds in pairs),
         "valid_times_analysed": sum(int(ds.sizes.get("time", 1)) for ds in runs),
+        "plausibility": plausibility_metadata(report),
         "caution": CAUTION,
     }
     if notes:
@@ -130,6 +140,8 @@ def run(args):
     )
     for note in notes:
         print(f"note: {note}")
+    print("plausibility of the fronts (lift: 0 chance, 1 every point; shares of line length):")
+    print(plausibility_text(report))
     print(CAUTION)
     return 0
 
@@ -170,7 +182,8 @@ def _notes(runs, fronts, level, settings):
         n = sum(int(ds.sizes.get("time", 1)) for ds in runs)
         notes.append(
             f"no front found on {level:g} hPa at any of the {n} valid times analysed "
-            f"(no line of {settings.min_length_km:g} km or more passed the masks)"
+            f"(no line of {settings.min_length_km:g} km or more passed the masks "
+            "and the flow-signature check)"
         )
     else:
         for ds in runs:

@@ -5,7 +5,7 @@ A site file is CSV with the header ``name,lat,lon`` and optionally
 degrees (north and east positive), elevation in metres above mean sea level.
 
 Placing a site on a grid gives its *fractional grid position* (row and column
-as real numbers), which the site time series (:func:`kit.products.arrivals.site_series`)
+as real numbers), which the site time series (:func:`kit.science.passages.site_series`)
 use for bilinear interpolation. It works on regular latitude/longitude grids
 (including grids contiguous across the dateline and global grids that wrap)
 and on projected grids with 2-D latitude/longitude, without needing the

@@ -7,12 +7,106 @@ authorised practice take precedence.
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 
 from kit import CAUTION
 from kit.errors import InputError
-from kit.model import Front, front_properties
+from kit.model import Analysis, Front, front_properties, json_clean
+from kit.science.plausibility import plausibility_report, pooled_summary
 
-__all__ = ["fronts_to_geojson", "split_antimeridian"]
+__all__ = [
+    "fronts_to_geojson",
+    "split_antimeridian",
+    "plausibility",
+    "plausibility_notes",
+    "plausibility_metadata",
+    "plausibility_text",
+]
+
+
+def plausibility(analyses):
+    """Plausibility report of one or more analyses (:mod:`kit.science.plausibility`).
+
+    Parameters
+    ----------
+    analyses : kit.model.Analysis or list of them
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row per run, member and valid time (a ``run`` column first).
+    """
+    items = [analyses] if isinstance(analyses, Analysis) else list(analyses)
+    reports = []
+    for a in items:
+        if not isinstance(a, Analysis):
+            raise InputError(f"plausibility: got {type(a).__name__}; expected kit.Analysis")
+        r = plausibility_report(a.dataset, a.fronts, level=a.level_hpa, settings=a.settings)
+        r.insert(0, "run", a.run)
+        reports.append(r)
+    out = pd.concat(reports, ignore_index=True) if reports else pd.DataFrame()
+    out.attrs["pooled"] = pooled_summary(reports) if reports else {}
+    out.attrs["caution"] = CAUTION
+    return out
+
+
+def plausibility_notes(report):
+    """Plain-words notes a product must carry: masking not possible, tropics only."""
+    notes = []
+    for run, grp in report.groupby("run", sort=False):
+        if (grp["below_ground_source"] == "none").all():
+            notes.append(
+                f"run {run}: no surface pressure or surface height in the run; below-ground "
+                "masking was not possible (missing values only)"
+            )
+        if (grp["masked_tropics_share"] >= 0.999).all():
+            notes.append(
+                f"run {run}: the whole domain lies equatorward of the fronts' latitude limit; "
+                "no fronts are looked for there (FrontSettings.tropics_lat)"
+            )
+    return notes
+
+
+def plausibility_metadata(report):
+    """Return the report as JSON-clean metadata: rows and the pooled figures."""
+    return {
+        "rows": [{k: json_clean(v) for k, v in row.items()} for row in report.to_dict("records")],
+        "pooled": {k: json_clean(v) for k, v in report.attrs.get("pooled", {}).items()},
+        "lift": "(share - baseline) / (1 - baseline); baseline: random points with the "
+        "same theta-w gradient distribution",
+    }
+
+
+def plausibility_text(report):
+    """Return a compact fixed-width table of the report for a terminal."""
+    if report.empty:
+        return "plausibility: nothing analysed"
+    cols = {
+        "run": "run",
+        "valid_time": "valid",
+        "n_fronts": "fronts",
+        "fronts_per_1e7_km2": "/1e7km2",
+        "vorticity_lift": "vort.lift",
+        "shear_lift": "shear.lift",
+        "trough_lift": "trough.lift",
+        "tropical_share": "tropics",
+        "below_ground_share": "below.gnd",
+        "edge_share": "edge",
+        "short_share": "short",
+        "masked_below_ground_share": "masked.gnd",
+    }
+    df = report[[c for c in cols if c in report]].rename(columns=cols)
+    text = df.to_string(index=False, float_format=lambda v: f"{v:.2f}", na_rep="-")
+    p = report.attrs.get("pooled", {})
+    if p:
+        text += (
+            f"\npooled: {p['n_fronts']} fronts, {p['line_km']:.0f} km of line; lifts "
+            f"vorticity {p['vorticity_lift']:.2f}, shear {p['shear_lift']:.2f}, trough "
+            f"{p['trough_lift']:.2f}; shares tropics {p['tropical_share']:.2f}, below ground "
+            f"{p['below_ground_share']:.2f}, edge {p['edge_share']:.2f}, short pieces "
+            f"{p['short_share']:.2f}"
+        )
+    return text
 
 
 def split_antimeridian(lon, lat):

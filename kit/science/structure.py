@@ -277,7 +277,9 @@ def front_slope(
     -------
     dict
         ``slope_1_in`` (median N of 1 in N over the vertices, NaN where not
-        found), ``scatter`` (half the inter-quartile range of the vertex
+        found or not resolved: where the front moves less than one grid length
+        from its lowest to its highest level found), ``scatter`` (half the
+        inter-quartile range of the vertex
         values of N, NaN with fewer than three), ``n_vertices`` (vertices with
         a slope), ``vertex_slopes_1_in`` (list).
 
@@ -305,6 +307,7 @@ def front_slope(
     if len(levels) < 3 or len(front.lon) < 2:
         return nan
     guess = _FIRST_GUESS_1_IN.get(front.kind, 100.0)
+    resolved_km = grid_length_km(ds)
     start = int(np.argmin(np.abs(np.asarray(levels) - float(front.level_hpa))))
     s = np.arange(-half_width_km, half_width_km + 0.5 * step_km, step_km)
     sel = _vertex_choice(len(front.lon), max_vertices)
@@ -366,7 +369,9 @@ def front_slope(
         if len(found) >= 3:
             zz = np.array([v[0] for v in found.values()]) / 1e3
             ss = np.array([v[1] for v in found.values()])
-            if np.ptp(zz) > 0.5:
+            # a displacement smaller than a grid length is not resolved by the
+            # grid: no slope then (never the first guess as a result)
+            if np.ptp(zz) > 0.5 and np.ptp(ss) >= resolved_km:
                 b = np.polyfit(zz, ss, 1)[0]
                 out.append(b if b > 0 else np.nan)
                 continue
