@@ -474,7 +474,11 @@ def test_panel_bad_threshold_is_a_plain_message(front_panel, box):
     good = widget.value
     image = front_panel.map_image.value
     analyses = front_panel.stats["analyses"]
-    for value in ("nan", "inf", "", "1e400", "-0.5", "5 km"):
+    # an empty K1/K2 box is no error: it means the kit's rule (published values
+    # or, on coarse grids, quantiles); an empty smoothing or length box is one
+    bad = ("nan", "inf", "1e400", "-0.5", "5 km") + (() if box in ("k1_text", "k2_text")
+                                                      else ("",))
+    for value in bad:
         widget.value = value
         _plain_error(front_panel.message.value, "expected")
         assert front_panel.map_image.value == image, value  # nothing redrawn
@@ -482,6 +486,11 @@ def test_panel_bad_threshold_is_a_plain_message(front_panel, box):
     widget.value = good  # the good value brings the same analysis back from the cache
     assert ERROR_STYLE not in front_panel.message.value
     assert front_panel.stats["analyses"] == analyses
+    if box in ("k1_text", "k2_text"):
+        widget.value = ""
+        assert ERROR_STYLE not in front_panel.message.value
+        assert getattr(front_panel.settings(), box[:2]) is None
+        widget.value = good
 
 
 def test_arrivals_panel_bad_run_path_is_a_plain_message(tmp_path):

@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 
 from kit.errors import InputError
-from kit.science.geo import PointSampler
+from kit.science.geo import PointSampler, grid_extent_text
 
 __all__ = [
     "read_sites",
@@ -199,16 +199,6 @@ def grid_positions(ds, lats, lons):
         )
     j, i = PointSampler(ds).index(lons, lats)
     return np.column_stack([j, i])
-
-
-def grid_extent_text(ds):
-    """Latitude/longitude extent of a grid as text, for messages (``lat 40.00..60.00, ...``)."""
-    lat = np.asarray(ds["lat"].values, dtype=float)
-    lon = np.asarray(ds["lon"].values, dtype=float)
-    return (
-        f"lat {np.nanmin(lat):.2f}..{np.nanmax(lat):.2f}, "
-        f"lon {np.nanmin(lon):.2f}..{np.nanmax(lon):.2f}"
-    )
 
 
 def check_sites_on_grid(sites, ds):

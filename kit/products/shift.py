@@ -60,7 +60,12 @@ from kit.products.files import (
     write_json,
     write_text,
 )
-from kit.products.fronts import fronts_to_geojson
+from kit.products.fronts import (
+    fronts_to_geojson,
+    plausibility,
+    plausibility_metadata,
+    plausibility_notes,
+)
 from kit.science.fronts import FrontSettings
 from kit.science.sections import section_across_front
 from kit.timefmt import iso_seconds
@@ -342,6 +347,18 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
         passed = table[table["passage_utc"] != ""]
         summary.append(f"{len(passed)} front passages at {len(sites)} sites over "
                        f"{len(runs)} run(s)")
+    report = plausibility(analyses)
+    pooled = report.attrs["pooled"]
+    if pooled.get("n_fronts"):
+        masked = report["masked_below_ground_share"].astype(float)
+        masked = (f"{100 * float(masked.max()):.0f} %" if masked.notna().any()
+                  else "none (no surface field)")
+        summary.append(
+            f"Plausibility of the fronts (all runs): lift over chance of the trough "
+            f"{pooled['trough_lift']:.2f}, of cyclonic vorticity {pooled['vorticity_lift']:.2f}"
+            f" (0 chance, 1 every point); below-ground points masked: {masked}"
+        )
+    summary.extend(plausibility_notes(report))
     contents = ["Fronts through the run and their tracks", "Frontal maps by valid time"]
     if section_jobs:
         contents.append("Cross-sections through the sites across passing fronts")
@@ -438,6 +455,7 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
             "level_hpa": float(level), "field": field, "source": sources,
             "valid_from": iso_seconds(t_first), "valid_to": iso_seconds(t_last),
             "caution": CAUTION, "files": products.files,
+            "plausibility": plausibility_metadata(report),
             "seconds": round(time.time() - started, 1),
         }
         products.add(write_json(tmp / "manifest.json", manifest), "manifest")

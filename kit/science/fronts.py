@@ -16,14 +16,19 @@ The method is Hewson (1998) on the thermal front parameter of Renard & Clarke
    ``TFP > K1`` and ``|grad tau| + X / sqrt(2) |grad |grad tau|| > K2``
    (X the grid length);
 5. the zero line is traced with contourpy on the masked locating function, so
-   it stops at mask edges and at missing data; lines shorter than
-   :attr:`FrontSettings.min_length_km` are dropped;
+   it stops at mask edges, at missing data and at points no front may use
+   (below ground, tropics, domain edge: :mod:`kit.science.domain`); pieces of
+   one line are joined (:func:`join_lines`);
 6. each vertex gets TFP, |grad tau|, the unit normal toward the cold side and
    the wind component along it at the steering level (850 hPa); a vertex is
    warm where the wind blows toward the cold side faster than
    :attr:`FrontSettings.qs_speed_ms`, cold where it blows toward the warm side
    faster than that, and quasi-stationary in between; a line is split where
-   its type changes over at least :attr:`FrontSettings.min_piece_km`.
+   its type changes over at least :attr:`FrontSettings.min_piece_km`;
+7. pieces shorter than :func:`min_length_km` are dropped, and so are those
+   without a frontal flow signature along
+   :attr:`FrontSettings.confirm_min_share` of their length
+   (:mod:`kit.science.signature`).
 
 Speed: inside :func:`find_fronts` the field pipeline runs in float32 on the
 anomaly from a reference value (rounding about 1e-6 K, far below the third

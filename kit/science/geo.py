@@ -53,6 +53,7 @@ __all__ = [
     "local_east_north_km",
     "local_to_lonlat",
     "PointSampler",
+    "grid_extent_text",
 ]
 
 _POLE_COS = 1e-6  # cos(lat) below this is treated as the pole: east derivative undefined
@@ -1260,3 +1261,13 @@ def _weighted_corners(values, w, nan):
         raise InputError(f"sample: nan={nan!r}; expected 'propagate' or 'skip'")
     outside = np.where(np.isfinite(w[..., 0]), 0.0, np.nan)
     return np.sum(values * np.nan_to_num(w), axis=-1) + outside
+
+
+def grid_extent_text(ds):
+    """Latitude/longitude extent of a grid as text, for messages (``lat 40.00..60.00, ...``)."""
+    lat = np.asarray(ds["lat"].values, dtype=float)
+    lon = np.asarray(ds["lon"].values, dtype=float)
+    return (
+        f"lat {np.nanmin(lat):.2f}..{np.nanmax(lat):.2f}, "
+        f"lon {np.nanmin(lon):.2f}..{np.nanmax(lon):.2f}"
+    )

@@ -82,7 +82,12 @@ from kit.constants import (
 from kit.errors import InputError
 from kit.science import fronts as kf
 from kit.science import geo, thermo
-from kit.science.geo import PointSampler, direction_bearing_deg, local_east_north_km
+from kit.science.geo import (
+    PointSampler,
+    direction_bearing_deg,
+    grid_extent_text,
+    local_east_north_km,
+)
 from kit.timefmt import iso_minutes
 
 __all__ = [
@@ -286,19 +291,6 @@ def site_series(ds, site):
     return _series_many(ds, pd.DataFrame([dict(site)]))[name]
 
 
-def _extent_text(ds):
-    """Latitude/longitude extent of the grid as text, for messages (``lat 40.00..60.00, ...``).
-
-    The same words as :func:`kit.io.sites.grid_extent_text`, which science may not import.
-    """
-    lat = np.asarray(ds["lat"].values, dtype=float)
-    lon = np.asarray(ds["lon"].values, dtype=float)
-    return (
-        f"lat {np.nanmin(lat):.2f}..{np.nanmax(lat):.2f}, "
-        f"lon {np.nanmin(lon):.2f}..{np.nanmax(lon):.2f}"
-    )
-
-
 def _series_many(ds, sites):
     """Site series of every row of ``sites``: {name: Dataset}."""
     for var in ("t", "td", "z"):
@@ -315,7 +307,7 @@ def _series_many(ds, sites):
         if not (np.isfinite(row) and np.isfinite(col)):
             raise InputError(
                 f"site '{name}' ({lat:.3f}, {lon:.3f}) lies off the grid of "
-                f"{ds.attrs.get('run', 'the run')} ({_extent_text(ds)}); "
+                f"{ds.attrs.get('run', 'the run')} ({grid_extent_text(ds)}); "
                 "expected a site inside the model domain"
             )
     # bilinear, NaN-aware (levels below the ground); reads only the corner columns

@@ -49,7 +49,7 @@ from kit.products.briefing import TABLE_COLUMNS
 from kit.products.files import save_figure, write_csv, write_html_table, write_json
 from kit.products.fronts import fronts_to_geojson
 from kit.products.shift import write_shift_products
-from kit.science.fronts import FrontSettings, default_thresholds, effective_smoothing_km
+from kit.science.fronts import FrontSettings, effective_smoothing_km, threshold_rule
 from kit.science.sections import section_across_front
 from kit.products.rerun import rerun_event
 from kit.science.verification import summarise_position, summarise_timing
@@ -366,8 +366,11 @@ class FrontPanel:
         """FrontSettings from the threshold boxes (one-line InputError on bad values)."""
         smoothing = _float(self.smooth_text, "smoothing [km]", lo=0.0)
         min_len = _float(self.minlen_text, "shortest line [km]", lo=0.0)
-        k1 = _float(self.k1_text, "K1 [K per (100 km)^2]", lo=0.0) * K1_UNIT
-        k2 = _float(self.k2_text, "K2 [K per 100 km]", lo=0.0) * K2_UNIT
+        # an empty box: the kit's rule (published values, or quantiles on coarse grids)
+        k1 = (_float(self.k1_text, "K1 [K per (100 km)^2]", lo=0.0) * K1_UNIT
+              if self.k1_text.value.strip() else None)
+        k2 = (_float(self.k2_text, "K2 [K per 100 km]", lo=0.0) * K2_UNIT
+              if self.k2_text.value.strip() else None)
         return FrontSettings(field=self.field_pick.value, smoothing_km=smoothing,
                              min_length_km=min_len, k1=k1, k2=k2)
 
@@ -379,10 +382,14 @@ class FrontPanel:
         except ValueError:
             smoothing = self.defaults.smoothing_km
         eff = effective_smoothing_km(ds, FrontSettings(smoothing_km=max(smoothing, 0.0)))
-        k1, k2 = default_thresholds(eff)
+        rule, k1, k2, _, _ = threshold_rule(eff, FrontSettings())
         quiet, self._quiet = self._quiet, True
-        self.k1_text.value = f"{k1 / K1_UNIT:.3g}"
-        self.k2_text.value = f"{k2 / K2_UNIT:.3g}"
+        if rule == "published":
+            self.k1_text.value = f"{k1 / K1_UNIT:.3g}"
+            self.k2_text.value = f"{k2 / K2_UNIT:.3g}"
+        else:  # coarse grid: quantiles of the run, left to the kit (boxes empty)
+            self.k1_text.value = self.k2_text.value = ""
+            self.k1_text.placeholder = self.k2_text.placeholder = "quantile"
         self._quiet = quiet
 
     def analysis(self):
