@@ -41,6 +41,7 @@ from kit.charts.coast import add_coastlines  # noqa: E402
 from kit.constants import KT_PER_MS, T0_K  # noqa: E402
 from kit.errors import InputError  # noqa: E402
 from kit.science import thermo  # noqa: E402
+from kit.science.domain import below_ground  # noqa: E402
 from kit.timefmt import iso_minutes  # noqa: E402
 
 __all__ = [
@@ -135,11 +136,19 @@ def level_field_c(ds_t, field="theta_w", level=850.0):
     field : {"theta_w", "theta"}
     level : float
         Pressure level [hPa].
+
+    Points where the level lies below the model surface (``ps`` or ``zsfc``)
+    are NaN: the map leaves them unshaded, as it does missing values.
     """
     if field not in FIELDS:
         raise InputError(f"field {field!r}: unknown; expected one of {', '.join(FIELDS)}")
     da = thermo.level_field(ds_t, FIELDS[field][1], level)
-    return np.asarray(da.values, dtype=float) - T0_K
+    values = np.asarray(da.values, dtype=float) - T0_K
+    # the level below the model surface: extrapolated values, left unshaded
+    ground, _ = below_ground(ds_t, level)
+    if ground is not None and ground.shape == values.shape[-2:]:
+        values = np.where(ground, np.nan, values)
+    return values
 
 
 def _lonlat2d(ds):

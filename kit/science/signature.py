@@ -70,9 +70,11 @@ class FlowFields:
         self.pressure = sm(pressure)
         self.pressure_name = pressure_name
         self.sampler = sampler
-        #: offset across the front for shear and trough [km]: one grid length,
-        #: at least the smoothing scale and 100 km
-        self.offset_km = max(grid.length_m / 1000.0, float(smoothing_km), 100.0)
+        #: offset across the front for shear and trough [km]: one grid length, at
+        #: least the smoothing scale and 200 km (frontal troughs and shear zones at
+        #: 850 hPa are a few hundred km across: common practice, no source; at
+        #: 100 km the weak broad trough of a warm front far from its low was missed)
+        self.offset_km = max(grid.length_m / 1000.0, float(smoothing_km), 200.0)
 
 
 def signature_at(flow, lon, lat, normal_east, normal_north):
