@@ -11,6 +11,8 @@ authorised practice take precedence.
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
 from kit.errors import InputError
@@ -73,6 +75,10 @@ def analyse(ds, *, level=850.0, settings=None, member=None, steps=STEPS):
         raise InputError(
             f"analyse: settings of type {type(settings).__name__}; expected FrontSettings"
         )
+    if settings.field == "theta_w" and "td" not in ds:
+        # a thin run without humidity on its levels: theta (Thomas & Schultz 2019),
+        # as ds.attrs["thin"] says in every product
+        settings = dataclasses.replace(settings, field="theta")
     ds = _in_memory_if_small(ds)
     if member is not None:
         members = [member]

@@ -157,8 +157,6 @@ BAD_RUNS = {
     "text-file-named-nc": (_text_named_nc, ["notes.nc", "not a NetCDF file"]),
     "truncated-file": (_truncated, ["step_006.nc", "truncated or corrupt"]),
     "corrupt-file": (_corrupt, ["corrupt.nc", "corrupt"]),
-    "missing-humidity": (lambda e: _rewrite(e, "nohum", _drop_humidity),
-                         ["step_000.nc", "humidity", "dew_point_temperature"]),
     "renamed-temperature": (lambda e: _rewrite(e, "renamed", _rename_temperature),
                             ["step_000.nc", "air_temperature"]),
     "wrong-units": (lambda e: _rewrite(e, "kelvinwind", _wind_in_kelvin),
@@ -247,6 +245,23 @@ def test_bad_run_is_one_line_and_leaves_nothing(event, tmp_path, capsys, command
     status = main(_argv(command, run, out, event))
     assert_one_line_error(status, capsys, *needles)
     assert _snapshot(folder) == before  # nothing new, nothing changed, no temporary file
+
+
+@pytest.mark.parametrize("command", ["fronts", "arrivals", "section", "shift"])
+def test_run_without_humidity_is_thin(event, tmp_path, capsys, command):
+    # issue 15: a run without humidity on its levels is a thin run. The fronts
+    # are found in theta and the product says so; the products that need site
+    # weather refuse in one line, naming the humidity, and leave nothing.
+    run = _rewrite(event, "nohum", _drop_humidity)
+    folder, out = _out_folder(tmp_path, command)
+    before = _snapshot(folder)
+    status = main(_argv(command, run, out, event))
+    if command == "fronts":
+        text = capsys.readouterr().out
+        assert status == 0 and "is thin" in text and "theta" in text
+        return
+    assert_one_line_error(status, capsys, "humidity")
+    assert _snapshot(folder) == before
 
 
 @pytest.mark.parametrize("command", ["fronts", "arrivals", "section"])

@@ -106,27 +106,31 @@ def test_model_levels_are_not_pressure_levels(tmp_path):
     )
 
 
-def test_missing_humidity_lists_what_was_found(tmp_path):
+def test_missing_humidity_is_a_thin_run_that_says_so(tmp_path):
+    # issue 15: a run without humidity on its levels is read (no td); the
+    # fronts are then found in theta and every product says the run is thin
     ds = to_cf(small()).drop_vars(["td", "td2m"])
     ds.to_netcdf(tmp_path / "run.nc")
-    msg = raises_one_line(
-        lambda: open_run(tmp_path / "run.nc"),
-        "run.nc",
-        "no humidity variable",
-        "relative_humidity",
-        "specific_humidity",
-        "dew_point_temperature",
-        "found",
-    )
-    assert "t, u, v, z" in msg
+    got = open_run(tmp_path / "run.nc")
+    assert "td" not in got and {"t", "u", "v", "z"} <= set(got.data_vars)
+    assert "no humidity on pressure levels: fronts found in theta" in got.attrs["thin"]
 
 
-def test_missing_wind(tmp_path):
+def test_missing_wind_component(tmp_path):
+    # one wind component without the other stays an error: winds come in pairs
     ds = to_cf(small()).drop_vars(["u"])
     ds.to_netcdf(tmp_path / "run.nc")
     raises_one_line(
         lambda: open_run(tmp_path / "run.nc"), "run.nc", "no u variable", "eastward_wind", "found"
     )
+
+
+def test_missing_winds_give_geostrophic_winds(tmp_path):
+    ds = to_cf(small()).drop_vars(["u", "v", "u10", "v10"], errors="ignore")
+    ds.to_netcdf(tmp_path / "run.nc")
+    got = open_run(tmp_path / "run.nc")
+    assert got["u"].attrs["derived"] == "geostrophic"
+    assert "geostrophic wind from the heights" in got.attrs["thin"]
 
 
 def test_unknown_unit(tmp_path):

@@ -148,3 +148,30 @@ def test_global_map_lines_never_cross_the_map(tmp_path):
         import matplotlib.pyplot as plt
 
         plt.close(fig)
+
+
+def test_thin_ensemble_run_end_to_end(tmp_path, capsys):
+    # the ERA5 10-member sample has only t and z at 850 and 500 hPa: theta
+    # fronts, geostrophic winds, members kept, and the product says it is thin
+    era5 = REAL / "era5_enda_members_20170101.nc"
+    ds = kit.open_run(era5)
+    assert ds.sizes["member"] == 10 and "td" not in ds
+    assert ds["u"].attrs["derived"] == "geostrophic"
+    lat = np.broadcast_to(ds["lat"].values[:, None], ds["u"].shape[-2:])
+    assert np.all(np.isnan(ds["u"].values[..., np.abs(lat) < 10.0]))
+    analysis = kit.analyse(ds)
+    assert analysis.settings.field == "theta"
+    assert {f.member for f in analysis.fronts} <= set(range(10))
+    assert len({f.member for f in analysis.fronts}) >= 5
+    out = tmp_path / "fronts.geojson"
+    assert main(["fronts", str(era5), "--out", str(out)]) == 0
+    note = json.loads(out.read_text())["properties"]["note"]
+    assert "is thin" in note and "theta" in note and "geostrophic" in note
+    assert "is thin" in capsys.readouterr().out
+    # the products that need humidity refuse in one line, naming what is missing
+    sites = tmp_path / "sites.csv"
+    sites.write_text("name,lat,lon,elevation_m\nNorrin Flats,52.0,0.0,50\n")
+    assert main(["arrivals", str(era5), "--sites", str(sites),
+                 "--out", str(tmp_path / "a.csv")]) == 2
+    err = capsys.readouterr().err
+    assert "no humidity on pressure levels" in err and len(err.strip().splitlines()) == 1

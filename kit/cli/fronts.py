@@ -171,6 +171,8 @@ def _notes(runs, fronts, level, settings):
     notes = []
     for ds in runs:
         run = ds.attrs.get("run", "?")
+        if ds.attrs.get("thin"):
+            notes.append(f"run {run} is thin: {ds.attrs['thin']}")
         empty = _empty_steps(ds, level)
         if empty:
             notes.append(

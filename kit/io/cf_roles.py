@@ -174,8 +174,9 @@ _SURFACE_OF = {
 
 #: roles on pressure levels (t's levels): temperature, humidity, wind, height
 UPPER_AIR_ROLES = tuple(_LEVEL_ROLES)
-#: roles a run must have (besides one humidity variable: td, rh or q)
-REQUIRED_ROLES = ("t", "u", "v", "z")
+#: roles a run must have; humidity (td, rh or q) and the winds (u and v, both
+#: or neither) may be absent: a thin run (theta fronts, geostrophic winds)
+REQUIRED_ROLES = ("t", "z")
 
 _ROLE_DIMENSIONS = {
     "temperature": [{"[temperature]": 1}],
@@ -323,7 +324,10 @@ def _name_match_allowed(da, role):
 
 
 def check_required_roles(ds, roles, candidates, level_dims, where):
-    """Raise unless a file has pressure levels, ``t, u, v, z`` and one humidity variable.
+    """Raise unless a file has pressure levels, ``t`` and ``z``, and winds in pairs.
+
+    Humidity and winds may be missing (a thin run): the loader then gives no
+    ``td`` and geostrophic ``u``, ``v`` (:func:`kit.io.runs.open_run`).
 
     Parameters
     ----------
@@ -363,9 +367,10 @@ def check_required_roles(ds, roles, candidates, level_dims, where):
     if missing:
         r = missing[0]
         raise input_error(where, f"no {r} variable: need {need[r]}; found {found}")
-    if not any(r in roles for r in ("td", "rh", "q")):
-        raise input_error(
-            where,
-            "no humidity variable: need relative_humidity, specific_humidity or "
-            f"dew_point_temperature on pressure levels; found {found}",
-        )
+    for a, b in (("u", "v"), ("v", "u")):
+        if a in roles and b not in roles:
+            raise input_error(
+                where,
+                f"no {b} variable: need {need[b]} with {roles[a][0]} (the winds come in "
+                f"pairs, or neither for a thin run); found {found}",
+            )

@@ -87,6 +87,7 @@ from kit.io.messages import input_error, join_names
 from kit.io.netcdf import open_netcdf
 from kit.io.precip import accumulation_starts, convert_precip, rate_from_accumulation
 from kit.science import thermo
+from kit.science.motion import geostrophic_wind
 
 __all__ = [
     "CANONICAL_UNITS",
@@ -644,6 +645,42 @@ def _assemble_run(parts, where_all, member):
     )
     if analyses:
         ds.attrs["kind"] = "analyses"
+    return _thin_run(ds)
+
+
+def _thin_run(ds):
+    """Complete a run without winds or humidity on its levels, and say what was done.
+
+    No winds: geostrophic winds from the heights (:func:`kit.science.motion.
+    geostrophic_wind`), NaN within 10 degrees of the equator, where geostrophy
+    fails. No humidity: no dew point; the fronts are then found in theta
+    (Thomas & Schultz 2019), by :func:`kit.pipeline.analyse`. ``attrs["thin"]``
+    lists what the run lacks and what was done instead (empty when nothing).
+    """
+    thin = []
+    if "u" not in ds or "v" not in ds:
+        ug, vg = geostrophic_wind(ds["z"], ds, "height")
+        order = [d for d in ds["z"].dims]
+        ds["u"] = ug.transpose(*order)
+        ds["v"] = vg.transpose(*order)
+        for name in ("u", "v"):
+            std, long = CANONICAL_NAMES[name]
+            ds[name].attrs = {
+                "units": "m s-1",
+                "standard_name": std,
+                "long_name": f"geostrophic {long} from geopotential height",
+                "derived": "geostrophic",
+            }
+        ds = ds[[n for n in CANONICAL_UNITS if n in ds.data_vars]]
+        thin.append(
+            "no wind on pressure levels: geostrophic wind from the heights "
+            "(none within 10 degrees of the equator)"
+        )
+    if "td" not in ds:
+        thin.append("no humidity on pressure levels: fronts found in theta, not theta-w")
+    if "mslp" not in ds:
+        thin.append("no mean-sea-level pressure: troughs looked for in the 850-hPa height")
+    ds.attrs["thin"] = "; ".join(thin)
     return ds
 
 

@@ -83,6 +83,7 @@ def plausibility_text(report):
         return "plausibility: nothing analysed"
     cols = {
         "run": "run",
+        "member": "member",
         "valid_time": "valid",
         "n_fronts": "fronts",
         "fronts_per_1e7_km2": "/1e7km2",
@@ -95,7 +96,10 @@ def plausibility_text(report):
         "short_share": "short",
         "masked_below_ground_share": "masked.gnd",
     }
-    df = report[[c for c in cols if c in report]].rename(columns=cols)
+    keep = [c for c in cols if c in report]
+    if "member" in keep and report["member"].isna().all():
+        keep.remove("member")
+    df = report[keep].rename(columns=cols)
     text = df.to_string(index=False, float_format=lambda v: f"{v:.2f}", na_rep="-")
     p = report.attrs.get("pooled", {})
     if p:

@@ -359,6 +359,8 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
             f" (0 chance, 1 every point); below-ground points masked: {masked}"
         )
     summary.extend(plausibility_notes(report))
+    summary.extend(f"Run {a.run} is thin: {a.dataset.attrs['thin']}" for a in analyses
+                   if a.dataset.attrs.get("thin"))
     contents = ["Fronts through the run and their tracks", "Frontal maps by valid time"]
     if section_jobs:
         contents.append("Cross-sections through the sites across passing fronts")

@@ -295,6 +295,12 @@ def _series_many(ds, sites):
     """Site series of every row of ``sites``: {name: Dataset}."""
     for var in ("t", "td", "z"):
         if var not in ds:
+            if var == "td" and ds.attrs.get("thin"):
+                raise InputError(
+                    f"run {ds.attrs.get('run', '?')}: no humidity on pressure levels (a thin "
+                    "run); site weather needs dew point: expected humidity on the levels "
+                    "(frontshift fronts analyses such runs, on theta)"
+                )
             raise InputError(
                 f"run {ds.attrs.get('run', '?')}: no variable '{var}'; "
                 "expected the canonical dataset (DEVELOPERS.md)"

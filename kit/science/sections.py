@@ -266,6 +266,9 @@ def _select_member(ds, member):
 def _at_time(ds, time, member):
     """Load the run at one valid time (and member), with the needed fields checked."""
     missing = [n for n in _REQUIRED if n not in ds]
+    if missing == ["td"] and ds.attrs.get("thin"):
+        raise InputError(f"run {ds.attrs.get('run', '?')}: no humidity on pressure levels (a "
+                         "thin run); a section needs dew point: expected humidity on the levels")
     if missing:
         raise InputError(f"run {ds.attrs.get('run', '?')}: variable(s) {', '.join(missing)} "
                          "missing; expected t, td, u, v, z on pressure levels (canonical Dataset)")

@@ -874,9 +874,14 @@ def level_field(ds, name, level):
         raise InputError(
             f"field '{name}': not in the dataset nor derivable; expected one of: {have}"
         )
-    _need(ds, "t", "td")
-    t = _select_level(ds, ds["t"], level, "t")
-    td = _select_level(ds, ds["td"], level, "td")
+    if name == "theta":  # needs no humidity (thin runs)
+        _need(ds, "t")
+        t = _select_level(ds, ds["t"], level, "t")
+        td = None
+    else:
+        _need(ds, "t", "td")
+        t = _select_level(ds, ds["t"], level, "t")
+        td = _select_level(ds, ds["td"], level, "td")
     out = _DERIVED[name](t, td, _pressure_of(ds, t))
     out.name = name
     return out
