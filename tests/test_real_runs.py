@@ -175,3 +175,13 @@ def test_thin_ensemble_run_end_to_end(tmp_path, capsys):
                  "--out", str(tmp_path / "a.csv")]) == 2
     err = capsys.readouterr().err
     assert "no humidity on pressure levels" in err and len(err.strip().splitlines()) == 1
+
+
+def test_panel_opens_a_thin_run_on_theta_and_says_it_is_thin():
+    pytest.importorskip("ipywidgets")
+    from kit.ui.panels import FrontPanel
+
+    panel = FrontPanel([REAL / "era5_enda_members_20170101.nc"])
+    assert panel.field_pick.value == "theta"
+    assert panel.map_image.value  # a map was drawn
+    assert "thin run" in panel.message.value and "theta" in panel.message.value

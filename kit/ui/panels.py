@@ -357,6 +357,9 @@ class FrontPanel:
         self.time_slider.options = options
         self.time_slider.value = old if old in times else times[0]
         self.play.max = len(times) - 1
+        if "td" not in ds and self.field_pick.value == "theta_w":
+            # a thin run without humidity on its levels: theta, and the panel says so
+            self.field_pick.value = "theta"
         self._quiet = quiet
         if not self.k1_text.value.strip() and not self.k2_text.value.strip():
             self._show_default_thresholds()
@@ -439,8 +442,9 @@ class FrontPanel:
         self._fill_front_pick(at_time)
         self.stats["map_draws"] += 1
         self.stats["last_redraw_s"] = time.perf_counter() - started
+        thin = ds.attrs.get("thin")
         self.say(f"{label}: {len(at_time)} fronts at {pd.Timestamp(valid):%d %b %H:%M} UTC "
-                 f"({self.stats['last_redraw_s']:.2f} s)")
+                 f"({self.stats['last_redraw_s']:.2f} s)" + (f"; thin run: {thin}" if thin else ""))
         return self.map_image.value
 
     def _site(self):
