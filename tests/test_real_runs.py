@@ -13,6 +13,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import xarray as xr
 
 import kit
 from kit.cli import main
@@ -101,7 +102,7 @@ def test_without_the_surface_the_run_is_analysed_and_the_product_says_so(tmp_pat
     ds = kit.open_run(GRADS)
     thin = ds.drop_vars(["ps"])
     path = tmp_path / "no_surface.nc"
-    raw = __import__("xarray").open_dataset(GRADS).drop_vars("surface_air_pressure")
+    raw = xr.open_dataset(GRADS).drop_vars("surface_air_pressure")
     raw.to_netcdf(path)
     out = tmp_path / "fronts.geojson"
     assert main(["fronts", str(path), "--out", str(out)]) == 0
@@ -114,8 +115,6 @@ def test_without_the_surface_the_run_is_analysed_and_the_product_says_so(tmp_pat
 
 
 def test_a_run_of_the_tropics_only_gives_an_empty_product_that_says_why(tmp_path, capsys):
-    import xarray as xr
-
     raw = xr.open_dataset(GRADS)
     lat = [n for n in raw.coords if n.startswith("lat")][0]
     tropics = raw.sel({lat: slice(-18.0, 18.0)} if raw[lat][0] < raw[lat][-1]

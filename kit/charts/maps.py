@@ -513,8 +513,8 @@ def quiet_corner(ax, fronts=(), sites=None):
 def kind_summary(fronts):
     """Return e.g. "2 cold fronts, 1 quasi-stationary front" (empty when none)."""
     counts = {k: sum(f.kind == k for f in fronts) for k in style.FRONT_COLOURS}
-    names = {"cold": "cold front", "warm": "warm front", "quasi-stationary":
-             "quasi-stationary front"}
+    # the legend's labels, each made a noun ("quasi-stationary" -> "... front")
+    names = {k: v if v.endswith("front") else f"{v} front" for k, v in style.KIND_LABELS.items()}
     return ", ".join(f"{n} {names[k]}{'s' if n != 1 else ''}" for k, n in counts.items() if n)
 
 

@@ -660,9 +660,8 @@ def _thin_run(ds):
     thin = []
     if "u" not in ds or "v" not in ds:
         ug, vg = geostrophic_wind(ds["z"], ds, "height")
-        order = [d for d in ds["z"].dims]
-        ds["u"] = ug.transpose(*order)
-        ds["v"] = vg.transpose(*order)
+        ds["u"] = ug.transpose(*ds["z"].dims)
+        ds["v"] = vg.transpose(*ds["z"].dims)
         for name in ("u", "v"):
             std, long = CANONICAL_NAMES[name]
             ds[name].attrs = {

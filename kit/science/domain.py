@@ -19,11 +19,10 @@ import math
 
 import numpy as np
 
-from kit.constants import EARTH_RADIUS_M
-
 __all__ = [
     "TROPICS_LAT",
     "grid_lat",
+    "grid_lon",
     "below_ground",
     "tropics_mask",
     "edge_mask",
@@ -41,6 +40,14 @@ def grid_lat(grid):
     if lat.ndim == 1:
         return np.broadcast_to(lat[:, None], tuple(grid.shape))
     return lat
+
+
+def grid_lon(grid):
+    """Longitude of every grid point [degrees], shape (Y, X)."""
+    lon = np.asarray(grid.lon, float)
+    if lon.ndim == 1:
+        return np.broadcast_to(lon[None, :], tuple(grid.shape))
+    return lon
 
 
 def below_ground(ds_t, level_hpa, *, margin_hpa=0.0, margin_m=0.0):
@@ -128,6 +135,5 @@ def cell_area_m2(grid):
     dx = np.abs(np.asarray(grid.dx, float))
     dy = np.abs(np.asarray(grid.dy, float))
     area = np.broadcast_to(dx * dy, tuple(grid.shape)).astype(float)
-    # the pole rows of a global grid have dx = 0; give them the polar cap area share
-    area = np.where(np.isfinite(area), area, 0.0)
-    return np.minimum(area, 4 * math.pi * EARTH_RADIUS_M**2)
+    # a spacing that is not finite (degenerate rows) stands for no area
+    return np.where(np.isfinite(area), area, 0.0)

@@ -322,23 +322,19 @@ def threshold_rule(smoothing_km, settings=None):
         Quantiles to take, where any.
     """
     s = settings or FrontSettings()
-    q1, q2 = s.k1_quantile, s.k2_quantile
-    if q1 is None and q2 is None and (s.k1 is not None or s.k2 is not None):
-        k1p, k2p = default_thresholds()
-        return "given", (k1p if s.k1 is None else s.k1), (k2p if s.k2 is None else s.k2), None, None
-    if q1 is None and q2 is None and float(smoothing_km) <= s.published_max_smoothing_km:
-        k1p, k2p = default_thresholds()
-        return "published", k1p, k2p, None, None
-    if q1 is None and q2 is None:
-        q1, q2 = DEFAULT_K1_QUANTILE, DEFAULT_K2_QUANTILE
-    k1 = s.k1 if q1 is None else None
-    k2 = s.k2 if q2 is None else None
     k1p, k2p = default_thresholds()
-    if q1 is None and k1 is None:
-        k1 = k1p
-    if q2 is None and k2 is None:
-        k2 = k2p
-    return "quantiles", k1, k2, q1, q2
+    # a threshold given as a number, else the published one
+    k1 = k1p if s.k1 is None else s.k1
+    k2 = k2p if s.k2 is None else s.k2
+    q1, q2 = s.k1_quantile, s.k2_quantile
+    if q1 is None and q2 is None:
+        if s.k1 is not None or s.k2 is not None:
+            return "given", k1, k2, None, None
+        if float(smoothing_km) <= s.published_max_smoothing_km:
+            return "published", k1, k2, None, None
+        q1, q2 = DEFAULT_K1_QUANTILE, DEFAULT_K2_QUANTILE
+    # a threshold taken as a quantile is not known before the data
+    return "quantiles", (None if q1 is not None else k1), (None if q2 is not None else k2), q1, q2
 
 
 def min_length_km(ds, settings=None):
@@ -951,11 +947,6 @@ def _weighted_quantile(values, weights, q):
     return float(np.interp(q * cw[-1], cw, v))
 
 
-def _area_weights(grid):
-    dx, dy = np.abs(grid.dx), np.abs(grid.dy)
-    return dx * dy
-
-
 def _line_signature(flow, lon, lat, ne, nn, w):
     """Length-weighted shares of the flow signature along a line (dict, or None)."""
     if flow is None:
@@ -994,7 +985,7 @@ def _lines_at_time(rec, grid, k1, k2, rule, s, min_len_km, run):
         if length < min_len_km or lon.size < 2:
             continue
         if uv is None:
-            uv = rec.steering_wind()
+            uv = rec.steering_wind()[:2]
         tfp, mag, gx, gy, uu, vv = _sample(
             [f["tfp"], f["grad"], f["ux"], f["uy"], uv[0], uv[1]], xi, yi, grid.periodic
         )
@@ -1088,16 +1079,32 @@ class FieldRecord:
     below_ground_source : str
     tropics, edge : ndarray of bool
     smoothing_km : float
+    cell_area : ndarray
+        Area each grid point stands for [m2] (:func:`kit.science.domain.cell_area_m2`).
     """
 
     def __init__(self, **kw):
         self.__dict__.update(kw)
         self._flow = None
+        self._wind = None
+
+    def steering_wind(self):
+        """Return ``(u, v, below_ground)`` at the steering level, loaded once per record.
+
+        ``u``, ``v`` [m s-1] are NaN below ground; ``below_ground`` is the
+        steering level's mask (None: not known).
+        """
+        if self._wind is None:
+            self._wind = self.wind_loader()
+        return self._wind
 
     def flow(self):
-        """Return the steering-level flow fields (:class:`kit.science.signature.FlowFields`)."""
-        if self._flow is None and self.flow_loader is not None:
-            self._flow = self.flow_loader()
+        """Return the steering-level flow fields (:class:`kit.science.signature.FlowFields`).
+
+        None when the run has no trough field (neither ``mslp`` nor ``z``).
+        """
+        if self._flow is None:
+            self._flow = self.flow_loader(self)
         return self._flow
 
 
@@ -1117,6 +1124,7 @@ def analysis_fields(ds, level, settings, members):
     tropics = tropics_mask(grid, s.tropics_lat)
     edge = edge_mask(grid, s.edge_buffer_grid_lengths)
     sampler = geo.PointSampler(ds)
+    cell_area = cell_area_m2(grid)
     ws = cbuf = None
     for m in members:
         dm = ds.sel(member=m) if m is not None else ds
@@ -1137,8 +1145,10 @@ def analysis_fields(ds, level, settings, members):
             bg0, _ = below_ground(dt_, level)
             if bg is not None:
                 tau[bg] = np.nan
-            excluded = tropics | edge | ~np.isfinite(tau)
-            excluded = dilate(excluded & ~tropics & ~edge, 1, grid.periodic) | tropics | edge
+            # missing points (below ground included) grown by one cell, then
+            # the fixed tropics and edge masks
+            banned = tropics | edge
+            excluded = dilate(~np.isfinite(tau) & ~banned, 1, grid.periodic) | banned
             if ws is None:
                 ws = [np.empty(grid.shape, dtype=_WORK_DTYPE) for _ in range(_N_WORK + 3)]
                 cbuf = np.empty((grid.shape[0], grid.shape[1] // 2 + 1), dtype=np.complex64)
@@ -1166,10 +1176,10 @@ def analysis_fields(ds, level, settings, members):
                     out.append(a)
                 return out[0], out[1], bs
 
-            def flow(dt_=dt_, wind=wind):
+            def flow(rec, dt_=dt_):
                 if "mslp" not in dt_ and "z" not in dt_:
                     return None  # no trough field: the signature is not evaluated
-                u, v, bs = wind()
+                u, v, bs = rec.steering_wind()
                 if "mslp" in dt_:
                     p = np.array(dt_["mslp"].values, dtype=np.float64).reshape(grid.shape)
                     name = "mslp"
@@ -1193,7 +1203,8 @@ def analysis_fields(ds, level, settings, members):
                 tropics=tropics,
                 edge=edge,
                 smoothing_km=smoothing_km,
-                steering_wind=lambda wind=wind: wind()[:2],
+                cell_area=cell_area,
+                wind_loader=wind,
                 flow_loader=flow,
             )
 
@@ -1306,15 +1317,8 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
     min_len = min_length_km(ds, s)
     rule, k1, k2, q1, q2 = threshold_rule(smoothing_km, s)
     members = _members_of(ds, member)
-    area = cell_area_m2(grid)
-
-    def records():
-        for rec in analysis_fields(ds, level, s, members):
-            rec.cell_area = area
-            yield rec
-
     if q1 is not None or q2 is not None:
-        c1, c2 = calibrate_thresholds(records(), q1, q2)
+        c1, c2 = calibrate_thresholds(analysis_fields(ds, level, s, members), q1, q2)
         k1 = k1 if c1 is None else c1
         k2 = k2 if c2 is None else c2
 
@@ -1322,7 +1326,7 @@ def find_fronts(ds, *, level=850.0, times=None, member=None, settings=None):
     if run is not None:
         run = str(run)
     fronts = []
-    for rec in records():
+    for rec in analysis_fields(ds, level, s, members):
         found = _lines_at_time(rec, grid, k1, k2, rule, s, min_len, run)
         found.sort(key=lambda fr: -fr.length_km)
         fronts.extend(found)

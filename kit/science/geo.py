@@ -54,6 +54,7 @@ __all__ = [
     "local_to_lonlat",
     "PointSampler",
     "grid_extent_text",
+    "vertex_weights_km",
 ]
 
 _POLE_COS = 1e-6  # cos(lat) below this is treated as the pole: east derivative undefined
@@ -790,6 +791,26 @@ def line_length_km(lon, lat):
         return 0.0
     seg = great_circle_km(lon[:-1], lat[:-1], lon[1:], lat[1:])
     return float(np.nansum(seg))
+
+
+def vertex_weights_km(lon, lat):
+    """Length [km] each vertex of a polyline stands for: half of each adjacent segment.
+
+    Weights for length-weighted means along a line; a single vertex weighs 1.
+
+    Examples
+    --------
+    >>> vertex_weights_km([0.0, 1.0, 2.0], [0.0, 0.0, 0.0]).round(1).tolist()
+    [55.6, 111.2, 55.6]
+    """
+    lon, lat = np.asarray(lon, float), np.asarray(lat, float)
+    if lon.size < 2:
+        return np.ones_like(lon)
+    seg = great_circle_km(lon[:-1], lat[:-1], lon[1:], lat[1:])
+    w = np.zeros(lon.size)
+    w[:-1] += seg / 2
+    w[1:] += seg / 2
+    return w
 
 
 def destination(lon, lat, bearing_deg, dist_km, *, wrap=True):

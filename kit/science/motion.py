@@ -49,6 +49,7 @@ from kit.science.geo import (
     gradient,
     great_circle_km,
     local_east_north_km,
+    vertex_weights_km,
 )
 
 __all__ = [
@@ -235,18 +236,6 @@ def _density_from_t(p, ds):
                 f"of the same shape, got {t.shape}; pass a DataArray or a number"
             )
     return p / (RD * t)
-
-
-def _vertex_weights_km(lon, lat):
-    """Length [km] each vertex stands for: half of each adjacent segment."""
-    lon, lat = np.asarray(lon, float), np.asarray(lat, float)
-    if lon.size < 2:
-        return np.ones_like(lon)
-    seg = great_circle_km(lon[:-1], lat[:-1], lon[1:], lat[1:])
-    w = np.zeros(lon.size)
-    w[:-1] += seg / 2
-    w[1:] += seg / 2
-    return w
 
 
 def _weighted_mean(values, weights):
@@ -446,13 +435,13 @@ def track_fronts(
             over = np.zeros((len(olds), len(news)))
             offs = {}
             for a_i, a in enumerate(olds):
-                wa = _vertex_weights_km(a.lon, a.lat)
+                wa = vertex_weights_km(a.lon, a.lat)
                 for b_i, b in enumerate(news):
                     if _bbox_gap_km(a, b) > gap + 300.0:
                         continue
                     s_ab = _normal_offsets_km(a, b, gap)
                     s_ba = _normal_offsets_km(b, a, gap)
-                    wb = _vertex_weights_km(b.lon, b.lat)
+                    wb = vertex_weights_km(b.lon, b.lat)
                     cov = min(np.sum(wa[np.isfinite(s_ab)]), np.sum(wb[np.isfinite(s_ba)]))
                     short = min(np.sum(wa), np.sum(wb))
                     if short > 0 and cov >= min_overlap_frac * short:
@@ -490,7 +479,7 @@ def track_fronts(
                         event_of[id(b)] = ("new", None)
         for f in group:
             vk = _vertex_speeds(f, fwd.get(id(f)), bwd.get(id(f)))
-            w = _vertex_weights_km(f.lon, f.lat)
+            w = vertex_weights_km(f.lon, f.lat)
             event, parent = event_of[id(f)]
             linked[id(f)] = f.replace(
                 track=track_of[id(f)],
@@ -672,7 +661,7 @@ def speeds_three_ways(
         lat = np.asarray(fr.lat, float)
         ne = np.asarray(fr.normal_east, float)
         nn = np.asarray(fr.normal_north, float)
-        w = _vertex_weights_km(lon, lat)
+        w = vertex_weights_km(lon, lat)
         u = sampler.sample(field("u", fr.valid_time, steering_level_hpa, fr.member), lon, lat)
         v = sampler.sample(field("v", fr.valid_time, steering_level_hpa, fr.member), lon, lat)
         wind = _weighted_mean(u * ne + v * nn, w)

@@ -19,7 +19,7 @@ import pandas as pd
 
 from kit.errors import InputError
 from kit.science import geo
-from kit.science.domain import TROPICS_LAT, cell_area_m2
+from kit.science.domain import TROPICS_LAT, grid_lat, grid_lon
 from kit.science.fronts import (
     FrontSettings,
     analysis_fields,
@@ -69,14 +69,6 @@ def lift(share, baseline):
     return float((share - baseline) / (1.0 - baseline))
 
 
-def _weights(fr):
-    seg = geo.great_circle_km(fr.lon[:-1], fr.lat[:-1], fr.lon[1:], fr.lat[1:])
-    w = np.zeros(fr.lon.size)
-    w[:-1] += seg / 2
-    w[1:] += seg / 2
-    return w
-
-
 def _share(flag, w):
     tot = float(np.sum(w))
     return float(np.sum(w * flag) / tot) if tot > 0 else float("nan")
@@ -108,7 +100,8 @@ def plausibility_report(ds, fronts, *, level=None, settings=None, seed=0, n_rand
     """
     s = settings or FrontSettings()
     grid = geo.grid_of(ds)
-    area = cell_area_m2(grid)
+    sampler = geo.PointSampler(ds)
+    lat_all, lon_all = grid_lat(grid), grid_lon(grid)
     x_km = geo.grid_length_km(ds)
     short_km = 3.0 * x_km
     rng = np.random.default_rng(seed)
@@ -128,7 +121,7 @@ def plausibility_report(ds, fronts, *, level=None, settings=None, seed=0, n_rand
             frs = by_key.get((rec.member, lev, t), [])
             flow = rec.flow()
             dom = ~rec.excluded
-            dom_km2 = float(np.sum(area[dom])) / 1e6
+            dom_km2 = float(np.sum(rec.cell_area[dom])) / 1e6
             row = {
                 "member": rec.member,
                 "level_hpa": lev,
@@ -149,7 +142,7 @@ def plausibility_report(ds, fronts, *, level=None, settings=None, seed=0, n_rand
                 continue
             lon = np.concatenate([f.lon for f in frs])
             lat = np.concatenate([f.lat for f in frs])
-            w = np.concatenate([_weights(f) for f in frs])
+            w = np.concatenate([geo.vertex_weights_km(f.lon, f.lat) for f in frs])
             ne = np.concatenate([f.normal_east for f in frs])
             nn = np.concatenate([f.normal_north for f in frs])
             grad = np.concatenate([np.asarray(f.grad, float) for f in frs])
@@ -157,7 +150,6 @@ def plausibility_report(ds, fronts, *, level=None, settings=None, seed=0, n_rand
             row["line_km"] = float(sum(f.length_km for f in frs))
             row["tropical_share"] = _share(np.abs(lat) < TROPICS_LAT, w)
             row["short_share"] = _share(short, w)
-            sampler = geo.PointSampler(ds)
             j, i = sampler.index(lon, lat)
             if rec.below_ground_strict is not None:
                 bg = sampler.sample_index(rec.below_ground_strict.astype(float), j, i, nan="skip")
@@ -170,11 +162,10 @@ def plausibility_report(ds, fronts, *, level=None, settings=None, seed=0, n_rand
                 g = rec.fields["grad"].astype(float)
                 copies = np.maximum(1, np.round(w / max(np.median(w), 1e-9))).astype(int)
                 reps = np.repeat(grad, copies)  # length-weighted gradient sample
-                pick = baseline_points(g, dom, area, reps, rng, n=n_random)
+                pick = baseline_points(g, dom, rec.cell_area, reps, rng, n=n_random)
                 if pick.size:
                     yy, xx = np.unravel_index(pick, tuple(grid.shape))
-                    lat2 = geo_lat(grid)[yy, xx]
-                    lon2 = geo_lon(grid)[yy, xx]
+                    lat2, lon2 = lat_all[yy, xx], lon_all[yy, xx]
                     # normal toward the cold side: down the gradient of tau
                     bne = -rec.fields["ux"][yy, xx].astype(float)
                     bnn = -rec.fields["uy"][yy, xx].astype(float)
@@ -199,18 +190,6 @@ def plausibility_report(ds, fronts, *, level=None, settings=None, seed=0, n_rand
         run=ds.attrs.get("run"),
     )
     return out
-
-
-def geo_lat(grid):
-    """Latitude of every grid point [degrees] (Y, X)."""
-    lat = np.asarray(grid.lat, float)
-    return np.broadcast_to(lat[:, None], tuple(grid.shape)) if lat.ndim == 1 else lat
-
-
-def geo_lon(grid):
-    """Longitude of every grid point [degrees] (Y, X)."""
-    lon = np.asarray(grid.lon, float)
-    return np.broadcast_to(lon[None, :], tuple(grid.shape)) if lon.ndim == 1 else lon
 
 
 def pooled_summary(reports):
