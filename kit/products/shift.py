@@ -354,9 +354,11 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
         masked = (f"{100 * float(masked.max()):.0f} %" if masked.notna().any()
                   else "none (no surface field)")
         summary.append(
-            f"Plausibility of the fronts (all runs): lift over chance of the trough "
-            f"{pooled['trough_lift']:.2f}, of cyclonic vorticity {pooled['vorticity_lift']:.2f}"
-            f" (0 chance, 1 every point); below-ground points masked: {masked}"
+            f"Plausibility of the fronts (all runs): in a trough {pooled['trough_share']:.0%} "
+            f"of the line length (chance {pooled['trough_baseline']:.0%}, lift "
+            f"{pooled['trough_lift']:.2f}), cyclonic vorticity {pooled['vorticity_share']:.0%} "
+            f"(chance {pooled['vorticity_baseline']:.0%}, lift {pooled['vorticity_lift']:.2f}); "
+            f"lift 0 is chance, 1 every point; below-ground points masked: {masked}"
         )
     summary.extend(plausibility_notes(report))
     summary.extend(f"Run {a.run} is thin: {a.dataset.attrs['thin']}" for a in analyses
