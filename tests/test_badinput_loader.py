@@ -44,7 +44,7 @@ def test_missing_path_empty_glob_empty_folder(tmp_path):
     (tmp_path / "empty").mkdir()
     (tmp_path / "empty" / "readme.txt").write_text("x")
     raises_one_line(
-        lambda: expand_run_arg(tmp_path / "empty"), "empty", "no NetCDF file", "readme.txt"
+        lambda: expand_run_arg(tmp_path / "empty"), "empty", "no GRIB or NetCDF file", "readme.txt"
     )
     raises_one_line(lambda: open_run([]), "no files given", "expected")
     raises_one_line(lambda: open_runs([]), "no runs given", "expected")
@@ -61,7 +61,7 @@ def test_empty_and_grib_files(tmp_path):
     (tmp_path / "zero.nc").write_bytes(b"")
     raises_one_line(lambda: open_run(tmp_path / "zero.nc"), "zero.nc", "empty file", "expected")
     (tmp_path / "g.nc").write_bytes(b"GRIB\x00\x00\x10\x02" + b"\x00" * 100)
-    raises_one_line(lambda: open_run(tmp_path / "g.nc"), "g.nc", "GRIB", "expected NetCDF")
+    raises_one_line(lambda: open_run(tmp_path / "g.nc"), "g.nc", "truncated GRIB", "expected")
 
 
 @pytest.mark.parametrize("fmt", ["NETCDF4", "NETCDF3_64BIT"])

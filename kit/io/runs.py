@@ -1,4 +1,4 @@
-"""Open model runs (CF NetCDF) as the canonical Dataset of the kit.
+"""Open model runs (CF NetCDF or GRIB) as the canonical Dataset of the kit.
 
 :func:`open_run` takes one file, a list of files, a glob or a folder holding
 the files of ONE model run (one file per step, one file for the whole run, or
@@ -12,8 +12,11 @@ metres with 2-D ``lat``/``lon``. Arrays stay dask-backed (lazy) unless
 
 This module assembles the run; each step is documented where it is done:
 
-* :mod:`kit.io.discover` -- which files a RUN argument (file, glob, folder) names;
+* :mod:`kit.io.discover` -- which files a RUN argument (file, glob, folder) names,
+  and whether each is GRIB or NetCDF (by content, not name);
 * :mod:`kit.io.netcdf` -- checking and opening one NetCDF file lazily;
+* :mod:`kit.io.grib` -- checking one GRIB file and opening it with cfgrib in
+  the same CF-like form;
 * :mod:`kit.io.cf_time` -- valid time, reference time and lead time;
 * :mod:`kit.io.cf_levels` -- pressure levels [hPa];
 * :mod:`kit.io.cf_roles` -- which variable is temperature, wind, height ...
@@ -81,7 +84,8 @@ from kit.io.cf_units import (
     to_pascal,
     to_specific_humidity,
 )
-from kit.io.discover import expand_run_arg
+from kit.io.discover import check_one_kind, expand_run_arg
+from kit.io.grib import open_grib
 from kit.io.members import canonical_member, select_member
 from kit.io.messages import input_error, join_names
 from kit.io.netcdf import open_netcdf
@@ -690,8 +694,9 @@ def open_run(paths, *, member=None, chunks="auto"):
     Parameters
     ----------
     paths : str, os.PathLike or list of them
-        One NetCDF file, a glob, a folder, or a list of any of these, all of
-        ONE model run (a file per step, one file, or a file per member).
+        One NetCDF or GRIB file, a glob, a folder, or a list of any of these,
+        all of ONE model run (a file per step, one file, or a file per
+        member), all in one format.
     member : int, optional
         Ensemble member to select (the ``member`` dimension is then dropped
         and ``member`` kept as a scalar coordinate). Default: keep all.
@@ -732,10 +737,11 @@ def open_run(paths, *, member=None, chunks="auto"):
             if f not in files:
                 files.append(f)
     where_all = str(args[0]) if len(args) == 1 else f"{args[0]} (+{len(args) - 1})"
+    kinds = check_one_kind(files, where_all)
     parts = []
     dropped = set()
     for i, f in enumerate(files):
-        raw = open_netcdf(f, chunks)
+        raw = open_grib(f, chunks) if kinds[f] == "grib" else open_netcdf(f, chunks)
         ds, info = _canonicalise_file(raw, str(f))
         before = list(ds.data_vars)
         if i == 0:
