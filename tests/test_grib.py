@@ -398,3 +398,21 @@ def test_walk_counts_messages_not_fields():
     msgs = walk_messages(NAM_GRIB)
     assert len(msgs) == 154  # 181 fields: u and v share 27 messages
     assert {e for *_x, e in msgs} == {2}
+
+
+# --------------------------------------------------------------------------- every command
+@pytest.mark.slow
+def test_every_command_accepts_a_grib_run(tmp_path):
+    sites = tmp_path / "sites.csv"
+    sites.write_text("name,lat,lon,elevation_m\nNorrin Flats,45.0,-95.0,350\n"
+                     "Cobble Reach,47.0,-85.0,200\n")
+    run = str(NAM_GRIB)
+    assert main(["fronts", run, "--out", str(tmp_path / "f.geojson")]) == 0
+    assert main(["arrivals", run, "--sites", str(sites), "--out", str(tmp_path / "a.csv")]) == 0
+    assert main(["section", run, "--sites", str(sites), "--site", "Cobble Reach",
+                 "--time", "2018-09-17T00:00Z", "--out", str(tmp_path / "s.png")]) == 0
+    assert main(["shift", run, "--sites", str(sites), "--out", str(tmp_path / "shift")]) == 0
+    assert (tmp_path / "s.png").stat().st_size > 10_000
+    assert "Cobble Reach" in (tmp_path / "a.csv").read_text()
+    manifest = next((tmp_path / "shift").glob("shift_*/manifest.json")).read_text()
+    assert "nam.t00z.awp21100.tm00.grib2" in manifest

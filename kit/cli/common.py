@@ -9,15 +9,18 @@ __all__ = ["add_runs_argument", "add_output_arguments", "load_runs", "output_pat
 
 
 def add_runs_argument(parser, single=False):
-    """Add the positional RUN argument(s): a NetCDF file, a glob or a folder of one run."""
+    """Add the positional RUN argument(s): a GRIB or NetCDF file, a glob or a folder of one run."""
     if single:
-        parser.add_argument("run", metavar="RUN", help="NetCDF file, glob or folder of one model run")
+        parser.add_argument(
+            "run", metavar="RUN", help="GRIB or NetCDF file, glob or folder of one model run"
+        )
     else:
         parser.add_argument(
             "runs",
             metavar="RUN",
             nargs="+",
-            help="NetCDF file, glob or folder of one model run; several = runs/members of one event",
+            help="GRIB or NetCDF file, glob or folder of one model run; several = runs/members "
+            "of one event",
         )
 
 

@@ -1,6 +1,6 @@
 """``frontshift fronts RUN... [--level 850] --out FILE.geojson``: objective fronts as GeoJSON.
 
-Every RUN (a NetCDF file, glob or folder of one model run; several are runs or
+Every RUN (a GRIB or NetCDF file, glob or folder of one model run; several are runs or
 members of one event) is opened with :func:`kit.io.runs.open_run`; its fronts
 are found at every valid time (:func:`kit.pipeline.analyse`: location,
 type, tracks over lead time, speeds three ways, slopes) and written as one
@@ -46,7 +46,8 @@ def add_parser(subparsers):
         "runs",
         metavar="RUN",
         nargs="+",
-        help="NetCDF file, glob or folder of one model run; several = runs/members of one event",
+        help="GRIB or NetCDF file, glob or folder of one model run; several = runs/members "
+        "of one event",
     )
     p.add_argument(
         "--level",

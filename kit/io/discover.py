@@ -151,6 +151,10 @@ def expand_run_arg(arg):
     if glob.has_magic(text):
         files = sorted(Path(p) for p in glob.glob(text) if Path(p).is_file())
         if not files:
-            raise input_error(text, "glob matches no file; expected GRIB or NetCDF files of one model run")
+            raise input_error(
+                text, "glob matches no file; expected GRIB or NetCDF files of one model run"
+            )
         return files
-    raise input_error(text, "no such file or folder; expected a GRIB or NetCDF file, a glob or a folder")
+    raise input_error(
+        text, "no such file or folder; expected a GRIB or NetCDF file, a glob or a folder"
+    )

@@ -86,7 +86,11 @@ _PRESSURE_LEVEL_TYPES = {"isobaricInhPa": 1.0, "isobaricInPa": 0.01}
 #: near-surface quantities: (ecCodes short name, type of level or None for any,
 #: level or None, name given in the Dataset); the first of a group present wins
 _SURFACE_FIELDS = (
-    (("prmsl", "meanSea", None, "prmsl"), ("msl", None, None, "msl"), ("mslet", "meanSea", None, "mslet")),
+    (
+        ("prmsl", "meanSea", None, "prmsl"),
+        ("msl", None, None, "msl"),
+        ("mslet", "meanSea", None, "mslet"),
+    ),
     (("sp", "surface", None, "sp"),),
     (("orog", "surface", None, "orog"), ("z", "surface", None, "zsfc")),
     (("2t", None, None, "t2m"),),
@@ -109,6 +113,10 @@ _SURFACE_STANDARD_NAMES = {
     "prate": "precipitation_flux",
 }
 
+#: files smaller than this [bytes] are decoded whole when opened (as NetCDF
+#: files of this size are one chunk per variable); larger ones stay lazy
+_SMALL_FILE_BYTES = 64 * 2**20
+
 #: GRIB sections 0 and the edition-1 flag byte
 _GRIB = b"GRIB"
 _END = b"7777"
@@ -117,7 +125,7 @@ _LEAD_IN_BYTES = 4096
 
 
 def is_grib_head(head):
-    """Whether the first bytes of a file are (or soon begin) a GRIB message.
+    r"""Whether the first bytes of a file are (or soon begin) a GRIB message.
 
     Parameters
     ----------
@@ -241,7 +249,7 @@ def _check_grib1_grid(path, fh, pos, number, size):
 
 # --------------------------------------------------------------------------- cfgrib
 def _cfgrib():
-    """cfgrib's dataset builder and xarray store (imported on first GRIB file)."""
+    """Import cfgrib's dataset builder and xarray store (on the first GRIB file)."""
     try:
         import cfgrib.dataset as cfd
         import cfgrib.messages as cfm
@@ -252,6 +260,11 @@ def _cfgrib():
             "packages of pyproject.toml installed"
         ) from None
     return cfd, cfm, CfGribDataStore, ECCODES_LOCK
+
+
+#: the types of level the kit reads fields on (ECMWF GRIB1 puts 2 m and 10 m
+#: fields on "surface"; others on "heightAboveGround")
+_CANDIDATE_LEVELS = frozenset(_PRESSURE_LEVEL_TYPES) | {"surface", "meanSea", "heightAboveGround"}
 
 
 def _wanted(short, level_type):
@@ -272,14 +285,21 @@ def _index(path):
     of the file (for messages naming what a file holds instead).
     """
     cfd, cfm, _store, _lock = _cfgrib()
-    keys = sorted(set(cfd.compute_index_keys()) | {"shortName", "startStep", "resolutionAndComponentFlags"})
+    extra = {"shortName", "startStep", "resolutionAndComponentFlags"}
+    keys = sorted(set(cfd.compute_index_keys()) | extra)
     seen = set()
 
     def items(stream):
         for fid, msg in stream.items():
-            key = (msg["shortName"], msg["typeOfLevel"])
-            seen.add(key)
-            if _wanted(*key):
+            # the type of level is cheap to read, the short name is not (an ecCodes
+            # concept): fields on other levels are passed over by level type alone
+            level_type = msg["typeOfLevel"]
+            if level_type not in _CANDIDATE_LEVELS:
+                seen.add(("", level_type))
+                continue
+            short = msg["shortName"]
+            seen.add((short, level_type))
+            if _wanted(short, level_type):
                 yield fid, msg
 
     with warnings.catch_warnings():
@@ -298,7 +318,7 @@ def _index(path):
 
 
 def _to_xarray(path, sub, what):
-    """An xarray Dataset (lazy) of one cfgrib sub-index."""
+    """Build the xarray Dataset (lazy) of one cfgrib sub-index."""
     cfd, _cfm, store_cls, lock = _cfgrib()
     try:
         with warnings.catch_warnings():
@@ -323,7 +343,7 @@ def _to_xarray(path, sub, what):
 
 
 def _open_field(path, sub, what):
-    """The one field of a sub-index as a DataArray, with its wind-relative flag.
+    """Open the one field of a sub-index as a DataArray, with its wind-relative flag.
 
     cfgrib copies ``uvRelativeToGrid`` into the attributes for some grid types
     only; it is set here from the index for every field, so
@@ -362,7 +382,7 @@ def _grid_relative_flag(row):
 def _header_rows(index):
     """Each distinct header of the index as a dict of its keys."""
     keys = index.index_keys
-    return [dict(zip(keys, hv)) for hv, _ids in index.field_ids_index]
+    return [dict(zip(keys, hv, strict=True)) for hv, _ids in index.field_ids_index]
 
 
 def _refuse_grids(path, rows):
@@ -383,7 +403,7 @@ def _refuse_grids(path, rows):
 
 
 def _one_grid(path, rows):
-    """The one grid (``md5GridSection``) of the pressure-level fields."""
+    """Return the one grid (``md5GridSection``) of the pressure-level fields."""
     grids = {r.get("md5GridSection") for r in rows}
     if len(grids) > 1:
         raise input_error(
@@ -423,7 +443,7 @@ def _level_fields(path, index, rows):
 
 
 def _check_wind_pairs(path, fields):
-    """u and v on the same levels, or neither (a multi-field message read in part)."""
+    """Check u and v are on the same levels, or both absent (a multi-field message read in part)."""
     if ("u" in fields) != ("v" in fields):
         have, lack = ("u", "v") if "u" in fields else ("v", "u")
         raise input_error(
@@ -444,7 +464,7 @@ def _check_wind_pairs(path, fields):
 
 
 def _surface_fields(path, index, rows, grid):
-    """The near-surface fields the kit uses on the run's grid, the first present of each group."""
+    """Open the near-surface fields the kit uses on the run's grid (first present of a group)."""
     out = {}
     for group in _SURFACE_FIELDS:
         for short, tol, level, name in group:
@@ -668,12 +688,13 @@ def open_grib(path, chunks):
     index, seen = _index(path)
     rows = _header_rows(index)
     _refuse_grids(path, rows)
-    levels = {tol for _short, tol in seen}
-    if not levels & set(_PRESSURE_LEVEL_TYPES):
+    levels = sorted({tol for _short, tol in seen if tol})
+    if not set(levels) & set(_PRESSURE_LEVEL_TYPES):
+        found = f"levels found: {join_names(levels, 6)}"
         raise input_error(
             path,
-            f"GRIB has no pressure-level fields (levels found: {join_names(sorted(levels), 6)}); "
-            "expected t and geopotential (height) on isobaric levels",
+            f"GRIB has no pressure-level fields ({found}); expected t and geopotential "
+            "(height) on isobaric levels",
         )
     used = [r for r in rows if r["typeOfLevel"] in _PRESSURE_LEVEL_TYPES]
     grid = _one_grid(path, used) if used else None
@@ -698,7 +719,13 @@ def open_grib(path, chunks):
     ds.attrs = {"source_format": f"GRIB edition {join_names(sorted({e for *_x, e in messages}))}"}
     if chunks is None:
         return ds.load()
-    return ds.chunk(chunks if isinstance(chunks, dict) else {})
+    if isinstance(chunks, dict):
+        return ds.chunk(chunks)
+    if path.stat().st_size < _SMALL_FILE_BYTES:
+        # decoding is the cost of GRIB: decode a small file once, not again for
+        # the value checks and again for the products
+        ds = ds.load()
+    return ds.chunk({})
 
 
 def _join(path, fields, sfc):
@@ -721,7 +748,8 @@ def _join(path, fields, sfc):
         for dim in ("time", "step", "number"):
             if dim in ds.dims and dim not in da.dims and dim in da.coords:
                 da = da.expand_dims(dim)
-        da = da.reindex({d: ds[d] for d in ("time", "step", "number") if d in da.dims and d in ds.dims})
+        shared = [d for d in ("time", "step", "number") if d in da.dims and d in ds.dims]
+        da = da.reindex({d: ds[d] for d in shared})
         if name == "tp" and "step" in da.dims:
             at_start = (da["step"] == np.timedelta64(0, "ns")).values
             if at_start.any():

@@ -56,7 +56,8 @@ run's. ``attrs["run"]`` is a label like ``2027-01-14T00Z``.
 
 Attributes of the result
 ------------------------
-``run`` (label), ``source`` (file names), ``grid`` (``latlon`` or
+``run`` (label), ``source`` (file names), ``source_format`` (``NetCDF`` or
+``GRIB edition 2`` ...), ``grid`` (``latlon`` or
 ``projected``), ``dx_m``/``dy_m`` [m] on projected grids, ``wind_rotation``
 (what was done to the winds), ``variables_from`` (``t<-TMP, ...``: which file
 variable filled each role) and ``kind == "analyses"`` for a folder of
@@ -199,7 +200,7 @@ def _canonicalise_file(raw, where):
     res.attrs = {
         k: v
         for k, v in ds.attrs.items()
-        if k in ("grid", "dx_m", "dy_m", "grid_mapping_name", "native_grid_unit")
+        if k in ("grid", "dx_m", "dy_m", "grid_mapping_name", "native_grid_unit", "source_format")
     }
     return res, info
 
@@ -645,6 +646,7 @@ def _assemble_run(parts, where_all, member):
         if len(sources) <= 6
         else f"{sources[0]} .. {sources[-1]} ({len(sources)} files)",
         wind_rotation=first_info["rotation"],
+        source_format=parts[0][0].attrs.get("source_format", "NetCDF"),
         variables_from=", ".join(f"{k}<-{v}" for k, v in first_info["roles"].items()),
     )
     if analyses:
