@@ -277,3 +277,16 @@ def test_fronts_command_says_why_a_product_is_empty_or_thin(tmp_path, capsys):
     note = gj["properties"]["note"]
     assert "no data on 850 hPa" in note and "2030-01-14T12:00Z" in note
     assert "no front found at" not in note  # the empty step is named once, as missing data
+
+
+def test_help_defaults_are_the_code_defaults(capsys):
+    # issue 16: the help once gave a smoothing default that was not the code's
+    from kit.science.fronts import FrontSettings
+
+    with pytest.raises(SystemExit):
+        main(["fronts", "--help"])
+    text = " ".join(capsys.readouterr().out.split())
+    s = FrontSettings()
+    assert f"smoothing scale [km] (default {s.smoothing_km:g}," in text
+    assert f"shorter than this [km] (default {s.min_length_km:g}," in text
+    assert f"under {s.min_length_grid_lengths:g} grid lengths" in text

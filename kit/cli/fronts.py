@@ -74,14 +74,16 @@ def add_parser(subparsers):
         type=float,
         default=None,
         metavar="KM",
-        help="Gaussian smoothing scale [km] (default 100, never under one grid length)",
+        help=f"Gaussian smoothing scale [km] (default {FrontSettings().smoothing_km:g}, "
+        "never under one grid length)",
     )
     p.add_argument(
         "--min-length-km",
         type=float,
         default=None,
         metavar="KM",
-        help="drop lines shorter than this [km] (default 300)",
+        help=f"drop lines shorter than this [km] (default {FrontSettings().min_length_km:g}, "
+        f"never under {FrontSettings().min_length_grid_lengths:g} grid lengths)",
     )
     p.add_argument("--out", required=True, metavar="FILE.geojson", help="output GeoJSON file")
     p.add_argument(
