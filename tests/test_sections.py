@@ -456,8 +456,9 @@ def test_missing_time_and_bad_points(smooth_run):
         S.section_between(smooth_run, (95.0, 0.0), (55.0, 0.0), time=TIMES[0])
     with pytest.raises(InputError, match="outside the grid"):
         S.section_between(smooth_run, (-40.0, 100.0), (-30.0, 120.0), time=TIMES[0])
+    # (a run without td is a thin run and gets a section in theta: tests/test_thin_products.py)
     with pytest.raises(InputError, match="variable"):
-        S.section_between(smooth_run.drop_vars("td"), (35.0, 0.0), (55.0, 0.0), time=TIMES[0])
+        S.section_between(smooth_run.drop_vars("u"), (35.0, 0.0), (55.0, 0.0), time=TIMES[0])
 
 
 def test_members_must_be_chosen(smooth_run):

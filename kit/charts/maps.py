@@ -691,7 +691,8 @@ def front_map(ds, fronts, *, time, level=850.0, field="theta_w", sites=None, mem
                                                      else "")
     extra += f": {summary}" if summary else ": no fronts found"
     style.stamp(fig, run=ds.attrs.get("run", "unnamed run"), valid_time=valid,
-                lead_h=style.lead_hours(ds, valid), source=ds, extra=extra)
+                lead_h=style.lead_hours(ds, valid), source=ds, extra=extra,
+                thin=ds.attrs.get("thin"))
     fig._frontshift.update(kind="front_map", fronts=len(drawn), level=level, field=field)
     return fig
 
@@ -770,9 +771,9 @@ def fronts_through_time(ds, fronts, *, times=None, level=850.0, field="theta_w",
         spare = axes[len(chosen)]
         spare.set_visible(True)
         spare.axis("off")
-        front_legend(spare, isobars=True, loc="center", isobar_text="MSLP every 8 hPa")
+        front_legend(spare, isobars="mslp" in ds, loc="center", isobar_text="MSLP every 8 hPa")
     else:  # no spare slot: the key of symbols goes into the band under the maps, right
-        leg = front_legend(axes[-1], isobars=True, isobar_text="MSLP every 8 hPa")
+        leg = front_legend(axes[-1], isobars="mslp" in ds, isobar_text="MSLP every 8 hPa")
         handles, labels = leg.legend_handles, [t.get_text() for t in leg.get_texts()]
         leg.remove()
         width, height = fig.get_size_inches()
@@ -782,7 +783,8 @@ def fronts_through_time(ds, fronts, *, times=None, level=850.0, field="theta_w",
     style.stamp(fig, run=ds.attrs.get("run", "unnamed run"), valid_time=(chosen[0], chosen[-1]),
                 lead_h=(style.lead_hours(ds, chosen[0]), style.lead_hours(ds, chosen[-1])),
                 source=ds, extra=f"Fronts at {level:g} hPa through the run"
-                + (f" (member {member})" if member is not None else ""))
+                + (f" (member {member})" if member is not None else ""),
+                thin=ds.attrs.get("thin"))
     fig._frontshift.update(kind="fronts_through_time", panels=len(chosen), level=level)
     return fig
 
@@ -859,7 +861,7 @@ def fronts_overview(ds, fronts, *, level=850.0, sites=None, member=None, width_i
                 lead_h=(style.lead_hours(ds, t0), style.lead_hours(ds, t1)), source=ds,
                 extra=f"Front lines at {level:g} hPa through the run, coloured by lead time"
                 + (f" (member {member})" if member is not None else "")
-                + ("; #n = track" if last else ""))
+                + ("; #n = track" if last else ""), thin=ds.attrs.get("thin"))
     fig._frontshift.update(kind="fronts_overview", fronts=len(chosen), level=level)
     return fig
 
@@ -914,7 +916,8 @@ class MapSeries:
         add_graticule(self.ax)
         if len(self.sites):
             draw_sites(self.ax, self.sites)
-        front_legend(self.ax, sites=len(self.sites) > 0)
+        # no isobars in the key of a run without mean-sea-level pressure (a thin run)
+        front_legend(self.ax, isobars="mslp" in ds, sites=len(self.sites) > 0)
         norm = mcolors.BoundaryNorm(self.levels, style.THETAW_CMAP.N, extend="both")
         colour_key(self.fig, ScalarMappable(norm=norm, cmap=style.THETAW_CMAP),
                    f"{FIELDS[field][0]} at {self.level:g} hPa [\u00b0C]")
@@ -976,7 +979,8 @@ class MapSeries:
                  + (f" (member {self.member})" if self.member is not None else "")
                  + f": {summary}")
         style.stamp(self.fig, run=run or ds.attrs.get("run", "unnamed run"), valid_time=valid,
-                    lead_h=style.lead_hours(ds, valid), source=ds, extra=extra)
+                    lead_h=style.lead_hours(ds, valid), source=ds, extra=extra,
+                    thin=ds.attrs.get("thin"))
         self.fig._frontshift.update(fronts=len(drawn), valid_time=valid)
         self.drawn = drawn
         return self._composite()

@@ -11,6 +11,12 @@ carries a ``gid`` (``rh``, ``theta-w``, ``isotachs``, ``jet-core``,
 ``isotherm-0c``, ``wet-bulb-0c``, ``pv2``, ``frontal-surface``,
 ``surface-front``, ``site``, ``rule-zone``, ``precip``) so products can be
 checked by content. The section itself comes from :mod:`kit.science.sections`.
+
+A section of a thin run without humidity has no relative humidity to shade and
+no wet-bulb 0 C line: the figure says so where the humidity key would be,
+contours theta (``gid`` ``theta``, every :data:`THETA_INTERVAL_K`, labelled in
+K) instead of theta-w, names geostrophic winds as such, and carries the run's
+thin line in its header.
 """
 
 from kit.charts import require_graphics
@@ -34,14 +40,19 @@ from kit.charts.style import (  # noqa: E402
 )
 from kit.constants import FT_PER_M, KT_PER_MS, NM_KM, T0_K  # noqa: E402
 from kit.errors import InputError  # noqa: E402
-from kit.science.sections import RULE_ZONES_NM  # noqa: E402
+from kit.science.sections import RULE_ZONES_NM, thermal_field  # noqa: E402
 
-__all__ = ["section_figure", "draw_section", "RH_LEVELS", "RH_CMAP", "SECTION_COLOURS"]
+__all__ = ["section_figure", "draw_section", "RH_LEVELS", "RH_CMAP", "SECTION_COLOURS",
+           "THETA_INTERVAL_K"]
 
 #: relative humidity shading bounds [%]; below 70 % is left white
 RH_LEVELS = [70.0, 80.0, 90.0, 95.0, 101.0]
 #: calm sage-to-slate palette of our own for relative humidity (cloud proxy)
 RH_CMAP = mcolors.ListedColormap(["#e6eee0", "#c7dcc0", "#9fc4b0", "#6f9fa0"], name="fs_rh")
+
+#: contour interval of theta on a section without humidity [K]: theta spans about
+#: twice the range of theta-w over the troposphere, so twice its 2 K (our choice)
+THETA_INTERVAL_K = 4.0
 
 #: line colours of the section figure (our own)
 SECTION_COLOURS = {
@@ -100,7 +111,8 @@ def draw_section(ax, strip, sec):
     dict
         The main artists by name (the same names as their ``gid``).
     """
-    _need(sec, "rh", "theta_w", "wind_speed", "t", "tw", "pv_hemispheric", "z")
+    field = thermal_field(sec)
+    _need(sec, field, "wind_speed", "t", "pv_hemispheric", "z")
     dist = sec["distance"].values.astype(float)
     lev = sec["level"].values.astype(float)
     X, P = np.meshgrid(dist, lev)
@@ -108,19 +120,23 @@ def draw_section(ax, strip, sec):
     kind = str(sec.attrs.get("front_kind", "") or "")
     fcol = _FRONT.get(kind, SECTION_COLOURS["front_none"])
 
-    rh = 100.0 * sec["rh"].transpose("level", "distance").values
-    art["rh"] = ax.contourf(X, P, np.clip(rh, 0, 100.5), levels=RH_LEVELS, cmap=RH_CMAP,
-                            extend="neither", zorder=1)
-    art["rh"].set_gid("rh")
+    if "rh" in sec:  # a run without humidity has none to shade
+        rh = 100.0 * sec["rh"].transpose("level", "distance").values
+        art["rh"] = ax.contourf(X, P, np.clip(rh, 0, 100.5), levels=RH_LEVELS, cmap=RH_CMAP,
+                                extend="neither", zorder=1)
+        art["rh"].set_gid("rh")
 
-    tw = sec["theta_w"].transpose("level", "distance").values
+    tw = sec[field].transpose("level", "distance").values
     fin = tw[np.isfinite(tw)]
-    tw_levels = np.arange(np.floor(fin.min() / 2) * 2, np.ceil(fin.max() / 2) * 2 + 1, 2.0)
-    art["theta-w"] = ax.contour(X, P, tw, levels=tw_levels, colors=SECTION_COLOURS["theta_w"],
-                                linewidths=0.7, zorder=3)
-    art["theta-w"].set_gid("theta-w")
-    ax.clabel(art["theta-w"], fmt=lambda v: f"{v - T0_K:.0f}", fontsize=FONT["small"] - 0.5,
-              inline_spacing=2)
+    step = 2.0 if field == "theta_w" else THETA_INTERVAL_K
+    tw_levels = np.arange(np.floor(fin.min() / step) * step, np.ceil(fin.max() / step) * step
+                          + step / 2, step)
+    gid = "theta-w" if field == "theta_w" else "theta"
+    art[gid] = ax.contour(X, P, tw, levels=tw_levels, colors=SECTION_COLOURS["theta_w"],
+                          linewidths=0.7, zorder=3)
+    art[gid].set_gid(gid)
+    ax.clabel(art[gid], fmt=(lambda v: f"{v - T0_K:.0f}") if field == "theta_w" else
+              (lambda v: f"{v:.0f}"), fontsize=FONT["small"] - 0.5, inline_spacing=2)
 
     ws = sec["wind_speed"].transpose("level", "distance").values * KT_PER_MS
     iso = [v for v in (40, 60, 80, 100, 120, 140, 160, 180) if np.nanmax(ws) >= v]
@@ -129,6 +145,7 @@ def draw_section(ax, strip, sec):
                                      linewidths=0.8, linestyles=[(0, (4, 2))], zorder=4)
         art["isotachs"].set_gid("isotachs")
         ax.clabel(art["isotachs"], fmt="%d kt", fontsize=FONT["small"] - 0.5, inline_spacing=2)
+    geo = sec.attrs.get("wind") == "geostrophic"
     if "jet_core_km" in sec.attrs:
         jk, jp = sec.attrs["jet_core_km"], sec.attrs["jet_core_hpa"]
         spd = sec.attrs["jet_core_speed_ms"] * KT_PER_MS
@@ -138,7 +155,8 @@ def draw_section(ax, strip, sec):
                                      gid="jet-core", label="jet core" if is_jet else "wind max")
         ax.text(jk, jp, "J" if is_jet else "x", ha="center", va="center", zorder=9,
                 fontsize=FONT["small"], fontweight="bold", color=SECTION_COLOURS["jet"])
-        ax.annotate(f"{spd:.0f} kt", (jk, jp), xytext=(9, -14), textcoords="offset points",
+        ax.annotate(f"{spd:.0f} kt" + (" geostrophic" if geo else ""), (jk, jp), xytext=(9, -14),
+                    textcoords="offset points",
                     fontsize=FONT["small"], color=SECTION_COLOURS["jet"], zorder=9,
                     bbox=dict(boxstyle="round,pad=0.15", fc="white", ec="none", alpha=0.8))
 
@@ -147,8 +165,8 @@ def draw_section(ax, strip, sec):
         art["isotherm-0c"] = ax.contour(X, P, t, levels=[T0_K], colors=SECTION_COLOURS["zero"],
                                         linewidths=2.0, zorder=5)
         art["isotherm-0c"].set_gid("isotherm-0c")
-    twb = sec["tw"].transpose("level", "distance").values
-    if np.nanmin(twb) < T0_K < np.nanmax(twb):
+    twb = sec["tw"].transpose("level", "distance").values if "tw" in sec else np.full(1, np.nan)
+    if np.isfinite(twb).any() and np.nanmin(twb) < T0_K < np.nanmax(twb):
         art["wet-bulb-0c"] = ax.contour(X, P, twb, levels=[T0_K],
                                         colors=SECTION_COLOURS["zero"], linewidths=1.4,
                                         linestyles=[(0, (1.5, 1.5))], zorder=5)
@@ -326,11 +344,13 @@ def _pv_words(sec):
 
 
 def _legend_handles(art, sec):
-    h = [Line2D([], [], color=SECTION_COLOURS["theta_w"], lw=0.8,
-                label="theta-w [°C], every 2 K")]
+    thermal = ("theta-w [°C], every 2 K" if "theta-w" in art else
+               f"theta [K], every {THETA_INTERVAL_K:g} K (no humidity: not theta-w)")
+    h = [Line2D([], [], color=SECTION_COLOURS["theta_w"], lw=0.8, label=thermal)]
     if "isotachs" in art:
+        geo = sec.attrs.get("wind") == "geostrophic"
         h.append(Line2D([], [], color=SECTION_COLOURS["isotach"], lw=0.9, ls=(0, (4, 2)),
-                        label="isotachs [kt]"))
+                        label="geostrophic isotachs [kt]" if geo else "isotachs [kt]"))
     if "isotherm-0c" in art:
         h.append(Line2D([], [], color=SECTION_COLOURS["zero"], lw=2.0, label="0 °C isotherm"))
     if "wet-bulb-0c" in art:
@@ -367,7 +387,7 @@ def section_figure(sec, *, figsize=(11.0, 7.6)):
         Stamped with run, valid time, lead time, source and :data:`kit.CAUTION`;
         save it with :func:`kit.products.files.save_figure`.
     """
-    _need(sec, "rh", "theta_w")
+    _need(sec, thermal_field(sec))
     fig, ax = new_figure(figsize=figsize, left_in=0.75, right_in=1.95, bottom_in=0.95,
                          top_in=0.45)
     with briefing_rc():
@@ -380,10 +400,17 @@ def section_figure(sec, *, figsize=(11.0, 7.6)):
         cpos = ax.get_position()
         cax = fig.add_axes([cpos.x1 + 1.05 / figsize[0], cpos.y0 + 0.1 * cpos.height,
                             0.13 / figsize[0], 0.8 * cpos.height])
-        cb = fig.colorbar(art["rh"], cax=cax, ticks=RH_LEVELS[:-1] + [100.0])
-        cb.set_label("Relative humidity [%] (cloud proxy)", fontsize=FONT["small"])
-        cb.ax.tick_params(labelsize=FONT["tick"] - 0.5)
-        cb.ax.set_gid("rh-colourbar")
+        if "rh" in art:
+            cb = fig.colorbar(art["rh"], cax=cax, ticks=RH_LEVELS[:-1] + [100.0])
+            cb.set_label("Relative humidity [%] (cloud proxy)", fontsize=FONT["small"])
+            cb.ax.tick_params(labelsize=FONT["tick"] - 0.5)
+            cb.ax.set_gid("rh-colourbar")
+        else:  # say why there is no shading, where its key would be
+            cax.axis("off")
+            cax.text(0.5, 0.5, "No humidity on the levels:\nno relative humidity\n(cloud proxy) "
+                     "shading,\nno wet-bulb 0 °C", transform=cax.transAxes, rotation=90,
+                     ha="center", va="center", fontsize=FONT["small"],
+                     color=BRIEFING_COLOURS["muted"], gid="no-humidity")
         fig.legend(handles=_legend_handles(art, sec), loc="lower center", ncol=4,
                    bbox_to_anchor=(0.5, 0.45 / figsize[1]), fontsize=FONT["small"],
                    frameon=False, columnspacing=1.4, handlelength=2.6)
@@ -402,6 +429,7 @@ def section_figure(sec, *, figsize=(11.0, 7.6)):
     if a.get("note"):
         what += f"; {a['note']}"
     stamp(fig, run=a.get("run") or "unnamed run", valid_time=a["valid_time"],
-          lead_h=a.get("lead_h"), source=a.get("source") or "unnamed model run", extra=what)
+          lead_h=a.get("lead_h"), source=a.get("source") or "unnamed model run", extra=what,
+          thin=a.get("thin"))
     fig._frontshift["artists_section"] = art
     return fig

@@ -19,6 +19,7 @@ Examples
 True
 """
 
+import re
 from pathlib import Path
 
 from kit.charts import require_graphics
@@ -48,6 +49,7 @@ __all__ = [
     "new_figure",
     "stamp",
     "stamp_texts",
+    "thin_line",
     "format_utc",
     "format_lead",
     "lead_hours",
@@ -343,11 +345,59 @@ def _valid_text(valid_time):
     return f"Valid {format_utc(valid_time)}"
 
 
-def stamp(fig, *, run, valid_time, lead_h, source, extra=None):
+def thin_line(thin):
+    """Short header line for a thin run, from the loader's ``ds.attrs["thin"]`` text.
+
+    The loader writes one "; "-joined item per thing the run lacks, each as
+    ``what is missing: what was done instead``. The line keeps every item and
+    drops only the words "on pressure levels" and remarks in brackets, so it
+    fits one line of a figure.
+
+    Parameters
+    ----------
+    thin : str or None
+        ``ds.attrs["thin"]`` (empty or None for a full run).
+
+    Returns
+    -------
+    str
+        ``"Thin run: ..."``; empty for a full run.
+
+    Examples
+    --------
+    >>> thin_line("no humidity on pressure levels: fronts found in theta, not theta-w")
+    'Thin run: no humidity: fronts found in theta, not theta-w'
+    """
+    text = str(thin or "").strip()
+    if not text:
+        return ""
+    items = []
+    for item in text.split("; "):
+        item = re.sub(r"\s*\([^)]*\)", "", item).replace(" on pressure levels", "")
+        items.append(" ".join(item.split()))
+    return "Thin run: " + "; ".join(i for i in items if i)
+
+
+def _fit_width(fig, text, share, smallest=5.0):
+    """Shrink ``text`` (down to ``smallest`` pt) until it spans at most ``share`` of ``fig``."""
+    get_renderer = getattr(fig.canvas, "get_renderer", None)
+    if get_renderer is None:  # a canvas that cannot measure text: keep the size
+        return
+    renderer = get_renderer()
+    room = share * fig.bbox.width
+    width = text.get_window_extent(renderer).width
+    if width > room:
+        text.set_fontsize(max(smallest, text.get_fontsize() * room / width))
+
+
+def stamp(fig, *, run, valid_time, lead_h, source, extra=None, thin=None):
     """Put the header (run, valid time, lead time) and footer (source, caution) on ``fig``.
 
     Calling it again replaces the earlier stamp. The caution line is always
-    written; a figure is a product only once stamped.
+    written; a figure is a product only once stamped. A thin run (``thin``,
+    the loader's ``ds.attrs["thin"]``) gets one more line at the top of the
+    header saying what the run lacks and what was done instead
+    (:func:`thin_line`).
 
     Parameters
     ----------
@@ -362,11 +412,14 @@ def stamp(fig, *, run, valid_time, lead_h, source, extra=None):
         Data source (a Dataset's ``source`` attribute is shortened).
     extra : str, optional
         Product name shown as the second header line (e.g. ``Fronts at 850 hPa``).
+    thin : str, optional
+        ``ds.attrs["thin"]`` of the run drawn; empty or None for a full run.
 
     Returns
     -------
     dict
-        The text artists: ``title``, ``subtitle`` (may be None), ``source``, ``caution``.
+        The text artists: ``title``, ``subtitle`` (may be None), ``source``, ``caution``
+        and, on a thin run, ``thin``.
     """
     if not run:
         raise InputError("stamp: run label is empty; expected the run label, e.g. 2031-02-03T00Z")
@@ -401,6 +454,14 @@ def stamp(fig, *, run, valid_time, lead_h, source, extra=None):
                 fontsize=FONT["subtitle"], color=BRIEFING_COLOURS["muted"],
                 gid="frontshift-subtitle",
             )
+        thin_artist = None
+        if thin_line(thin):
+            thin_artist = fig.text(
+                0.012, 1 - 0.10 / height, thin_line(thin), ha="left", va="center",
+                fontsize=FONT["footer"], color=BRIEFING_COLOURS["caution"], fontweight="bold",
+                gid="frontshift-thin",
+            )
+            _fit_width(fig, thin_artist, 0.976)
         source_artist = fig.text(
             0.012, 0.27 / height, f"Source: {src}", ha="left", va="center",
             fontsize=FONT["footer"], color=BRIEFING_COLOURS["muted"], gid="frontshift-source",
@@ -416,9 +477,12 @@ def stamp(fig, *, run, valid_time, lead_h, source, extra=None):
         )
     artists = {"title": title, "subtitle": subtitle, "source": source_artist,
                "caution": caution, "brand": brand, "header": header}
+    if thin_artist is not None:
+        artists["thin"] = thin_artist
     state.update(stamped=True, artists=artists, run=run, valid_time=valid_time,
                  lead_h=lead_h, source=src)
-    return {k: artists[k] for k in ("title", "subtitle", "source", "caution")}
+    keys = ("title", "subtitle", "source", "caution") + (("thin",) if thin_artist else ())
+    return {k: artists[k] for k in keys}
 
 
 def stamp_texts(fig):

@@ -10,6 +10,11 @@ colour (solid for the run drawn, dashed for other runs or members), labelled
 with the kind and time; where several runs or members disagree the band from
 the earliest to the latest passage is shaded.
 
+A thin run says so in the header (what it lacks, what was done instead); its
+geostrophic stand-in for the 10-m wind is labelled as such, and without
+humidity on its levels the wet-bulb 0 C level and the cloud base are left out
+with a note rather than drawn from nothing.
+
 Examples
 --------
 >>> import kit.charts.timelines as tl  # doctest: +SKIP
@@ -208,12 +213,19 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             absent(ax_w, "wind")
         ax_w.set_ylim(0, 1.15)
         ax_w.set_yticks([])
-        ax_w.set_ylabel("wind 10 m\n[deg/kt]")
-        # heights above the site [ft]
+        wind_from = series.attrs.get("wind_from", "")
+        ax_w.set_ylabel("wind 10 m\n[deg/kt]" if not wind_from else "geostrophic\n[deg/kt]")
+        if wind_from and "wind_u_ms" in series:
+            ax_w.text(0.005, 0.98, f"{wind_from} (the run has no wind), not 10-m wind",
+                      transform=ax_w.transAxes, ha="left", va="top", fontsize=FONT["small"],
+                      color=INK, gid="wind-source",
+                      bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.85})
+        # heights above the site [ft]; without humidity aloft only the 0 C level
+        humid = "td" in series
         for var, label in (
             ("freezing_level_m", "0 C level"),
             ("wet_bulb_freezing_level_m", "wet-bulb 0 C level"),
-        ):
+        )[: 2 if humid else 1]:
             key = var[:-2]
             ax_h.plot(
                 times,
@@ -224,15 +236,30 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 marker="o" if times.size == 1 else None,
                 label=label,
             )
-        ax_h.plot(
-            times,
-            series["cloud_base_m"].values * FT_PER_M,
-            color=TIMELINE_COLOURS["cloud_base"],
-            lw=0,
-            marker="v",
-            ms=5,
-            label="cloud base (RH >= 95 %)",
-        )
+        if humid:
+            ax_h.plot(
+                times,
+                series["cloud_base_m"].values * FT_PER_M,
+                color=TIMELINE_COLOURS["cloud_base"],
+                lw=0,
+                marker="v",
+                ms=5,
+                label="cloud base (RH >= 95 %)",
+            )
+        else:
+            ax_h.text(
+                0.995,
+                0.95,
+                "no humidity on the levels: no wet-bulb 0 C level, no cloud base",
+                transform=ax_h.transAxes,
+                ha="right",
+                va="top",
+                fontsize=FONT["small"],
+                color=BRIEFING_COLOURS["muted"],
+                gid="no-humidity",
+                zorder=8,
+                bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.9},
+            )
         wl = np.isfinite(series["warm_layer_max_c"].values)
         first_span = True
         for k in np.nonzero(wl)[0]:
@@ -368,5 +395,6 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         lead_h=None if l0 is None else (l0, l1),
         source=series.attrs.get("source", ""),
         extra=product,
+        thin=series.attrs.get("thin"),
     )
     return fig

@@ -3,7 +3,9 @@
 One row per site and front passage (per run and member), with the weather
 sequence and the spread over runs (see :mod:`kit.products.arrivals`). ``--out`` ending
 in ``.csv`` writes CSV (the last column, ``caution``, carries kit.CAUTION on
-every row); ``.html`` writes a page with a title and the caution.
+every row); ``.html`` writes a page with a title and the caution. A thin run
+(no humidity or wind on its levels) is said in the ``thin_run`` column of the
+CSV, under the caution of the page and on stdout.
 ``--timelines DIR`` also writes one timeline figure per site (PNG) of the
 first RUN (first member).
 """
@@ -17,7 +19,7 @@ from kit.cli.common import load_runs, output_path
 from kit.errors import InputError, OutputError
 from kit.io.sites import check_sites_on_grid, read_sites
 from kit.pipeline import analyse
-from kit.products.arrivals import arrival_table
+from kit.products.arrivals import arrival_table, thin_notes
 from kit.products.files import save_figure, write_csv, write_html_table
 
 __all__ = ["add_parser", "run"]
@@ -124,9 +126,13 @@ def run(args):
             f"Front arrivals at {len(sites)} sites: runs {labels} (times UTC, speeds kt, "
             "freezing levels m above sea level, cloud base ft above site)"
         )
-        write_html_table(out, table, title, CAUTION, overwrite=args.overwrite)
+        page = table.drop(columns=["thin_run"], errors="ignore")  # said once, above it
+        write_html_table(out, page, title, CAUTION, overwrite=args.overwrite,
+                         notes=thin_notes(table))
     n_pass = int((table["passage_utc"] != "").sum())
     print(f"{n_pass} passages at {len(sites)} sites from {len(runs)} run(s) written to {out}")
+    for line in thin_notes(table):
+        print(line)
     if tl_dir is not None:
         first = str(runs[0].attrs.get("run", "run1"))
         for _, site in sites.iterrows():

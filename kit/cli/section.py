@@ -5,6 +5,11 @@ time (cold side on the left). ``--out`` ending in ``.png``, ``.svg`` or
 ``.pdf`` writes the figure; ``.nc`` writes the section data as CF NetCDF.
 The site comes from ``--sites`` or, by default, from the first ``sites.csv``
 found walking up from the RUN folder.
+
+A thin run without humidity on its levels gives a section in theta, without
+humidity shading, and says so in the figure, the NetCDF attributes and the
+line printed; a run with fewer than three pressure levels is refused in one
+line before any analysis (its fronts and arrival table can still be made).
 """
 
 import glob
@@ -21,7 +26,7 @@ from kit.io.sites import check_sites_on_grid, read_sites
 from kit.pipeline import analyse
 from kit.products.files import save_figure, write_bytes
 from kit.products.sections import section
-from kit.science.sections import select_time
+from kit.science.sections import check_section_levels, select_time, thermal_field
 
 __all__ = ["add_parser", "run", "find_sites_file", "lookup_site", "section_to_netcdf_bytes"]
 
@@ -188,6 +193,7 @@ def run(args):
     sites = read_sites(sites_path)
     site = lookup_site(sites, args.site, sites_path)
     ds = open_run(args.run, member=args.member)
+    check_section_levels(ds)  # before the member question and the analysis
     member = None
     if "member" in ds.dims:
         member = args.member
@@ -201,9 +207,12 @@ def run(args):
     else:
         save_figure(section_figure(sec), out, overwrite=args.overwrite)
     kind = sec.attrs.get("front_kind")
-    across = f"across the {kind} front" if kind else "(no front found; along the theta-w gradient)"
+    words = "theta-w" if thermal_field(sec) == "theta_w" else "theta"
+    across = f"across the {kind} front" if kind else f"(no front found; along the {words} gradient)"
     slope = sec.attrs.get("frontal_slope_1_in")
     slope_text = f", frontal slope 1:{slope:.0f}" if slope == slope and slope else ""
     print(f"section through {site['name']} {across} at {sec.attrs['valid_time']}{slope_text} "
           f"written to {out}")
+    if sec.attrs.get("thin"):
+        print(f"run {sec.attrs.get('run', '?')} is thin: {sec.attrs['thin']}")
     return 0

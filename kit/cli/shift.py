@@ -1,7 +1,11 @@
 """``frontshift shift RUN... --sites SITES.csv --out DIR``: every shift product, headless.
 
 The products and the folder they go into are described in :mod:`kit.products.shift`.
+A thin run is said on stdout (what it lacks, what was done instead), with any
+product it could not carry and why.
 """
+
+import json
 
 from kit import CAUTION
 from kit.products.shift import write_shift_products
@@ -51,5 +55,10 @@ def run(args):
     )
     files = sum(1 for p in folder.rglob("*") if p.is_file())
     print(f"{files} shift products written to {folder}")
+    manifest = json.loads((folder / "manifest.json").read_text(encoding="utf-8"))
+    for label, text in manifest.get("thin", {}).items():
+        print(f"run {label} is thin: {text}")
+    for skipped in manifest.get("skipped", []):
+        print(f"not made: {skipped['product']}: {skipped['reason']}")
     print(CAUTION)
     return 0

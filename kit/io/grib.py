@@ -51,7 +51,9 @@ import warnings
 
 import numpy as np
 import xarray as xr
+from pyproj import CRS, Transformer
 
+from kit.constants import GRIB_SPHERE_RADIUS_M
 from kit.io.messages import input_error, join_names
 
 __all__ = ["GRIB_GRID_TYPES", "is_grib_head", "open_grib", "walk_messages"]
@@ -251,9 +253,9 @@ def _check_grib1_grid(path, fh, pos, number, size):
 def _cfgrib():
     """Import cfgrib's dataset builder and xarray store (on the first GRIB file)."""
     try:
-        import cfgrib.dataset as cfd
-        import cfgrib.messages as cfm
-        from cfgrib.xarray_plugin import ECCODES_LOCK, CfGribDataStore
+        import cfgrib.dataset as cfd  # optional: loads ecCodes, only for GRIB files
+        import cfgrib.messages as cfm  # optional
+        from cfgrib.xarray_plugin import ECCODES_LOCK, CfGribDataStore  # optional
     except Exception as exc:  # ImportError, or ecCodes' library missing (RuntimeError)
         raise input_error(
             "GRIB", f"cannot read GRIB: cfgrib/ecCodes unavailable ({exc}); expected the "
@@ -532,7 +534,7 @@ def _accumulation_bounds(ds, name):
 # --------------------------------------------------------------------------- grids
 def _first_message_keys(path, offset, keys):
     """Keys of the message at ``offset``, read with ecCodes (the grid's description)."""
-    import eccodes
+    import eccodes  # optional: only for GRIB files
 
     with open(path, "rb") as fh:
         fh.seek(offset)
@@ -551,8 +553,6 @@ def _first_message_keys(path, offset, keys):
 
 def _projected(path, ds, offset):
     """Give a 2-D-lat/lon GRIB Dataset its CF grid mapping and 1-D x/y coordinates."""
-    from pyproj import CRS, Transformer
-
     keys = _first_message_keys(
         path,
         offset,
@@ -637,7 +637,7 @@ def _rotated(path, ds, keys, ydim, xdim):
         "grid_north_pole_latitude": -sp_lat,
         "grid_north_pole_longitude": (sp_lon + 180.0 + 180.0) % 360.0 - 180.0,
         "north_pole_grid_longitude": 0.0,
-        "earth_radius": 6371229.0,
+        "earth_radius": GRIB_SPHERE_RADIUS_M,
     }
     out = ds.assign_coords(
         {

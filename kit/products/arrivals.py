@@ -16,6 +16,14 @@ the frontal zone's centre, the passage time (interpolated or extrapolated at
 the tracked speed) and the weather sequence around it, with the rules of thumb
 beside it. This module assembles and formats the table from an Analysis.
 
+A thin run (``ds.attrs["thin"]``: no humidity, wind or mean-sea-level
+pressure on its levels) gives the same table with nothing invented: the
+dew-point, wet-bulb, theta-w and cloud-base cells stay empty, the thermal
+change is given in theta (``theta_change_k``, after ``thetaw_change_k``), a
+geostrophic stand-in for the 10-m wind is named in ``note``, and every row of
+such a run says what the run lacks and what was done instead (``thin_run``,
+the last column). Tables of full runs have neither extra column.
+
 Several runs or ensemble members give the earliest, median and latest passage
 of the same front (matched by kind and nearest passage time) and
 ``spread_h`` = latest - earliest.
@@ -45,9 +53,12 @@ from kit.science.passages import (
 __all__ = [
     "CONTRACT_COLUMNS",
     "EXTRA_COLUMNS",
+    "THIN_COLUMNS",
     "COLUMN_NOTES",
+    "THIN_COLUMN_NOTES",
     "add_spread",
     "arrival_table",
+    "thin_notes",
 ]
 
 #: the arrival table columns every product carries (DESIGN.md)
@@ -101,6 +112,9 @@ EXTRA_COLUMNS = [
     "note",
 ]
 
+#: columns a table gets only when one of its runs is thin (see the module notes)
+THIN_COLUMNS = ["theta_change_k", "thin_run"]
+
 #: what each column means, in a forecaster's words (units in brackets)
 COLUMN_NOTES = {
     "site": "site name from the site list",
@@ -147,6 +161,29 @@ COLUMN_NOTES = {
     "rule_rain_to_utc": "rule-of-thumb window end [UTC]",
     "note": "plain-words remarks: misses, extrapolation, type changes",
 }
+
+#: what the columns of thin runs mean (:data:`THIN_COLUMNS`)
+THIN_COLUMN_NOTES = {
+    "theta_change_k": "theta at the front's level after minus before [K] (a run without "
+    "humidity: the field its fronts were found in)",
+    "thin_run": "what the run lacks and what was done instead (empty for a full run)",
+}
+
+
+def thin_notes(table):
+    """Plain-words lines for a page or pack: one per thin run of the table.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        From :func:`arrival_table` (``attrs["thin"]``).
+
+    Returns
+    -------
+    list of str
+        ``"Thin run <run>: <what it lacks and what was done>"``; empty for full runs.
+    """
+    return [f"Thin run {run}: {text}" for run, text in table.attrs.get("thin", {}).items()]
 
 
 # ----------------------------------------------------------------------- spread
@@ -244,6 +281,26 @@ _WHOLE_NUMBER_COLUMNS = [
 ]
 
 
+def _columns(runs):
+    """Return the table's columns: the contract, the extras, THIN_COLUMNS for thin runs."""
+    columns = CONTRACT_COLUMNS + EXTRA_COLUMNS
+    if any("td" not in ds for ds in runs):
+        k = columns.index("thetaw_change_k") + 1
+        columns = columns[:k] + ["theta_change_k"] + columns[k:]
+    if any(ds.attrs.get("thin") for ds in runs):
+        columns = columns + ["thin_run"]
+    return columns
+
+
+def _wind_note(series, row):
+    """Note for a row whose wind cells hold a geostrophic stand-in ("" otherwise)."""
+    where = series.attrs.get("wind_from", "")
+    cells = [row.get(c, np.nan) for c in ("wind_before_deg", "wind_after_deg")]
+    if not where or not np.isfinite(np.asarray(cells, dtype=float)).any():
+        return ""
+    return f"wind cells: {where}, not 10-m wind (the run has no wind)"
+
+
 def _members(ds):
     if "member" in ds.dims:
         return [int(m) for m in ds["member"].values]
@@ -325,8 +382,10 @@ def arrival_table(
         :data:`CONTRACT_COLUMNS` then :data:`EXTRA_COLUMNS`: times UTC ISO 8601
         with Z, speeds in knots, heights in m above mean sea level (freezing
         levels) or ft above the site (cloud base), signed wind turn (positive
-        clockwise), NaN/"" where a value does not apply. ``attrs`` carry
-        ``caution`` (kit.CAUTION), ``runs`` and ``source``.
+        clockwise), NaN/"" where a value does not apply; :data:`THIN_COLUMNS`
+        where a run is thin. ``attrs`` carry ``caution`` (kit.CAUTION),
+        ``runs``, ``source`` and ``thin`` (run -> ``ds.attrs["thin"]`` of each
+        thin run; empty for full runs).
     """
     analyses = _analyses(analyses)
     runs = [a.dataset for a in analyses]
@@ -349,7 +408,8 @@ def arrival_table(
             for _, site in sites.iterrows():
                 series = all_series[site["name"]]
                 store[(run, member, site["name"])] = series
-                base = {"site": site["name"], "run": run, "member": member}
+                base = {"site": site["name"], "run": run, "member": member,
+                        "thin_run": str(ds.attrs.get("thin", "") or "")}
                 n_miss, n_all = missing_steps(series, level)
                 if n_miss == n_all:
                     rows.append(
@@ -413,8 +473,9 @@ def arrival_table(
                             )
                         )
                         extra = r.pop("wind_note", "")
-                        if extra:
-                            r["note"] = (r["note"] + "; " if r["note"] else "") + extra
+                        for text in (extra, _wind_note(series, r)):
+                            if text:
+                                r["note"] = (r["note"] + "; " if r["note"] else "") + text
                         if series.attrs.get("elevation_assumed"):
                             r["note"] = (
                                 r["note"] + "; " if r["note"] else ""
@@ -424,7 +485,8 @@ def arrival_table(
                     rows.append(r)
     table = pd.DataFrame(rows)
     table = add_spread(table, max_match_h=max_match_h)
-    for c in CONTRACT_COLUMNS + EXTRA_COLUMNS:
+    columns = _columns(runs)
+    for c in columns:
         if c not in table:
             table[c] = ""
     order = {n: k for k, n in enumerate(sites["name"])}
@@ -445,18 +507,32 @@ def arrival_table(
     table["track"] = pd.to_numeric(table["track"], errors="coerce").astype("Int64")
     for c in [
         c
-        for c in CONTRACT_COLUMNS + EXTRA_COLUMNS
+        for c in columns
         if c.endswith("_utc")
-        or c in ("site", "front_kind", "note", "snow_risk", "rule_rain_what", "runs_with_passage")
+        or c
+        in (
+            "site",
+            "front_kind",
+            "note",
+            "snow_risk",
+            "rule_rain_what",
+            "runs_with_passage",
+            "thin_run",
+        )
     ]:
         table[c] = table[c].fillna("").astype(str)
     table["extrapolated"] = table["extrapolated"].map(
         lambda v: ("yes" if v else "no") if isinstance(v, (bool, np.bool_)) else ""
     )
-    table = table[CONTRACT_COLUMNS + EXTRA_COLUMNS].reset_index(drop=True)
+    table = table[columns].reset_index(drop=True)
     table.attrs.update(
         caution=CAUTION,
         runs=[str(ds.attrs.get("run", "")) for ds in runs],
         source="; ".join(str(ds.attrs.get("source", "")) for ds in runs),
+        thin={
+            str(ds.attrs.get("run", f"run{i + 1}")): str(ds.attrs["thin"])
+            for i, ds in enumerate(runs)
+            if ds.attrs.get("thin")
+        },
     )
     return (table, store) if return_series else table

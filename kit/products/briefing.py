@@ -23,6 +23,7 @@ Examples
 """
 
 import io
+import textwrap
 from pathlib import Path
 
 import numpy as np
@@ -95,7 +96,63 @@ def _cell(value):
     return str(value)
 
 
-def cover_figure(*, runs, valid_window, source, sites=None, summary=None, contents=None):
+#: width of the cover's text column [inches]: A4 landscape less the 0.8 in margins
+_COVER_TEXT_IN = 11.69 - 1.6
+#: mean character width of the cover font [em] (DejaVu Sans, measured on plain text)
+_CHAR_EM = 0.56
+
+
+class _CoverRow:
+    """One line of the cover: text, size [pt], its key (bold, grey, left) and height [axes]."""
+
+    def __init__(self, text, size, *, step, key=None, bold=False, colour=None, gap=0.0,
+                 indent=0.0, caution_head=False):
+        self.text, self.size, self.key, self.bold = text, size, key, bold
+        self.colour = colour or style.INK
+        self.step, self.gap, self.indent, self.caution_head = step, gap, indent, caution_head
+
+
+def _bullet(text, size, *, step, scale=1.0, colour=None):
+    """Make the rows of a bulleted item, wrapped to the text column at ``size * scale`` [pt]."""
+    chars = int((_COVER_TEXT_IN - 0.3) * 72.0 / (_CHAR_EM * size * scale))
+    parts = textwrap.wrap(str(text), max(chars, 20)) or [""]
+    last = len(parts) - 1
+    return [_CoverRow(("\u2022 " if k == 0 else "  ") + part, size, colour=colour, indent=0.02,
+                      step=step if k == last else 0.75 * step) for k, part in enumerate(parts)]
+
+
+def _cover_scale(rows):
+    """Shrink factor of lines and type so the rows fit the page body (at most 1, at least 0.65)."""
+    total = sum(r.step + r.gap for r in rows)
+    return min(1.0, max(0.65, 0.97 / total)) if total > 0 else 1.0
+
+
+def _draw_cover(ax, rows, scale):
+    """Lay the rows out top-down, lines and type shrunk by ``scale``.
+
+    The caution block starts no lower than 0.30 of the page body (as it
+    always has) and, on a full cover (``scale < 1``), right after the summary,
+    so it never runs into the footer.
+    """
+    y = 0.97
+    for r in rows:
+        y -= r.gap * scale
+        if r.caution_head and scale >= 1.0:
+            y = min(y, 0.30)
+        size = r.size * scale
+        if r.key is not None:
+            ax.text(0.0, y, r.key, fontsize=size, fontweight="bold",
+                    color=style.BRIEFING_COLOURS["muted"], va="top", transform=ax.transAxes)
+            ax.text(0.13, y, r.text, fontsize=size, color=r.colour, va="top",
+                    transform=ax.transAxes)
+        else:
+            ax.text(r.indent, y, r.text, fontsize=size, fontweight="bold" if r.bold else "normal",
+                    color=r.colour, va="top", transform=ax.transAxes)
+        y -= r.step * scale
+
+
+def cover_figure(*, runs, valid_window, source, sites=None, summary=None, contents=None,
+                 thin=None):
     """Make the pack's cover page: runs, valid window, sites, contents and the cautions.
 
     Parameters
@@ -112,6 +169,9 @@ def cover_figure(*, runs, valid_window, source, sites=None, summary=None, conten
         Short lines (fronts found, passages...).
     contents : list of str, optional
         Page groups of the pack.
+    thin : str, optional
+        What the thin run(s) lack and what was done instead (``ds.attrs["thin"]``),
+        for the header line (the summary says it in full).
 
     Returns
     -------
@@ -120,10 +180,6 @@ def cover_figure(*, runs, valid_window, source, sites=None, summary=None, conten
     """
     fig, ax = style.new_figure(figsize=(11.69, 8.27), left_in=0.8, right_in=0.8)
     ax.axis("off")
-    y = 0.97
-    ax.text(0.0, y, "Shift briefing pack", fontsize=22, fontweight="bold", color=style.INK,
-            va="top", transform=ax.transAxes)
-    y -= 0.09
     lines = [
         ("Runs", ", ".join(runs)),
         ("Valid", f"{style.format_utc(valid_window[0])} to {style.format_utc(valid_window[1])}"),
@@ -132,37 +188,39 @@ def cover_figure(*, runs, valid_window, source, sites=None, summary=None, conten
     if sites:
         names = ", ".join(sites)
         lines.append(("Sites", names if len(names) < 110 else names[:107] + "..."))
-    for key, value in lines:
-        ax.text(0.0, y, key, fontsize=11, fontweight="bold", color=style.BRIEFING_COLOURS[
-            "muted"], va="top", transform=ax.transAxes)
-        ax.text(0.13, y, value, fontsize=11, color=style.INK, va="top", transform=ax.transAxes)
-        y -= 0.055
-    for block_title, block in (("In this pack", contents), ("Summary", summary)):
-        if not block:
-            continue
-        y -= 0.02
-        ax.text(0.0, y, block_title, fontsize=12, fontweight="bold", color=style.INK, va="top",
-                transform=ax.transAxes)
-        y -= 0.05
-        for item in block[:8]:
-            ax.text(0.02, y, f"\u2022 {item}", fontsize=10, color=style.INK, va="top",
-                    transform=ax.transAxes)
-            y -= 0.042
-    y = min(y, 0.30)
-    ax.text(0.0, y, "Caution", fontsize=12, fontweight="bold",
-            color=style.BRIEFING_COLOURS["caution"], va="top", transform=ax.transAxes)
-    y -= 0.05
-    for note in (CAUTION, *COVER_NOTES):
-        ax.text(0.02, y, f"\u2022 {note}", fontsize=9.5, color=style.BRIEFING_COLOURS["caution"]
-                if note == CAUTION else style.INK, va="top", transform=ax.transAxes, wrap=True)
-        y -= 0.045
+
+    def build(scale):
+        """Make the cover's rows, long items wrapped for type shrunk by ``scale``."""
+        rows = [_CoverRow("Shift briefing pack", 22, bold=True, step=0.09)]
+        rows += [_CoverRow(value, 11, key=key, step=0.055) for key, value in lines]
+        for block_title, block in (("In this pack", contents), ("Summary", summary)):
+            if not block:
+                continue
+            rows.append(_CoverRow(block_title, 12, bold=True, step=0.05, gap=0.02))
+            for item in block[:8]:
+                rows += _bullet(item, 10, step=0.042, scale=scale)
+        rows.append(_CoverRow("Caution", 12, bold=True, step=0.05,
+                              colour=style.BRIEFING_COLOURS["caution"], caution_head=True))
+        for note in (CAUTION, *COVER_NOTES):
+            rows += _bullet(note, 9.5, step=0.045, scale=scale, colour=style.BRIEFING_COLOURS[
+                "caution"] if note == CAUTION else style.INK)
+        return rows
+
+    scale = 1.0
+    for _ in range(4):  # wrap, measure, shrink; a few rounds settle it
+        rows = build(scale)
+        wanted = _cover_scale(rows)
+        if wanted >= scale - 1e-3:
+            break
+        scale = wanted
+    _draw_cover(ax, rows, scale)
     style.stamp(fig, run=", ".join(runs), valid_time=tuple(valid_window), lead_h=None,
-                source=source, extra=f"frontshift {__version__}: cover")
+                source=source, extra=f"frontshift {__version__}: cover", thin=thin)
     return fig
 
 
 def table_figures(frame, *, title, run, valid_time=None, source="", columns=None,
-                  rows_per_page=24):
+                  rows_per_page=24, thin=None):
     """Make the pages (figures) of a table, A4 landscape, stamped; long tables continue over pages.
 
     Parameters
@@ -181,6 +239,8 @@ def table_figures(frame, *, title, run, valid_time=None, source="", columns=None
         Column -> heading; default :data:`TABLE_COLUMNS` (those present), else all.
     rows_per_page : int
         Rows per page.
+    thin : str, optional
+        What the thin run(s) of the table lack (``ds.attrs["thin"]``), for the header.
 
     Returns
     -------
@@ -236,7 +296,7 @@ def table_figures(frame, *, title, run, valid_time=None, source="", columns=None
                     ha="center", fontsize=12, color=style.INK, transform=ax.transAxes)
         suffix = f" (page {page + 1} of {pages})" if pages > 1 else ""
         style.stamp(fig, run=run, valid_time=valid_time, lead_h=None, source=source,
-                    extra=f"{title}{suffix}; times UTC")
+                    extra=f"{title}{suffix}; times UTC", thin=thin)
         figs.append(fig)
     return figs
 
@@ -264,10 +324,12 @@ class BriefingPack:
         Replace an existing PDF (never silent otherwise).
     cover : bool
         Start with the cover page.
+    thin : str, optional
+        What the thin run(s) lack and what was done instead, for the cover.
     """
 
     def __init__(self, path, *, runs, valid_window, source, sites=None, summary=None,
-                 contents=None, overwrite=False, cover=True):
+                 contents=None, overwrite=False, cover=True, thin=None):
         self.path = Path(path)
         if self.path.suffix.lower() != ".pdf":
             raise InputError(f"{self.path}: briefing pack must end in .pdf")
@@ -289,7 +351,7 @@ class BriefingPack:
         if cover:
             self.add_figure(cover_figure(runs=self.runs, valid_window=valid_window,
                                          source=source, sites=sites, summary=summary,
-                                         contents=contents), title="cover")
+                                         contents=contents, thin=thin), title="cover")
 
     def add_figure(self, fig, title=None):
         """Add a stamped figure as one page; return the page count so far."""
@@ -306,10 +368,10 @@ class BriefingPack:
         self.titles.append(title or state.get("kind", "figure"))
         return self.pages
 
-    def add_table(self, frame, *, title, run, valid_time=None, rows_per_page=24):
+    def add_table(self, frame, *, title, run, valid_time=None, rows_per_page=24, thin=None):
         """Add a table over as many pages as it needs; return the pages added."""
         figs = table_figures(frame, title=title, run=run, valid_time=valid_time,
-                             source=self.source, rows_per_page=rows_per_page)
+                             source=self.source, rows_per_page=rows_per_page, thin=thin)
         for fig in figs:
             self.add_figure(fig, title=title)
         return len(figs)

@@ -130,18 +130,25 @@ def write_csv(path, frame, overwrite=False):
     return write_text(path, frame.to_csv(index=False, lineterminator="\n"), overwrite)
 
 
-def write_html_table(path, frame, title, caution, overwrite=False):
-    """Write a DataFrame as a small stand-alone HTML page with title and caution."""
+def write_html_table(path, frame, title, caution, overwrite=False, notes=()):
+    """Write a DataFrame as a small stand-alone HTML page with title and caution.
+
+    ``notes`` are further lines printed under the caution (e.g. what a thin
+    run lacks); none for a full run, whose page is then as before.
+    """
     body = frame.to_html(index=False, na_rep="", border=0, classes="fs-table")
+    extra = "".join(f"<p class='note'>{html.escape(str(n))}</p>" for n in notes)
     page = (
         "<!DOCTYPE html>\n<html><head><meta charset='utf-8'>"
         f"<title>{html.escape(title)}</title>"
         "<style>body{font-family:sans-serif;margin:1.5em}"
         ".fs-table{border-collapse:collapse;font-size:0.9em}"
         ".fs-table th,.fs-table td{padding:3px 8px;border-bottom:1px solid #bbb;text-align:right}"
-        ".fs-table th{background:#e8eef2}.caution{color:#7a3000;font-weight:bold}</style>"
+        ".fs-table th{background:#e8eef2}.caution{color:#7a3000;font-weight:bold}"
+        + (".note{color:#7a3000}" if extra else "")
+        + "</style>"
         f"</head><body><h2>{html.escape(title)}</h2>"
-        f"<p class='caution'>{html.escape(caution)}</p>{body}</body></html>\n"
+        f"<p class='caution'>{html.escape(caution)}</p>{extra}{body}</body></html>\n"
     )
     return write_text(path, page, overwrite)
 

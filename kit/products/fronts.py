@@ -47,6 +47,8 @@ def plausibility(analyses):
     out = pd.concat(reports, ignore_index=True) if reports else pd.DataFrame()
     out.attrs["pooled"] = pooled_summary(reports) if reports else {}
     out.attrs["caution"] = CAUTION
+    # the thermal field of the fronts: theta on a thin run without humidity
+    out.attrs["fields"] = sorted({a.settings.field for a in items})
     return out
 
 
@@ -73,8 +75,14 @@ def plausibility_metadata(report):
         "rows": [{k: json_clean(v) for k, v in row.items()} for row in report.to_dict("records")],
         "pooled": {k: json_clean(v) for k, v in report.attrs.get("pooled", {}).items()},
         "lift": "(share - baseline) / (1 - baseline); baseline: random points with the "
-        "same theta-w gradient distribution",
+        f"same {_field_words(report)} gradient distribution",
     }
+
+
+def _field_words(report):
+    """``theta-w``, ``theta`` or both: the thermal field(s) of the report's fronts."""
+    fields = report.attrs.get("fields") or ["theta_w"]
+    return " or ".join({"theta_w": "theta-w"}.get(f, f) for f in fields)
 
 
 def plausibility_text(report):

@@ -18,6 +18,14 @@ Writes into a NEW sub-folder of DIR (``shift_<newest run>``, then ``-2``, ``-3``
 - ``manifest.json`` and ``index.html``: the list of files (size, checksum,
   what each is) and the caution.
 
+A thin run (``ds.attrs["thin"]``: no humidity, wind or mean-sea-level pressure
+on its levels) gets every product it can carry, each saying what the run lacks
+and what was done instead (figure headers, the ``thin_run`` columns of the
+tables, the cover, the GeoJSON properties, ``manifest["thin"]``); maps and
+fronts are in theta where the run has no humidity. A product the run cannot
+carry (cross-sections from fewer than three levels) is left out and listed,
+with the reason, in ``manifest["skipped"]``, the summary and the index page.
+
 The set is built in a hidden ``.incomplete_...`` folder and renamed when
 complete, so a folder named ``shift_...`` always holds a whole set. Earlier
 folders are never touched: an interrupted run (Ctrl-C) keeps its partial
@@ -49,7 +57,7 @@ from kit.io.runs import open_run
 from kit.io.sites import check_sites_on_grid, read_sites
 from kit.model import fronts_table
 from kit.pipeline import analyse
-from kit.products.arrivals import arrival_table
+from kit.products.arrivals import arrival_table, thin_notes
 from kit.products.briefing import BriefingPack
 from kit.products.files import (
     new_product_dir,
@@ -67,7 +75,7 @@ from kit.products.fronts import (
     plausibility_notes,
 )
 from kit.science.fronts import FrontSettings
-from kit.science.sections import section_across_front
+from kit.science.sections import check_section_levels, section_across_front
 from kit.timefmt import iso_seconds
 
 __all__ = ["write_shift_products", "PRODUCT_KINDS"]
@@ -214,6 +222,23 @@ def _section_jobs(table, analysis, sites, max_sections):
     return [(s, f, d) for s, f, d, _ in jobs[:max_sections]]
 
 
+def _thin_text(runs):
+    """Every item a set of runs lacks, once each, "; "-joined (empty for full runs)."""
+    items = [i for ds in runs for i in str(ds.attrs.get("thin", "") or "").split("; ") if i]
+    return "; ".join(dict.fromkeys(items))
+
+
+def _section_skip(analysis, max_sections):
+    """Why the newest run gets no cross-section ("" when it can have them)."""
+    if max_sections == 0:
+        return ""
+    try:
+        check_section_levels(analysis.dataset)
+    except InputError as exc:
+        return str(exc)
+    return ""
+
+
 def _index_html(manifest):
     rows = []
     for f in manifest["files"]:
@@ -237,7 +262,11 @@ def _index_html(manifest):
         f" &middot; source: {html.escape(manifest['source'])}"
         f" &middot; made {html.escape(manifest['created_utc'])} by frontshift "
         f"{html.escape(manifest['version'])}</p>"
-        "<table><tr><th></th><th>File</th><th>What</th><th>Bytes</th></tr>"
+        + "".join(f"<p class='caution'>Thin run {html.escape(r)}: {html.escape(t)}</p>"
+                  for r, t in manifest.get("thin", {}).items())
+        + "".join(f"<p>Not made: {html.escape(k['product'])}: {html.escape(k['reason'])}</p>"
+                  for k in manifest.get("skipped", []))
+        + "<table><tr><th></th><th>File</th><th>What</th><th>Bytes</th></tr>"
         + "".join(rows) + "</table></body></html>\n"
     )
 
@@ -314,7 +343,12 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
     bar.set_postfix_str("arrival table")
     table, series = arrival_table(analyses, sites, return_series=True)
     bar.update(1)
-    section_jobs = _section_jobs(table, analyses[-1], sites, max_sections)
+    section_skip = _section_skip(analyses[-1], max_sections)
+    section_jobs = [] if section_skip else _section_jobs(table, analyses[-1], sites,
+                                                          max_sections)
+    thin = {label: str(ds.attrs["thin"]) for label, ds in zip(labels, runs, strict=True)
+            if ds.attrs.get("thin")}
+    thin_all = _thin_text(runs)
 
     # how many products: the bar's real length
     map_times = [_map_times(ds, maps_every_h) for ds in runs]
@@ -363,6 +397,8 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
     summary.extend(plausibility_notes(report))
     summary.extend(f"Run {a.run} is thin: {a.dataset.attrs['thin']}" for a in analyses
                    if a.dataset.attrs.get("thin"))
+    if section_skip:
+        summary.append(f"Cross-sections not made: {section_skip}")
     contents = ["Fronts through the run and their tracks", "Frontal maps by valid time"]
     if section_jobs:
         contents.append("Cross-sections through the sites across passing fronts")
@@ -372,7 +408,7 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
         contents.append("Site timelines")
     pack = BriefingPack(tmp / "briefing_pack.pdf", runs=labels, valid_window=(t_first, t_last),
                         source=short_source, sites=list(sites["name"]), summary=summary,
-                        contents=contents)
+                        contents=contents, thin=thin_all or None)
     try:
         # fronts: GeoJSON and table
         bar.set_postfix_str("fronts")
@@ -381,28 +417,33 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
             "product": "frontshift shift: fronts", "level_hpa": float(level),
             "field": settings.field, "runs": labels, "source": sources, "caution": CAUTION,
         }
+        if thin:
+            collection["properties"]["thin"] = thin
         products.add(write_json(tmp / "fronts.geojson", collection), "fronts_geojson",
                      features=len(collection.get("features", [])))
         ftable = _scalar_columns(fronts_table(all_fronts))
         if "valid_time" in ftable:
             ftable["valid_time"] = [iso_seconds(t) for t in ftable["valid_time"]]
+        if thin and "run" in ftable:
+            ftable["thin_run"] = [thin.get(str(r), "") for r in ftable["run"]]
         ftable["caution"] = CAUTION
         products.add(write_csv(tmp / "fronts.csv", ftable), "fronts_csv", rows=len(ftable))
 
         # maps, newest run first into the pack
         for k in reversed(range(len(runs))):
             ds, fronts, label = runs[k], list(analyses[k].fronts), labels[k]
+            field_k = analyses[k].settings.field  # theta on a run without humidity
             in_pack = pack if k == len(runs) - 1 else None
             bar.set_postfix_str(f"maps {label}")
             products.figure(maps.fronts_overview(ds, fronts, level=level, sites=sites),
                             f"maps/overview_{_slug(label)}.png", "overview",
                             pack=pack, run=label)
-            products.figure(maps.fronts_through_time(ds, fronts, level=level, field=field,
+            products.figure(maps.fronts_through_time(ds, fronts, level=level, field=field_k,
                                                      sites=sites),
                             f"maps/through_run_{_slug(label)}.png", "through_run",
                             pack=in_pack, run=label)
             # one map frame per run, redrawn per valid time (same colours through the run)
-            frame = maps.MapSeries(ds, sites=sites, level=level, field=field)
+            frame = maps.MapSeries(ds, sites=sites, level=level, field=field_k)
             for t in map_times[k]:
                 png = frame.draw(t, fronts, run=label)
                 rel = f"maps/map_{_slug(label)}_{pd.Timestamp(t):%Y%m%dT%H%MZ}.png"
@@ -433,9 +474,12 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
                          rows=len(frame))
             title = (f"Front arrivals at {len(sites)} sites: runs {', '.join(labels)} "
                      "(times UTC, speeds kt)")
-            products.add(write_html_table(tmp / "arrivals.html", table, title, CAUTION),
+            page = table.drop(columns=["thin_run"], errors="ignore")  # said once, above it
+            products.add(write_html_table(tmp / "arrivals.html", page, title, CAUTION,
+                                          notes=thin_notes(table)),
                          "arrivals_html", rows=len(table))
-            pack.add_table(table, title="Front arrivals per site", run=", ".join(labels))
+            pack.add_table(table, title="Front arrivals per site", run=", ".join(labels),
+                           thin=thin_all or None)
             if series:
                 for _, site in sites.iterrows():
                     key = next((k for k in series if k[0] == labels[-1]
@@ -456,12 +500,16 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
             "product": "frontshift shift", "version": __version__,
             "created_utc": iso_seconds(pd.Timestamp.now("UTC")),
             "runs": labels, "run_args": [str(a) for a in run_args], "sites": str(sites_path),
-            "level_hpa": float(level), "field": field, "source": sources,
+            "level_hpa": float(level), "field": settings.field, "source": sources,
             "valid_from": iso_seconds(t_first), "valid_to": iso_seconds(t_last),
             "caution": CAUTION, "files": products.files,
             "plausibility": plausibility_metadata(report),
             "seconds": round(time.time() - started, 1),
         }
+        if thin:
+            manifest["thin"] = thin
+        if section_skip:
+            manifest["skipped"] = [{"product": "section", "reason": section_skip}]
         products.add(write_json(tmp / "manifest.json", manifest), "manifest")
         manifest["files"] = products.files
         write_text(tmp / "index.html", _index_html(manifest))

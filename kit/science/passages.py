@@ -44,6 +44,14 @@ else the typical 1:150 warm and 1:50 cold, common practice, no source). With
 estimated; ``surface_offset_km`` says how far the line was moved toward the
 warm side.
 
+A thin run (no humidity on its levels; ``ds.attrs["thin"]`` says what it
+lacks) gives a site series without invented humidity: relative humidity,
+wet-bulb temperature, theta-w, the wet-bulb 0 C level and the cloud base are
+NaN, and the passage's thermal change is read in theta (the field its fronts
+were found in). Where the run has no wind of its own the near-ground wind is
+the geostrophic wind of the lowest level above the site, and the series says
+so (``attrs["wind_from"]``).
+
 The weather sequence (:func:`weather_sequence`) comes from the site series:
 precipitation start and end (rate at or above :data:`PRECIP_THRESHOLD_MMH`),
 10-m wind before and after (``window_h`` either side) with the signed turn
@@ -266,8 +274,9 @@ def site_series(ds, site):
     xarray.Dataset
         Every horizontal field of ``ds`` at the site (``[member,] time[, level]``)
         plus: ``p_sfc`` [hPa] surface pressure (from ``mslp`` reduced with the
-        hypsometric equation, else from ``z`` on levels); ``rh`` [1],
-        ``tw`` [K] and ``theta_w`` [K] on levels; ``rh2m`` [1], ``tw2m`` [K];
+        hypsometric equation, else from ``z`` on levels); ``theta`` [K],
+        ``rh`` [1], ``tw`` [K] and ``theta_w`` [K] on levels (the last three
+        NaN on a thin run without humidity); ``rh2m`` [1], ``tw2m`` [K];
         ``freezing_level_m`` and ``wet_bulb_freezing_level_m`` [m above mean sea
         level] (highest 0 C crossing; the site elevation when the whole column is
         sub-zero; NaN when above 0 C to the top level); ``cloud_base_m`` [m above
@@ -278,12 +287,14 @@ def site_series(ds, site):
         ``wind_speed_ms`` [m s-1], ``wind_u_ms``, ``wind_v_ms`` [m s-1] at 10 m
         (the lowest level above the site without 10-m wind; absent without
         any wind). ``attrs``: site, lat, lon,
-        elevation_m, elevation_assumed, run, source.
+        elevation_m, elevation_assumed, run, source; on a thin run also
+        ``thin`` (``ds.attrs["thin"]``) and, where the wind is the geostrophic
+        wind of a level, ``wind_from`` (e.g. "geostrophic wind at 850 hPa").
 
     Raises
     ------
     kit.errors.InputError
-        The site is off the grid or the dataset lacks ``t``, ``td`` or ``z``.
+        The site is off the grid or the dataset lacks ``t`` or ``z``.
     """
     if isinstance(site, pd.DataFrame):
         return _series_many(ds, site)
@@ -293,14 +304,8 @@ def site_series(ds, site):
 
 def _series_many(ds, sites):
     """Site series of every row of ``sites``: {name: Dataset}."""
-    for var in ("t", "td", "z"):
+    for var in ("t", "z"):
         if var not in ds:
-            if var == "td" and ds.attrs.get("thin"):
-                raise InputError(
-                    f"run {ds.attrs.get('run', '?')}: no humidity on pressure levels (a thin "
-                    "run); site weather needs dew point: expected humidity on the levels "
-                    "(frontshift fronts analyses such runs, on theta)"
-                )
             raise InputError(
                 f"run {ds.attrs.get('run', '?')}: no variable '{var}'; "
                 "expected the canonical dataset (DEVELOPERS.md)"
@@ -336,7 +341,10 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
     th = _thermo()
 
     lev = s["level"].values.astype(float)
-    t, td, z = s["t"], s["td"], s["z"]
+    t, z = s["t"], s["z"]
+    # a thin run without humidity on its levels: NaN, never invented
+    humid = "td" in s
+    td = s["td"] if humid else None
     # surface pressure [hPa]
     if "mslp" in s:
         tmean = (s["t2m"] if "t2m" in s else t.isel(level=0)) + 0.0065 * z_sfc / 2.0
@@ -357,18 +365,21 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
         p_sfc = xr.apply_ufunc(_psfc, z, input_core_dims=[["level"]], vectorize=True)
     s["p_sfc"] = p_sfc.assign_attrs(units="hPa", long_name="surface pressure at the site")
     p3 = s["level"].astype(float).broadcast_like(t).transpose(*t.dims)
-    s["rh"] = xr.DataArray(
-        th["rh"](t.values, td.values), dims=t.dims, coords=t.coords, attrs={"units": "1"}
-    )
-    s["tw"] = xr.DataArray(
-        th["tw"](t.values, td.values, p3.values), dims=t.dims, coords=t.coords, attrs={"units": "K"}
-    )
-    s["theta_w"] = xr.DataArray(
-        th["thw"](t.values, td.values, p3.values),
+    s["theta"] = xr.DataArray(
+        np.asarray(thermo.potential_temperature(t.values, p3.values), dtype=float),
         dims=t.dims,
         coords=t.coords,
         attrs={"units": "K"},
     )
+    empty = np.full(t.shape, np.nan)
+    for var, unit, value in (
+        ("rh", "1", lambda: th["rh"](t.values, td.values)),
+        ("tw", "K", lambda: th["tw"](t.values, td.values, p3.values)),
+        ("theta_w", "K", lambda: th["thw"](t.values, td.values, p3.values)),
+    ):
+        s[var] = xr.DataArray(
+            value() if humid else empty, dims=t.dims, coords=t.coords, attrs={"units": unit}
+        )
     has_sfc = "t2m" in s and "td2m" in s
     if has_sfc:
         s["rh2m"] = (s["t2m"].dims, th["rh"](s["t2m"].values, s["td2m"].values))
@@ -399,12 +410,13 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
     zc, tc = _columns(zz, tt, z_sfc, t_s)
     zw, twc = _columns(zz, twv, z_sfc, tw_s)
     res["freezing_level_m"][...] = thermo.freezing_level(tc + T0_K, zc, dim=-1)
-    res["wet_bulb_freezing_level_m"][...] = thermo.freezing_level(twc + T0_K, zw, dim=-1)
+    if humid:  # without humidity aloft there is no wet-bulb profile to cross 0 C
+        res["wet_bulb_freezing_level_m"][...] = thermo.freezing_level(twc + T0_K, zw, dim=-1)
     top, base, tmax, tmin = thermo.warm_layer_aloft(tc + T0_K, zc, dim=-1, cold_min=True)
     res["warm_layer_base_m"][...], res["warm_layer_top_m"][...] = base, top
     res["warm_layer_max_c"][...] = np.asarray(tmax) - T0_K
     res["cold_layer_min_c"][...] = np.asarray(tmin) - T0_K
-    for idx in np.ndindex(*shape):
+    for idx in np.ndindex(*shape) if humid else ():
         zr, rc = _column(zz[idx], rhv[idx], z_sfc, rh_s[idx])
         res["cloud_base_m"][idx] = _lowest_saturated(zr, rc, CLOUD_RH) - z_sfc
     units = {
@@ -419,11 +431,14 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
     for k in names:
         s[k] = (lead, res[k], {"units": units[k]})
     u = v = None
+    wind_from = ""
     if "u10" in s and "v10" in s:
         u, v = s["u10"], s["v10"]
     elif "u" in s and "v" in s:  # lowest level above the ground stands in for 10 m
         above = (s["z"] > z_sfc).argmax("level")
         u, v = s["u"].isel(level=above), s["v"].isel(level=above)
+        if ds["u"].attrs.get("derived") == "geostrophic":
+            wind_from = _geostrophic_words(u)
     if u is not None:  # a run without wind leaves the wind cells empty
         s["wind_u_ms"] = u.assign_attrs(units="m s-1", long_name="eastward wind near 10 m")
         s["wind_v_ms"] = v.assign_attrs(units="m s-1", long_name="northward wind near 10 m")
@@ -440,7 +455,18 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
         grid_row=row,
         grid_col=col,
     )
+    if ds.attrs.get("thin"):
+        s.attrs["thin"] = str(ds.attrs["thin"])
+    if wind_from:
+        s.attrs["wind_from"] = wind_from
     return s
+
+
+def _geostrophic_words(u):
+    """Say which level the geostrophic stand-in for the 10-m wind comes from."""
+    levels = np.unique(np.asarray(u["level"].values, dtype=float))
+    where = " or ".join(f"{p:g}" for p in levels[::-1])
+    return f"geostrophic wind at {where} hPa"
 
 
 # -------------------------------------------------------------------- passages
@@ -935,13 +961,13 @@ def weather_sequence(
     precip_threshold_mmh : float
         Rate counted as precipitating [mm h-1].
     level_hpa : float
-        Level of the theta-w change [hPa].
+        Level of the theta-w and theta change [hPa].
 
     Returns
     -------
     dict
-        Table cells (see :data:`kit.products.arrivals.CONTRACT_COLUMNS` and
-        :data:`kit.products.arrivals.EXTRA_COLUMNS`);
+        Table cells (see :data:`kit.products.arrivals.CONTRACT_COLUMNS`,
+        :data:`kit.products.arrivals.EXTRA_COLUMNS` and ``theta_change_k``);
         NaN or "" where a value does not apply. Wind turn is signed, positive
         clockwise (a veer in the northern hemisphere). ``wind_note`` says when
         the wind is under :data:`LIGHT_WIND_KT` (turn uncertain), else "".
@@ -978,10 +1004,12 @@ def weather_sequence(
     # temperatures
     row["temp_change_c"] = round_or_nan(at("t2m", ha) - at("t2m", hb), 1)
     row["dewpoint_change_c"] = round_or_nan(at("td2m", ha) - at("td2m", hb), 1)
-    thw = series["theta_w"].sel(level=float(level_hpa), method="nearest")
-    row["thetaw_change_k"] = round_or_nan(
-        _interp(th, thw.values, ha) - _interp(th, thw.values, hb), 1
-    )
+    for key, var in (("thetaw_change_k", "theta_w"), ("theta_change_k", "theta")):
+        if var not in series:
+            row[key] = np.nan
+            continue
+        at_level = series[var].sel(level=float(level_hpa), method="nearest").values
+        row[key] = round_or_nan(_interp(th, at_level, ha) - _interp(th, at_level, hb), 1)
     for key, var in (
         ("freezing_level", "freezing_level_m"),
         ("wet_bulb_freezing_level", "wet_bulb_freezing_level_m"),
@@ -1057,13 +1085,13 @@ def weather_sequence(
 def missing_steps(series, level):
     """Count the steps where the model has no data at the site: (missing, total).
 
-    A step is missing when the site's temperature or dew point on the fronts'
-    ``level`` [hPa] is NaN, or its whole temperature column, or its 2-m
-    temperature (where the run has one).
+    A step is missing when the site's temperature or dew point (where the run
+    has humidity) on the fronts' ``level`` [hPa] is NaN, or its whole
+    temperature column, or its 2-m temperature (where the run has one).
     """
     t = np.asarray(series["t"].transpose("time", ...).values, dtype=float)
     bad = ~np.isfinite(t.reshape(t.shape[0], -1)).any(axis=1)
-    for var in ("t", "td"):
+    for var in [v for v in ("t", "td") if v in series]:
         at_level = series[var].sel(level=float(level), method="nearest")
         bad |= ~np.isfinite(np.asarray(at_level.transpose("time", ...).values, dtype=float))
     if "t2m" in series:

@@ -6,6 +6,15 @@ forecaster reads on a cross-section (theta-w, relative humidity, wind, the
 0 C and wet-bulb 0 C levels, potential vorticity and the dynamic tropopause,
 heights) and the frontal surface located on each level with its fitted slope.
 
+A thin run (``ds.attrs["thin"]``) gives a section without invented humidity:
+with no dew point on the levels the section holds no ``td``, ``tw``,
+``theta_w``, ``rh`` or wet-bulb 0 C level, and the frontal surface is located
+in theta, the field the run's fronts were found in (Thomas & Schultz 2019);
+``attrs["thermal_field"]`` is then ``"theta"`` and ``attrs["thin"]`` says what
+the run lacks. Geostrophic winds (``u.attrs["derived"]``) are named as such
+(``attrs["wind"] == "geostrophic"``). A section needs at least
+:data:`MIN_SECTION_LEVELS` pressure levels (:func:`check_section_levels`).
+
 Orientation (our choice): a section cut across a front runs **from the cold
 side to the warm side**, so the cold air is on the left of a figure and the
 frontal surface always leans up toward the left, for warm and cold fronts
@@ -54,6 +63,9 @@ __all__ = [
     "fit_frontal_slope",
     "compass_point",
     "select_time",
+    "check_section_levels",
+    "thermal_field",
+    "MIN_SECTION_LEVELS",
     "JET_MIN_MS",
     "RULE_ZONES_NM",
 ]
@@ -67,7 +79,13 @@ TROPOPAUSE_PVU = 2.0
 #: lies within 50-100 nm behind a cold front. Both are on the cold side.
 RULE_ZONES_NM = {"warm": (200.0, 300.0), "cold": (50.0, 100.0)}
 
-_REQUIRED = ("t", "td", "u", "v", "z")
+#: fewest pressure levels a section is drawn from [1]: with two there is one layer,
+#: no frontal surface to fit and nothing to contour between them (our choice)
+MIN_SECTION_LEVELS = 3
+
+_REQUIRED = ("t", "u", "v", "z")
+#: words for the thermal field of a section
+_FIELD_WORDS = {"theta_w": "theta-w", "theta": "theta"}
 _COMPASS = ("N", "NE", "E", "SE", "S", "SW", "W", "NW")
 
 
@@ -263,21 +281,64 @@ def _select_member(ds, member):
     return ds.sel(member=int(member))
 
 
+def thermal_field(ds):
+    """Thermal field a section of ``ds`` shows: ``theta_w``, or ``theta`` without humidity.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run or a section.
+
+    Returns
+    -------
+    str
+        ``"theta_w"`` when the run has dew point on its levels, else ``"theta"``
+        (a thin run; Thomas & Schultz 2019 find fronts in theta as well).
+    """
+    field = getattr(ds, "attrs", {}).get("thermal_field")
+    if field:
+        return str(field)
+    return "theta_w" if "td" in ds else "theta"
+
+
+def check_section_levels(ds):
+    """One-line error when a run has too few pressure levels for a section.
+
+    Parameters
+    ----------
+    ds : xarray.Dataset
+        Canonical run.
+
+    Raises
+    ------
+    kit.errors.InputError
+        Fewer than :data:`MIN_SECTION_LEVELS` levels: the message names the
+        run's levels and what a section needs.
+    """
+    run = ds.attrs.get("run", "?")
+    if "level" not in ds.dims:
+        raise InputError(f"run {run}: no pressure levels; a section needs at least "
+                         f"{MIN_SECTION_LEVELS}: expected a 'level' dimension [hPa]")
+    n = int(ds.sizes["level"])
+    if n < MIN_SECTION_LEVELS:
+        have = ", ".join(f"{p:g}" for p in np.asarray(ds["level"].values, float))
+        raise InputError(f"run {run}: only {n} pressure level{'s' if n != 1 else ''} ({have} "
+                         f"hPa); a cross-section needs at least {MIN_SECTION_LEVELS} from near "
+                         "the ground upward (e.g. 1000, 850, 700, 500 hPa): expected a run with "
+                         "more levels (its fronts and arrival table need only the front level)")
+
+
 def _at_time(ds, time, member):
     """Load the run at one valid time (and member), with the needed fields checked."""
     missing = [n for n in _REQUIRED if n not in ds]
-    if missing == ["td"] and ds.attrs.get("thin"):
-        raise InputError(f"run {ds.attrs.get('run', '?')}: no humidity on pressure levels (a "
-                         "thin run); a section needs dew point: expected humidity on the levels")
     if missing:
         raise InputError(f"run {ds.attrs.get('run', '?')}: variable(s) {', '.join(missing)} "
-                         "missing; expected t, td, u, v, z on pressure levels (canonical Dataset)")
-    if "level" not in ds.dims or ds.sizes["level"] < 3:
-        raise InputError(f"run {ds.attrs.get('run', '?')}: needs at least 3 pressure levels for "
-                         "a section; expected a 'level' dimension [hPa]")
+                         "missing; expected t, u, v, z (and td where the run has humidity) on "
+                         "pressure levels (canonical Dataset)")
+    check_section_levels(ds)
     ds = _select_member(ds, member)
     t = select_time(ds, time)
-    keep = [n for n in (*_REQUIRED, "precip", "t2m", "td2m", "mslp") if n in ds]
+    keep = [n for n in ("t", "td", "u", "v", "z", "precip", "t2m", "td2m", "mslp") if n in ds]
     # the CF grid-mapping variable of a projected grid, for exact point placement
     keep += sorted({ds[n].attrs["grid_mapping"] for n in _REQUIRED
                     if ds[n].attrs.get("grid_mapping") in ds.variables})
@@ -583,10 +644,16 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
                                           "distance along the section from its start"}),
                              "lat": ("distance", lat, {"units": "degrees_north"}),
                              "lon": ("distance", lon, {"units": "degrees_east"})})
+    humid = "td" in one  # a thin run without humidity: no dew point, theta instead of theta-w
+    geo_wind = one["u"].attrs.get("derived") == "geostrophic"
+    wind_word = "geostrophic wind" if geo_wind else "wind"
     for name, unit, long in (("t", "K", "air temperature"), ("td", "K", "dew point"),
-                             ("u", "m s-1", "eastward wind"), ("v", "m s-1", "northward wind"),
+                             ("u", "m s-1", f"eastward {wind_word}"),
+                             ("v", "m s-1", f"northward {wind_word}"),
                              ("z", "m", "geopotential height"), ("pv", "1e-6 K m2 kg-1 s-1",
                               "potential vorticity (1 PVU = 1e-6 K m2 kg-1 s-1)")):
+        if name == "td" and not humid:
+            continue
         sec[name] = flat[name].transpose(*dims2).astype(float)
         sec[name].attrs = {"units": unit, "long_name": long}
     if not np.isfinite(sec["t"].values).any():
@@ -595,20 +662,22 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
                          f"{ds.attrs.get('run', '?')}; expected points inside the model domain")
 
     pp = sec["level"]
-    sec["theta_w"] = thermo.wet_bulb_potential_temperature(sec["t"], sec["td"], pp)
-    sec["theta_w"].attrs = {"units": "K", "long_name": "wet-bulb potential temperature"}
+    if humid:
+        sec["theta_w"] = thermo.wet_bulb_potential_temperature(sec["t"], sec["td"], pp)
+        sec["theta_w"].attrs = {"units": "K", "long_name": "wet-bulb potential temperature"}
     sec["theta"] = thermo.potential_temperature(sec["t"], pp)
     sec["theta"].attrs = {"units": "K", "long_name": "potential temperature"}
-    sec["rh"] = thermo.relative_humidity(sec["t"], sec["td"])
-    sec["rh"].attrs = {"units": "1", "long_name": "relative humidity (fraction, cloud proxy)"}
-    sec["tw"] = thermo.wet_bulb_temperature(sec["t"], sec["td"], pp)
-    sec["tw"].attrs = {"units": "K", "long_name": "wet-bulb temperature"}
-    for name in ("theta_w", "theta", "rh", "tw"):
+    if humid:
+        sec["rh"] = thermo.relative_humidity(sec["t"], sec["td"])
+        sec["rh"].attrs = {"units": "1", "long_name": "relative humidity (fraction, cloud proxy)"}
+        sec["tw"] = thermo.wet_bulb_temperature(sec["t"], sec["td"], pp)
+        sec["tw"].attrs = {"units": "K", "long_name": "wet-bulb temperature"}
+    for name in [n for n in ("theta_w", "theta", "rh", "tw") if n in sec]:
         sec[name] = sec[name].transpose(*dims2)
 
     b = np.deg2rad(xr.DataArray(bearing, dims="distance"))
     sec["wind_speed"] = np.hypot(sec["u"], sec["v"]).transpose(*dims2)
-    sec["wind_speed"].attrs = {"units": "m s-1", "long_name": "wind speed"}
+    sec["wind_speed"].attrs = {"units": "m s-1", "long_name": f"{wind_word} speed"}
     sec["v_along"] = (sec["u"] * np.sin(b) + sec["v"] * np.cos(b)).transpose(*dims2)
     sec["v_along"].attrs = {"units": "m s-1", "long_name": "wind component along the section, "
                             "positive toward its end (front-normal wind on a section cut "
@@ -623,17 +692,23 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
     zz = sec["z"].values
     pp3 = np.broadcast_to(levels[:, None], zz.shape)
     hemi = np.where(lat < 0, -1.0, 1.0)
-    for name, (zc, pc), long in (
-        ("freezing_level", thermo.freezing_level(sec["t"].values, zz, dim=0, p=pp3),
+    crossings = [
+        ("freezing_level", lambda: thermo.freezing_level(sec["t"].values, zz, dim=0, p=pp3),
          "0 C level (highest 0 C crossing; the lowest level where the column is below 0 C)"),
-        ("wet_bulb_freezing_level", thermo.freezing_level(sec["tw"].values, zz, dim=0, p=pp3),
+        ("wet_bulb_freezing_level",
+         lambda: thermo.freezing_level(sec["tw"].values, zz, dim=0, p=pp3),
          "wet-bulb 0 C level (highest crossing; the lowest level where the column is below 0 C)"),
         ("dynamic_tropopause",
-         thermo.level_crossing(sec["pv"].values * hemi[None, :], zz, TROPOPAUSE_PVU, dim=0,
-                               p=pp3),
+         lambda: thermo.level_crossing(sec["pv"].values * hemi[None, :], zz, TROPOPAUSE_PVU,
+                                       dim=0, p=pp3),
          "dynamic tropopause: highest crossing of 2 PVU (-2 PVU south of the "
-         "equator), Hoskins, McIntyre & Robertson (1985)"),
-    ):
+         "equator), Hoskins, McIntyre & Robertson (1985)"
+         + ("; PV of the geostrophic wind" if geo_wind else "")),
+    ]
+    for name, crossing, long in crossings:
+        if name == "wet_bulb_freezing_level" and not humid:
+            continue
+        zc, pc = crossing()
         sec[f"{name}_m"] = ("distance", zc, {"units": "m", "long_name": long})
         sec[f"{name}_hpa"] = ("distance", pc, {"units": "hPa", "long_name": long})
     sec["pv_hemispheric"] = (sec["pv"] * xr.DataArray(hemi, dims="distance")).transpose(*dims2)
@@ -645,12 +720,17 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
         sec["precip"] = ("distance", flat["precip"].values.astype(float),
                          {"units": "mm h-1", "long_name": "surface precipitation "
                          "rate over the model step ending at the valid time"})
-    if "t2m" in flat and "td2m" in flat:
-        psfc = (flat["mslp"].values / 100.0) if "mslp" in flat else np.full(dist.shape, 1013.25)
+    psfc = (flat["mslp"].values / 100.0) if "mslp" in flat else np.full(dist.shape, 1013.25)
+    if humid and "t2m" in flat and "td2m" in flat:
         sec["theta_w_surface"] = ("distance", np.asarray(thermo.wet_bulb_potential_temperature(
             flat["t2m"].values, flat["td2m"].values, psfc), float),
             {"units": "K", "long_name": "wet-bulb potential temperature at 2 m (mslp as "
              "surface pressure)"})
+    elif not humid and "t2m" in flat:
+        sec["theta_surface"] = ("distance", np.asarray(thermo.potential_temperature(
+            flat["t2m"].values, psfc), float),
+            {"units": "K", "long_name": "potential temperature at 2 m (mslp as surface "
+             "pressure)"})
 
     ws = sec["wind_speed"].values
     attrs = {
@@ -679,6 +759,12 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
     if member is not None or "member" in ds.dims:
         attrs["member"] = int(member) if member is not None else int(
             np.atleast_1d(ds["member"].values)[0])
+    if ds.attrs.get("thin"):  # what a thin run lacks and what was done instead
+        attrs["thin"] = str(ds.attrs["thin"])
+    if not humid:
+        attrs["thermal_field"] = "theta"
+    if geo_wind:
+        attrs["wind"] = "geostrophic"
     sec.attrs = attrs
 
     _add_frontal_surface(sec, reference_km=reference_km, reference_hpa=reference_hpa,
@@ -689,14 +775,15 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
 
 
 def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smoothing_km):
-    pos, cold = locate_frontal_surface(sec, reference_km=reference_km,
+    field = thermal_field(sec)
+    pos, cold = locate_frontal_surface(sec, field=field, reference_km=reference_km,
                                        reference_hpa=reference_hpa, smoothing_km=smoothing_km)
     dist = sec["distance"].values
     zpos = np.array([np.interp(pk, dist, sec["z"].values[k]) if np.isfinite(pk) else np.nan
                      for k, pk in enumerate(pos)])
     sec["frontal_surface_km"] = ("level", pos, {"units": "km", "long_name":
-                                 "distance of the frontal surface (warm edge of the theta-w "
-                                 "gradient zone) on each level"})
+                                 f"distance of the frontal surface (warm edge of the "
+                                 f"{_FIELD_WORDS[field]} gradient zone) on each level"})
     sec["frontal_surface_z"] = ("level", zpos, {"units": "m", "long_name":
                                 "height of the frontal surface on each level"})
     fit = fit_frontal_slope(pos, zpos)
@@ -708,17 +795,19 @@ def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smooth
     sec.attrs["frontal_surface_leans_over_cold_air"] = int(bool(leans))
     sec.attrs["cold_side"] = {-1: "start", 1: "end"}.get(cold, "")
 
-    # surface front: on the 2 m theta-w when the run has it, else the lowest located level
+    # surface front: on the 2 m theta-w (theta on a thin run) when the run has it, else
+    # the lowest located level
     surf, how = np.nan, ""
-    if "theta_w_surface" in sec and cold != 0:
+    surface = f"{field}_surface"
+    if surface in sec and cold != 0:
         ref = pos[np.isfinite(pos)][0] if np.isfinite(pos).any() else reference_km
-        c = [c for c in _front_candidates(sec["theta_w_surface"].values, dist,
+        c = [c for c in _front_candidates(sec[surface].values, dist,
                                           smoothing_km or max(25.0, sec.attrs["grid_km"]))
              if c[2] == -cold]
         if c and ref is not None:
             best = min(c, key=lambda q: abs(q[0] - ref))
             if abs(best[0] - ref) <= 300.0:
-                surf, how = best[0], "2 m theta-w"
+                surf, how = best[0], f"2 m {_FIELD_WORDS[field]}"
     if not np.isfinite(surf) and np.isfinite(pos).any():
         k = int(np.flatnonzero(np.isfinite(pos))[0])
         surf, how = float(pos[k]), f"lowest located level ({sec['level'].values[k]:.0f} hPa)"
@@ -776,7 +865,11 @@ def section_between(ds, start, end, *, steps=None, spacing_km=10.0, time=None, m
         ``precip`` [mm h-1] when the run has it, ``rule_zone``; per level
         ``frontal_surface_km`` and ``frontal_surface_z``. Attributes: run,
         source, valid_time, lead_h, caution, compass ends, jet core, fitted
-        frontal slope ``frontal_slope_1_in``, ``surface_front_km``.
+        frontal slope ``frontal_slope_1_in``, ``surface_front_km``. On a run
+        without humidity: no ``td``, ``tw``, ``theta_w``, ``rh`` or wet-bulb
+        0 C level, the frontal surface in ``theta`` and the attributes
+        ``thermal_field`` ("theta") and ``thin``; ``wind`` ("geostrophic")
+        when the winds are geostrophic.
 
     Notes
     -----
@@ -1000,7 +1093,8 @@ def section_for_site(ds, site, time, *, fronts, front="nearest", length_km=1200.
     xarray.Dataset
         As :func:`section_across_front`. When ``front="nearest"`` and the run
         has no front at that time, the section runs through the site along the
-        ``level`` theta-w gradient (cold to warm) and ``front_kind`` is "".
+        ``level`` theta-w gradient (theta on a run without humidity; cold to
+        warm) and ``front_kind`` is "".
     """
     t = select_time(_select_member(ds, member), time)
     _require_data_at(_select_member(ds, member), t)
@@ -1036,13 +1130,14 @@ def _require_data_at(ds, t):
 
 
 def _section_along_gradient(ds, site, t, member, length_km, spacing_km, level):
-    """Fallback without a front: through the site along the theta-w gradient."""
+    """Fallback without a front: through the site along the theta-w (or theta) gradient."""
     slat, slon, sname = _point_of(site)
     # probe theta-w 100 km east/west/north/south of the site on `level`
     lon, lat = destination(np.full(4, slon), np.full(4, slat),
                            np.array([90.0, 270.0, 0.0, 180.0]), 100.0)
     probe = _build(ds, lat, lon, np.array([0.0, 200.0, 400.0, 600.0]), np.zeros(4), t, member)
-    tw = probe["theta_w"].sel(level=level, method="nearest").values
+    field = thermal_field(probe)
+    tw = probe[field].sel(level=level, method="nearest").values
     ge, gn = tw[0] - tw[1], tw[2] - tw[3]
     bearing = math.degrees(math.atan2(ge, gn)) % 360.0 if np.isfinite([ge, gn]).all() and \
         (ge or gn) else 90.0
@@ -1054,5 +1149,5 @@ def _section_along_gradient(ds, site, t, member, length_km, spacing_km, level):
     sec.attrs.update(front_kind="", site_km=float(half), site_name=sname, site_lat=slat,
                      site_lon=slon, section_bearing_deg=float(bearing),
                      note=f"no front at {iso_minutes(t)}; section along the {level:.0f} hPa "
-                     "theta-w gradient, cold to warm")
+                     f"{_FIELD_WORDS[field]} gradient, cold to warm")
     return sec

@@ -196,7 +196,7 @@ class FrontPanel:
     def _build_controls(self, level, field):
         lay = widgets.Layout
         self.message = widgets.HTML(value="")
-        self.path_text = widgets.Text(placeholder="RUN: NetCDF file, glob or folder",
+        self.path_text = widgets.Text(placeholder="RUN: GRIB or NetCDF file, glob or folder",
                                       description="Open run", layout=lay(width="60%"))
         self.open_button = widgets.Button(description="Open", icon="folder-open",
                                           tooltip="open the run typed on the left")
@@ -222,7 +222,7 @@ class FrontPanel:
         self.apply_button = widgets.Button(description="Apply", icon="check",
                                            tooltip="find the fronts with these thresholds")
         self.restore_button = widgets.Button(description="Restore defaults", icon="undo",
-                                             layout=lay(width="auto"))
+                                             layout=lay(width="auto", min_width="150px"))
         self.units_note = widgets.HTML(
             "<span style='font-size:85%;color:#5d6b75'>front masks: K1 [K (100 km)<sup>-2</sup>]"
             " on the thermal front parameter, K2 [K (100 km)<sup>-1</sup>] on the gradient; "
@@ -239,6 +239,9 @@ class FrontPanel:
                                                  tooltip="GeoJSON of the run's fronts")
         self.map_image = widgets.Image(format="png", layout=lay(max_width="100%"))
         self.section_image = widgets.Image(format="png", layout=lay(max_width="100%"))
+        # shown until a section is drawn (an empty image widget shows as a broken image)
+        self.section_hint = widgets.HTML(
+            "<span style='color:#5d6b75'>Pick a site and a front, then press Section.</span>")
         widgets.jslink((self.play, "value"), (self.time_slider, "index"))
         self._k_defaults_shown = False
 
@@ -259,25 +262,31 @@ class FrontPanel:
         self.save_fronts_button.on_click(lambda _b: self._guard(self.save_fronts))
 
         self.map_tab = widgets.VBox([self.map_image])
-        self.section_tab = widgets.VBox([
-            widgets.HBox([self.site_pick, self.front_pick, self.section_button]),
-            self.section_image,
-        ])
+        self.section_controls = widgets.HBox([self.site_pick, self.front_pick,
+                                              self.section_button])
+        self.section_tab = widgets.VBox([self.section_controls, self.section_hint])
         self.views = widgets.Tab(children=[self.map_tab, self.section_tab])
         self.views.set_title(0, "Map")
         self.views.set_title(1, "Section")
+        # the map comes first (above the fold at 1400 x 1000); the front-finding
+        # thresholds are an advanced setting, folded away under the views
+        self.thresholds = widgets.VBox([
+            widgets.HBox([self.k1_text, self.k2_text, self.smooth_text, self.minlen_text]),
+            widgets.HBox([self.apply_button, self.restore_button]),
+            self.units_note,
+        ])
+        self.advanced = widgets.Accordion(children=[self.thresholds], selected_index=None)
+        self.advanced.set_title(0, "Advanced: front-finding thresholds")
         self.widget = widgets.VBox([
             caution_banner(),
             widgets.HBox([self.path_text, self.open_button]),
             widgets.HBox([self.run_pick, self.level_pick, self.field_pick]),
             widgets.HBox([self.play, self.time_slider]),
-            widgets.HBox([self.k1_text, self.k2_text, self.smooth_text, self.minlen_text,
-                          self.apply_button, self.restore_button]),
-            self.units_note,
-            widgets.HBox([self.save_map_button, self.save_section_button,
-                          self.save_fronts_button]),
             self.message,
             self.views,
+            widgets.HBox([self.save_map_button, self.save_section_button,
+                          self.save_fronts_button]),
+            self.advanced,
         ])
         self.widget.controller = self
 
@@ -487,6 +496,7 @@ class FrontPanel:
             self._section_fig.clear()
         self._section_fig = section_figure(sec)
         self.section_image.value = _png(self._section_fig, self.dpi)
+        self.section_tab.children = [self.section_controls, self.section_image]
         self.stats["section_draws"] += 1
         self.views.selected_index = 1
         where = f" through {site['name']}" if site is not None else ""
