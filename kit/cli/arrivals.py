@@ -41,7 +41,7 @@ def add_parser(subparsers):
         "runs",
         metavar="RUN",
         nargs="+",
-        help="NetCDF file, glob or folder of one model run; several = runs/members "
+        help="GRIB or NetCDF file, glob or folder of one model run; several = runs/members "
         "of one event (the first is the one the timelines show)",
     )
     p.add_argument(
