@@ -59,7 +59,8 @@ def add_parser(subparsers):
         "writes the figure, .nc the section data (CF NetCDF).",
         epilog=CAUTION,
     )
-    p.add_argument("run", metavar="RUN", help="GRIB or NetCDF file, glob or folder of one model run")
+    p.add_argument("run", metavar="RUN",
+                   help="GRIB or NetCDF file, glob or folder of one model run")
     p.add_argument("--site", required=True, metavar="NAME", help="site name in the sites CSV")
     p.add_argument("--time", required=True, metavar="ISO",
                    help="valid time (UTC), e.g. 2027-01-14T06:00Z")

@@ -25,8 +25,8 @@ def add_parser(subparsers):
         epilog=CAUTION,
     )
     p.add_argument("runs", metavar="RUN", nargs="+",
-                   help="GRIB or NetCDF file, glob or folder of one model run; several = runs/members "
-                   "of one event")
+                   help="GRIB or NetCDF file, glob or folder of one model run; several = "
+                   "runs/members of one event")
     p.add_argument("--sites", required=True, metavar="SITES.csv",
                    help="site list CSV (name,lat,lon[,elevation_m])")
     p.add_argument("--out", required=True, metavar="DIR",
