@@ -328,6 +328,26 @@ class Front:
             return float(self.speed_ms)
         return self.speed_tracked_ms
 
+    @property
+    def speed_best_ms(self) -> float:
+        """The one speed given to people [m s-1], + toward the cold side.
+
+        The tracked speed where the front's track has two or more times, else
+        the front-normal steering wind ``speed_ms`` (:attr:`speed_source` says
+        which). Map labels, ``speed_kt`` in fronts.csv and GeoJSON, and the
+        notebook tables all give this one quantity.
+        """
+        tracked = self.speed_tracked_ms
+        if tracked is not None and math.isfinite(tracked):
+            return float(tracked)
+        return float(self.speed_ms)
+
+    @property
+    def speed_source(self) -> str:
+        """Where :attr:`speed_best_ms` comes from: ``"tracked"`` or ``"front-normal wind"``."""
+        tracked = self.speed_tracked_ms
+        return "tracked" if tracked is not None and math.isfinite(tracked) else "front-normal wind"
+
 
 @dataclass(frozen=True)
 class Track:
@@ -442,6 +462,34 @@ class Analysis:
         return motion_table(self.fronts)
 
 
+def people_speed(fr):
+    """Return the speed columns of one front, the same in every product.
+
+    ``speed_ms`` [m s-1, one decimal] is :attr:`Front.speed_best_ms`, signed
+    (+ toward the cold side, the CF/GeoJSON contract); for people ``speed_kt``
+    is its size in whole knots and ``moving_toward`` says which way
+    (``"cold side"``, ``"warm side"``; a cold front advancing moves toward the
+    warm side); ``speed_source`` says whether the speed was tracked or is the
+    front-normal wind; ``speed_wind_ms`` keeps the wind-based speed (the
+    speeds step's when it ran, else the detection's front-normal wind).
+    """
+    best = fr.speed_best_ms
+    if not math.isfinite(best):
+        return {"speed_ms": None, "speed_kt": None, "moving_toward": None,
+                "speed_source": None, "speed_wind_ms": None}
+    wind = float(fr.speed_ms)
+    own = None if fr.motion is None else fr.motion.speed_wind_ms
+    if own is not None and math.isfinite(own):
+        wind = float(own)  # the speeds step's own wind-based speed
+    return {
+        "speed_ms": round(best, 1),
+        "speed_kt": int(round(abs(best) * KT_PER_MS)),
+        "moving_toward": "cold side" if best >= 0 else "warm side",
+        "speed_source": fr.speed_source,
+        "speed_wind_ms": round(wind, 1) if math.isfinite(wind) else None,
+    }
+
+
 def front_properties(fr):
     """Return the GeoJSON properties of one front: identity, then ``fr.props``, JSON-clean."""
     props = {
@@ -449,10 +497,7 @@ def front_properties(fr):
         "valid_time": iso_seconds(fr.valid_time),
         "level_hpa": json_clean(fr.level_hpa),
         "length_km": None if not math.isfinite(fr.length_km) else round(float(fr.length_km), 1),
-        "speed_ms": None if not math.isfinite(fr.speed_ms) else round(float(fr.speed_ms), 2),
-        "speed_kt": None
-        if not math.isfinite(fr.speed_ms)
-        else round(float(fr.speed_ms) * KT_PER_MS, 1),
+        **people_speed(fr),
         "track": None if fr.track is None else int(fr.track),
         "run": fr.run,
         "member": None if fr.member is None else int(fr.member),
@@ -473,9 +518,10 @@ def fronts_table(fronts):
     Returns
     -------
     pandas.DataFrame
-        Columns ``kind, valid_time, level_hpa, length_km, speed_ms, speed_kt,
-        track, run, member`` then every key of ``props``; ``attrs["caution"]``
-        holds :data:`kit.CAUTION`.
+        Columns ``kind, valid_time, level_hpa, length_km``, the speed columns
+        of :func:`people_speed` (``speed_ms, speed_kt, moving_toward,
+        speed_source, speed_wind_ms``), ``track, run, member`` then every key
+        of ``props``; ``attrs["caution"]`` holds :data:`kit.CAUTION`.
     """
     base = [
         "kind",
@@ -484,6 +530,9 @@ def fronts_table(fronts):
         "length_km",
         "speed_ms",
         "speed_kt",
+        "moving_toward",
+        "speed_source",
+        "speed_wind_ms",
         "track",
         "run",
         "member",
@@ -497,8 +546,7 @@ def fronts_table(fronts):
             "valid_time": pd.Timestamp(fr.valid_time),
             "level_hpa": float(fr.level_hpa),
             "length_km": float(fr.length_km),
-            "speed_ms": float(fr.speed_ms),
-            "speed_kt": float(fr.speed_ms) * KT_PER_MS,
+            **people_speed(fr),
             "track": pd.NA if fr.track is None else int(fr.track),
             "run": fr.run,
             "member": pd.NA if fr.member is None else int(fr.member),
@@ -518,14 +566,18 @@ def motion_table(fronts):
     """One row per front with the speeds three ways in m/s and knots and the slopes.
 
     :func:`fronts_table` without the per-vertex ``vn_tracked``, plus
-    ``speed_tracked_kt``, ``speed_wind_kt``, ``speed_geostrophic_rule_kt`` [kt]
-    (positive toward the cold side); ``attrs["caution"]`` holds :data:`kit.CAUTION`.
+    ``speed_tracked_kt``, ``speed_wind_kt``, ``speed_geostrophic_rule_kt`` [kt,
+    whole knots] (positive toward the cold side); every speed in m/s to one
+    decimal; ``attrs["caution"]`` holds :data:`kit.CAUTION`.
     """
     df = fronts_table(fronts)
     df = df.drop(columns=[c for c in ("vn_tracked",) if c in df])  # per-vertex lists
-    for name in ("speed_tracked", "speed_wind", "speed_geostrophic_rule"):
+    for name in ("speed_tracked", "speed_wind", "speed_geostrophic_normal",
+                 "speed_geostrophic_rule"):
         col = f"{name}_ms"
         if col in df:
-            df[f"{name}_kt"] = (df[col].astype(float) * KT_PER_MS).round(1)
+            values = pd.to_numeric(df[col], errors="coerce").astype(float)
+            df[col] = values.round(1)
+            df[f"{name}_kt"] = (values * KT_PER_MS).round(0)
     df.attrs["caution"] = CAUTION
     return df

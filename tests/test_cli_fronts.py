@@ -30,7 +30,8 @@ def write_run(
     contrast_k=7.0,
     empty_last=False,
 ):
-    """A CF run: tanh theta-w zone near 50 N, 10 E, moving east with the wind."""
+    """A CF run: tanh theta-w zone near 50 N, 10 E, moving east 100 km per 6 h (toward
+    its warm side), while the wind blows west (toward its cold side) at ``wind_to_cold``."""
     lat = np.arange(40.0, 60.01, 0.5)
     lon = np.arange(-5.0, 25.01, 0.5)
     lon2, lat2 = np.meshgrid(lon, lat)
@@ -123,7 +124,12 @@ def test_fronts_command_writes_the_geojson_contract(run_file, tmp_path, capsys):
         ):
             assert key in p
         assert p["kind"] == "warm" and p["level_hpa"] == 850.0
-        assert p["speed_ms"] == pytest.approx(6.0, abs=0.3)
+        # one speed for people (issue 16): tracked, 100 km in 6 h toward the warm side;
+        # the front-normal wind is kept apart
+        assert p["speed_source"] == "tracked" and p["moving_toward"] == "warm side"
+        assert p["speed_ms"] == pytest.approx(-100e3 / 6 / 3600, abs=0.3)
+        assert p["speed_kt"] == round(abs(p["speed_ms"]) * 3600 / 1852)
+        assert p["speed_wind_ms"] == pytest.approx(6.0, abs=0.3)
         assert p["valid_time"].endswith("Z") and len(p["valid_time"]) == 20
         assert p["run"] == "2030-01-14T00Z"
         times.add(p["valid_time"])

@@ -562,9 +562,12 @@ def test_geojson_contract():
     p = feat["properties"]
     assert p["kind"] == "warm" and p["valid_time"] == "2030-01-01T00:00:00Z"
     assert p["level_hpa"] == 1000.0 and p["track"] == 7 and p["run"] == "synthetic"
-    assert p["member"] is None and p["speed_wind_ms"] is None
-    assert p["speed_ms"] == round(fronts[0].speed_ms, 2)
-    assert p["speed_kt"] == pytest.approx(fronts[0].speed_ms * 3600 / 1852, abs=0.06)
+    assert p["member"] is None
+    # untracked: the one speed is the front-normal wind (issue 16: one speed everywhere)
+    assert p["speed_source"] == "front-normal wind"
+    assert p["speed_ms"] == round(fronts[0].speed_ms, 1) == p["speed_wind_ms"]
+    assert p["speed_kt"] == round(abs(fronts[0].speed_ms) * 3600 / 1852)
+    assert p["moving_toward"] == ("cold side" if fronts[0].speed_ms >= 0 else "warm side")
     assert p["length_km"] == pytest.approx(fronts[0].length_km, abs=0.06)
     lon, lat = np.array(feat["geometry"]["coordinates"]).T
     np.testing.assert_allclose(lon, fronts[0].lon, atol=6e-5)
@@ -574,19 +577,22 @@ def test_geojson_contract():
 def test_fronts_table_columns():
     fronts = F.find_fronts(zone_latlon(50.0, 0.0, 0.5), level=1000.0, settings=settings())
     df = fronts_table(fronts)
-    assert list(df.columns[:9]) == [
+    assert list(df.columns[:12]) == [
         "kind",
         "valid_time",
         "level_hpa",
         "length_km",
         "speed_ms",
         "speed_kt",
+        "moving_toward",
+        "speed_source",
+        "speed_wind_ms",
         "track",
         "run",
         "member",
     ]
     assert "tfp_mean_K_100km2" in df.columns and df.attrs["caution"] == CAUTION
-    assert df["speed_kt"].iloc[0] == pytest.approx(df["speed_ms"].iloc[0] * 3600 / 1852)
+    assert df["speed_kt"].iloc[0] == round(abs(fronts[0].speed_ms) * 3600 / 1852)
     assert list(fronts_table([]).columns[:3]) == ["kind", "valid_time", "level_hpa"]
 
 

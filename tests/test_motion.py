@@ -631,9 +631,9 @@ def test_motion_table_knots():
         motion=FrontMotion(10.0, 15.0, None, None, "mslp", ""),
     )
     df = motion_table([fr])
-    # 1 kt = 1852 m / 3600 s (definition of the nautical mile)
-    assert df["speed_tracked_kt"].iloc[0] == pytest.approx(19.4, abs=0.05)
-    assert df["speed_wind_kt"].iloc[0] == pytest.approx(15.0 * KT_PER_MS, abs=0.05)
+    # 1 kt = 1852 m / 3600 s (definition of the nautical mile); whole knots for people
+    assert df["speed_tracked_kt"].iloc[0] == 19.0  # 19.44 kt
+    assert df["speed_wind_kt"].iloc[0] == round(15.0 * KT_PER_MS)
     assert np.isnan(df["speed_geostrophic_rule_kt"].iloc[0])
     assert "Decision support only" in df.attrs["caution"]
     assert "vn_tracked" not in df.columns

@@ -38,8 +38,9 @@ from PIL import Image  # noqa: E402
 
 from kit.charts import style  # noqa: E402
 from kit.charts.coast import add_coastlines  # noqa: E402
-from kit.constants import KT_PER_MS, T0_K  # noqa: E402
+from kit.constants import T0_K  # noqa: E402
 from kit.errors import InputError  # noqa: E402
+from kit.model import people_speed  # noqa: E402
 from kit.science import thermo  # noqa: E402
 from kit.science.domain import below_ground  # noqa: E402
 from kit.timefmt import iso_minutes  # noqa: E402
@@ -380,13 +381,8 @@ def _front_effect(kind, size, spacing=1.6):
 
 
 def _speed_kt(front):
-    for key in ("speed_tracked_ms",):
-        value = front.props.get(key) if front.props else None
-        if value is not None and np.isfinite(value):
-            return abs(float(value)) * KT_PER_MS
-    if front.speed_ms is not None and np.isfinite(front.speed_ms):
-        return abs(float(front.speed_ms)) * KT_PER_MS
-    return None
+    """Give the front's speed label [kt]: the same number as ``speed_kt`` in fronts.csv."""
+    return people_speed(front)["speed_kt"]
 
 
 def map_pieces(ax, lon, lat):
