@@ -15,7 +15,14 @@ from pathlib import Path
 
 from kit import CAUTION
 from kit.charts.timelines import timeline_figure
-from kit.cli.common import load_runs, output_path
+from kit.cli.common import (
+    add_latest_argument,
+    add_sites_argument,
+    load_runs,
+    output_path,
+    resolve_runs,
+    sites_file,
+)
 from kit.errors import InputError, OutputError
 from kit.io.sites import check_sites_on_grid, read_sites
 from kit.pipeline import analyse
@@ -42,14 +49,10 @@ def add_parser(subparsers):
         metavar="RUN",
         nargs="+",
         help="GRIB or NetCDF file, glob or folder of one model run; several = runs/members "
-        "of one event (the first is the one the timelines show)",
+        "of one event (the timelines show the newest: the latest reference time)",
     )
-    p.add_argument(
-        "--sites",
-        required=True,
-        metavar="SITES.csv",
-        help="site list CSV: name,lat,lon[,elevation_m]",
-    )
+    add_sites_argument(p)
+    add_latest_argument(p)
     p.add_argument("--out", required=True, metavar="FILE", help="output table: .csv or .html")
     p.add_argument(
         "--overwrite", action="store_true", help="replace existing output files (never silent)"
@@ -103,8 +106,12 @@ def run(args):
     tl_dir = Path(args.timelines) if args.timelines else None
     if tl_dir is not None and tl_dir.exists() and not tl_dir.is_dir():
         raise InputError(f"--timelines {tl_dir}: is a file; expected a folder")
-    sites = read_sites(args.sites)
-    runs = load_runs(args.runs)
+    run_args = resolve_runs(args.runs, args.latest)
+    sites_path = sites_file(args.sites, run_args)
+    sites = read_sites(sites_path)
+    if not args.sites:
+        print(f"sites from {sites_path}")
+    runs = load_runs(run_args)
     for ds in runs:
         check_sites_on_grid(sites, ds)
     analyses = [analyse(ds, level=args.level) for ds in runs]
@@ -134,7 +141,7 @@ def run(args):
     for line in thin_notes(table):
         print(line)
     if tl_dir is not None:
-        first = str(runs[0].attrs.get("run", "run1"))
+        first = str(runs[-1].attrs.get("run", "run1"))  # the newest run
         for _, site in sites.iterrows():
             key = next(k for k in series if k[0] == first and k[2] == site["name"])
             rows = table[table["site"] == site["name"]]
@@ -142,5 +149,5 @@ def run(args):
             path = save_figure(
                 fig, tl_dir / f"timeline_{_slug(site['name'])}.png", overwrite=args.overwrite
             )
-            print(f"timeline {path}")
+            print(f"timeline {path} (run {first}, the newest)")
     return 0

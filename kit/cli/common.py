@@ -1,11 +1,31 @@
-"""Argument helpers shared by the sub-commands."""
+"""Argument helpers shared by the sub-commands: runs, ``--latest``, ``--sites``, ``--out``.
 
+"Newest" means the latest reference time, everywhere: :func:`load_runs` returns
+the runs oldest first, so the last is the newest whatever order they were
+listed in; ``--latest N`` keeps the N newest runs of the RUN arguments (a
+folder of run folders gives each of its run folders).
+"""
+
+import glob
 from pathlib import Path
 
+import numpy as np
+
 from kit.errors import InputError
+from kit.io.discover import GRIB_SUFFIXES, NETCDF_SUFFIXES, file_kind
 from kit.io.runs import open_run
 
-__all__ = ["add_runs_argument", "add_output_arguments", "load_runs", "output_path"]
+__all__ = [
+    "add_latest_argument",
+    "add_runs_argument",
+    "add_output_arguments",
+    "add_sites_argument",
+    "find_sites_file",
+    "load_runs",
+    "output_path",
+    "resolve_runs",
+    "sites_file",
+]
 
 
 def add_runs_argument(parser, single=False):
@@ -45,6 +65,130 @@ def output_path(value, suffixes):
     return path
 
 
+def add_latest_argument(parser):
+    """Add ``--latest N``: only the N newest runs (latest reference times) of the RUNs."""
+    parser.add_argument(
+        "--latest", type=int, metavar="N", default=None,
+        help="only the N newest runs (latest reference time) of the RUN arguments; a folder "
+        "of run folders gives each run folder",
+    )
+
+
+def add_sites_argument(parser):
+    """Add ``--sites``: default the first sites.csv beside the runs or in a folder above."""
+    parser.add_argument(
+        "--sites", metavar="SITES.csv", default=None,
+        help="site list CSV (name,lat,lon[,elevation_m]); default: the first sites.csv beside "
+        "the first RUN or in the folders above it",
+    )
+
+
+def reference_time(ds):
+    """Return the reference time of a canonical run [datetime64[ns]] (NaT when it has none)."""
+    if "reference_time" in ds.coords:
+        return np.datetime64(ds["reference_time"].values, "ns")
+    return np.datetime64("NaT", "ns")
+
+
 def load_runs(run_args, member=None):
-    """Open every RUN argument with :func:`kit.io.runs.open_run`; list of canonical Datasets."""
-    return [open_run(arg, member=member) for arg in run_args]
+    """Open every RUN with :func:`kit.io.runs.open_run`, oldest first (the last is newest).
+
+    Runs are ordered by reference time; runs of the same reference time (members
+    in separate folders) keep the order given.
+    """
+    runs = [open_run(arg, member=member) for arg in run_args]
+    order = sorted(range(len(runs)), key=lambda i: (reference_time(runs[i]), i))
+    return [runs[i] for i in order]
+
+
+def _has_data_files(folder):
+    return any(
+        p.is_file() and not p.name.startswith(".")
+        and (p.suffix.lower() in NETCDF_SUFFIXES + GRIB_SUFFIXES or file_kind(p) is not None)
+        for p in folder.iterdir()
+    )
+
+
+def _run_folders(arg):
+    """List the runs one RUN argument names: itself, or each run folder of a folder of runs."""
+    path = Path(arg)
+    if path.is_dir() and not _has_data_files(path):
+        subs = sorted(p for p in path.iterdir() if p.is_dir() and not p.name.startswith("."))
+        runs = [str(p) for p in subs if _has_data_files(p)]
+        if runs:
+            return runs
+    return [str(arg)]
+
+
+def resolve_runs(run_args, latest=None):
+    """Return the RUN arguments to open: as given, or the ``latest`` newest of them, oldest first.
+
+    Parameters
+    ----------
+    run_args : list of str
+        RUN arguments (files, globs, folders, or folders of run folders).
+    latest : int, optional
+        Keep only this many runs, those with the latest reference times.
+
+    Returns
+    -------
+    list of str
+    """
+    if latest is None:
+        return list(run_args)
+    if latest < 1:
+        raise InputError(f"--latest {latest}: expected a whole number of runs, 1 or more")
+    cands = [r for arg in run_args for r in _run_folders(arg)]
+    refs = [reference_time(open_run(r)) for r in cands]
+    order = sorted(range(len(cands)), key=lambda i: (refs[i], i))
+    return [cands[i] for i in order][-latest:]
+
+
+def _start_folder(run_arg):
+    """Return the folder to start the sites.csv search from (file, folder or glob)."""
+    path = Path(run_arg)
+    if path.is_dir():
+        return path.resolve()
+    if path.is_file():
+        return path.resolve().parent
+    if glob.has_magic(str(run_arg)):
+        head = Path(run_arg)
+        while glob.has_magic(str(head)) and head != head.parent:
+            head = head.parent
+        if head.is_dir():
+            return head.resolve()
+    raise InputError(f"RUN {run_arg}: no such file, folder or matching files; expected a GRIB "
+                     "or NetCDF file, a glob or a folder of one model run")
+
+
+def find_sites_file(run_arg, max_up=5):
+    """Find the first ``sites.csv`` in the RUN folder or up to ``max_up`` folders above.
+
+    Parameters
+    ----------
+    run_arg : str
+        The RUN argument (file, folder or glob).
+    max_up : int
+        How many parent folders to look in.
+
+    Returns
+    -------
+    pathlib.Path
+    """
+    folder = _start_folder(run_arg)
+    for _ in range(max_up + 1):
+        cand = folder / "sites.csv"
+        if cand.is_file():
+            return cand
+        if folder.parent == folder:
+            break
+        folder = folder.parent
+    raise InputError(f"RUN {run_arg}: no sites.csv beside the run or in the folders above it; "
+                     "pass --sites SITES.csv")
+
+
+def sites_file(sites_arg, run_args):
+    """Return the site list to use: ``--sites``, else the sites.csv found for the first RUN."""
+    if sites_arg:
+        return Path(sites_arg)
+    return find_sites_file(run_args[0])

@@ -13,7 +13,7 @@ from pathlib import Path
 import numpy as np
 
 from kit import CAUTION
-from kit.cli.common import load_runs, output_path
+from kit.cli.common import add_latest_argument, load_runs, output_path, resolve_runs
 from kit.errors import InputError, OutputError
 from kit.pipeline import analyse
 from kit.products.files import write_json
@@ -69,6 +69,7 @@ def add_parser(subparsers):
         metavar="N",
         help="analyse only ensemble member N (default: every member)",
     )
+    add_latest_argument(p)
     p.add_argument(
         "--smoothing-km",
         type=float,
@@ -111,7 +112,7 @@ def run(args):
     if not (args.level > 0):
         raise InputError(f"--level {args.level:g}: expected a pressure level in hPa above 0")
     settings = _settings(args)
-    runs = load_runs(args.runs, member=args.member)
+    runs = load_runs(resolve_runs(args.runs, args.latest), member=args.member)
     fronts = []
     analyses = []
     for ds in runs:

@@ -12,14 +12,13 @@ line printed; a run with fewer than three pressure levels is refused in one
 line before any analysis (its fronts and arrival table can still be made).
 """
 
-import glob
 import os
 import tempfile
 from pathlib import Path
 
 from kit import CAUTION
 from kit.charts.sections import section_figure
-from kit.cli.common import output_path
+from kit.cli.common import find_sites_file, output_path
 from kit.errors import InputError, OutputError
 from kit.io.runs import open_run
 from kit.io.sites import check_sites_on_grid, read_sites
@@ -81,49 +80,6 @@ def add_parser(subparsers):
     p.add_argument("--overwrite", action="store_true",
                    help="replace an existing output file (never silent)")
     p.set_defaults(func=run)
-
-
-def _start_folder(run_arg):
-    """Return the folder to start the sites.csv search from (file, folder or glob)."""
-    path = Path(run_arg)
-    if path.is_dir():
-        return path.resolve()
-    if path.is_file():
-        return path.resolve().parent
-    if glob.has_magic(str(run_arg)):
-        head = Path(run_arg)
-        while glob.has_magic(str(head)) and head != head.parent:
-            head = head.parent
-        if head.is_dir():
-            return head.resolve()
-    raise InputError(f"RUN {run_arg}: no such file, folder or matching files; expected a NetCDF "
-                     "file, a glob or a folder of one model run")
-
-
-def find_sites_file(run_arg, max_up=5):
-    """Find the first ``sites.csv`` in the RUN folder or up to ``max_up`` folders above.
-
-    Parameters
-    ----------
-    run_arg : str
-        The RUN argument (file, folder or glob).
-    max_up : int
-        How many parent folders to look in.
-
-    Returns
-    -------
-    pathlib.Path
-    """
-    folder = _start_folder(run_arg)
-    for _ in range(max_up + 1):
-        cand = folder / "sites.csv"
-        if cand.is_file():
-            return cand
-        if folder.parent == folder:
-            break
-        folder = folder.parent
-    raise InputError(f"RUN {run_arg}: no sites.csv beside the run or in the folders above it; "
-                     "pass --sites SITES.csv")
 
 
 def lookup_site(sites, name, where):

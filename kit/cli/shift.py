@@ -8,6 +8,7 @@ product it could not carry and why.
 import json
 
 from kit import CAUTION
+from kit.cli.common import add_latest_argument, add_sites_argument, resolve_runs, sites_file
 from kit.products.shift import write_shift_products
 
 __all__ = ["add_parser", "run"]
@@ -27,8 +28,8 @@ def add_parser(subparsers):
     p.add_argument("runs", metavar="RUN", nargs="+",
                    help="GRIB or NetCDF file, glob or folder of one model run; several = "
                    "runs/members of one event")
-    p.add_argument("--sites", required=True, metavar="SITES.csv",
-                   help="site list CSV (name,lat,lon[,elevation_m])")
+    add_sites_argument(p)
+    add_latest_argument(p)
     p.add_argument("--out", required=True, metavar="DIR",
                    help="parent folder; the products go into a new sub-folder of it")
     p.add_argument("--level", type=float, default=850.0, metavar="HPA",
@@ -48,8 +49,12 @@ def add_parser(subparsers):
 
 def run(args):
     """Write every shift product; print the folder; return 0."""
+    run_args = resolve_runs(args.runs, args.latest)
+    sites_path = sites_file(args.sites, run_args)
+    if not args.sites:
+        print(f"sites from {sites_path}")
     folder = write_shift_products(
-        args.runs, args.sites, args.out, level=args.level, field=args.field,
+        run_args, sites_path, args.out, level=args.level, field=args.field,
         maps_every_h=args.maps_every_h, max_sections=args.max_sections,
         overwrite=args.overwrite, progress=not args.quiet,
     )

@@ -326,10 +326,19 @@ class FrontPanel:
                 options.append((lab, (i, None)))
         quiet, self._quiet = self._quiet, True
         self.run_pick.options = options
-        # the run added last (the newest, as RUN lists read) is the one shown
-        self.run_pick.value = next(v for _t, v in options if v[0] == len(self.runs) - 1)
+        # the newest run (latest reference time, as everywhere in the kit) is shown
+        self.run_pick.value = next(v for _t, v in options if v[0] == self._newest_index())
         self._quiet = quiet
         return label
+
+    def _newest_index(self):
+        """Index of the run with the latest reference time (the last added among equals)."""
+        def ref(i):
+            ds = self.runs[i]
+            if "reference_time" in ds.coords:
+                return np.datetime64(ds["reference_time"].values, "ns")
+            return np.datetime64("NaT", "ns")
+        return max(range(len(self.runs)), key=lambda i: (ref(i), i))
 
     def _open_typed(self):
         path = self.path_text.value.strip()
