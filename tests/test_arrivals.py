@@ -231,11 +231,26 @@ def test_surface_projection_from_slope():
     over a 0 m site: 72.9 km ahead, at 10 m/s 2.02 h earlier [analytic].
     """
     ds, fronts = make_run(kind="cold", passage_h=12.0)
+    ds = ds.drop_vars(["t2m", "td2m"])  # no 2-m field: the surface front is estimated
     fronts = [f.replace(structure=FrontStructure(50.0, None, None, 50.0)) for f in fronts]
     row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=True).iloc[0]
     shift_km = std_height(850.0) * 50.0 / 1000.0
     assert row["surface_offset_km"] == pytest.approx(shift_km, abs=1.0)
     assert hours_of(row["passage_utc"]) == pytest.approx(12.0 - shift_km / 36.0, abs=10 / 60)
+    assert row["passage_from"].startswith("estimated: 850 hPa line")
+
+
+@pytest.mark.parametrize("kind", ["cold", "warm"])
+def test_surface_front_measured_in_the_2m_field(kind):
+    """Issue 16: one surface front. With 2-m fields the passage is that of the 2-m zone's
+    centre (this run's 2-m zone is centred on the line's zone: crossing at 12 UTC), even
+    though the slope would move an estimate 2 h earlier (cold) or later (warm)."""
+    ds, fronts = make_run(kind=kind, passage_h=12.0)
+    fronts = [f.replace(structure=FrontStructure(50.0, None, None, 50.0)) for f in fronts]
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=True).iloc[0]
+    assert row["passage_from"] == "centre of the 2 m theta-w zone"
+    # 10 km profile spacing on a 0.5-degree grid, 10 m/s: within 15 minutes
+    assert hours_of(row["passage_utc"]) == pytest.approx(12.0, abs=0.25)
 
 
 def test_zone_centre_factor_against_tanh_zone():
@@ -351,6 +366,23 @@ def test_wind_turn_veers_nh_backs_sh():
     assert nh["temp_change_c"] == pytest.approx(-6.0 * math.tanh(108 / 60), abs=0.2)
     # freezing level falls behind the cold front [trade]
     assert nh["freezing_level_after_m"] < nh["freezing_level_before_m"]
+
+
+@pytest.mark.parametrize("hours, passage_h, steps", [
+    (np.arange(0, 37, 6), 10.0, ("06:00", "12:00")),  # 6-hourly output
+    (np.arange(0, 37, 3), 1.0, ("00:00", "04:00")),  # passage an hour after the start
+])
+def test_wind_turn_on_sparse_output(hours, passage_h, steps):
+    """Issue 16 item 10: where the +/-3 h window is not in the run or would mix both sides
+    (6-hourly steps), the wind before and after comes from the nearest model steps, and
+    the row says so; the prescribed SW -> NW veer (+90) is still given [analytic]."""
+    ds, fronts = make_run(kind="cold", passage_h=passage_h, hours=hours)
+    row = arrival_table([analysis_of(ds, fronts)], site_frame(), surface=False).iloc[0]
+    assert row["passage_utc"], row["note"]
+    assert row["wind_turn_deg"] == pytest.approx(90, abs=5)
+    assert row["wind_before_deg"] == pytest.approx(225, abs=5)
+    assert f"2027-01-14T{steps[0]}Z and 2027-01-14T{steps[1]}Z" in row["note"]
+    assert "wind before/after from" in row["note"]
 
 
 def test_precip_start_end_total():
@@ -536,7 +568,7 @@ def test_timeline_figure_content():
         "[mm/h]",
         "[ft above site]",
         "valid time [UTC]",
-        "warm front 12:00Z",
+        "warm front 14/12Z",  # day/hour Z on a multi-day axis (issue 16)
     ):
         assert want in texts, want
     ax_t = fig.axes[0]
@@ -570,29 +602,23 @@ def scenario_table():
 @pytest.mark.slow
 def test_scenario_passages_within_1h(scenario_table):
     """[regression] every site sees both fronts in both runs, each within 1 h of
-    sample_grids/truth.json once the scenario's own geometry convention is allowed
-    for: the scenario puts its 850-hPa zones at h_ICAO(850) * N from the surface
-    front, while the kit moves the 850-hPa line by the run's height of 850 hPa
-    above the site times N; that difference, N * (h_ICAO - (z850 - elevation)) at
-    the front's speed, is subtracted before the 1-h check."""
+    sample_grids/truth.json: the table's surface front is the centre of the 2-m zone,
+    measured (issue 16, one definition), which is where the scenario puts its surface
+    front; no geometry allowance is needed any more (the slope estimate needed one)."""
     table, store, truth = scenario_table
-    checked = 0
+    checked, worst = 0, 0.0
     for _, r in table.iterrows():
         assert r["passage_utc"], f"{r['site']} {r['run']}: {r['note']}"
+        assert r["passage_from"] == "centre of the 2 m theta-w zone", r["passage_from"]
         tp = truth["sets"][r["run"]]["passages"][r["site"]][r["front_kind"]]
         err_h = (np.datetime64(r["passage_utc"][:-1]) - np.datetime64(tp[:-1])) / np.timedelta64(
             1, "h"
         )
-        s = store[(r["run"], None, r["site"])]
-        z850 = float(s["z"].sel(level=850.0).interp(time=np.datetime64(r["passage_utc"][:-1])))
-        n = truth["slopes_1_in"][r["front_kind"]]
-        speed_kmh = truth["speeds_ms"][r["front_kind"]] * 3.6
-        gap_km = n * (ICAO_850_M - (z850 - s.attrs["elevation_m"])) / 1000.0
-        # a shorter move puts the warm front ahead (early), the cold front behind (late)
-        bias_h = gap_km / speed_kmh * (-1 if r["front_kind"] == "warm" else 1)
-        assert abs(err_h - bias_h) <= 1.0, (r["site"], r["run"], r["front_kind"], err_h, bias_h)
+        assert abs(err_h) <= 1.0, (r["site"], r["run"], r["front_kind"], err_h)
+        worst = max(worst, abs(err_h))
         checked += 1
     assert checked == 2 * 2 * 6
+    assert store  # the site series of every run were kept
 
 
 @pytest.mark.slow

@@ -72,6 +72,14 @@ _P_TICKS = [1000, 925, 850, 700, 600, 500, 400, 300, 250, 200, 150, 100]
 _H_TICKS_FT = [0, 5000, 10000, 15000, 20000, 25000, 30000, 35000, 40000, 45000, 50000]
 
 
+def _surface_label(how):
+    """Legend text of the surface front: the product's one definition, as the table gives it."""
+    how = str(how or "")
+    if how.startswith("centre of the 2 m"):
+        return f"surface front ({how.replace('theta-w', 'θw').replace('theta', 'θ')})"
+    return f"surface front ({how})" if how else "surface front"
+
+
 def _kind_words(kind):
     """``warm front``, ``cold front``, ``quasi-stationary front`` or ``front``."""
     word = KIND_LABELS.get(kind, "front")
@@ -275,7 +283,9 @@ def draw_section(ax, strip, sec):
     if np.isfinite(sfc):
         (art["surface-front"],) = ax.plot([sfc], [pmax], marker="D", ms=9, clip_on=False,
                                           color=fcol, mec="white", ls="none", zorder=10,
-                                          gid="surface-front", label="surface front")
+                                          gid="surface-front",
+                                          label=_surface_label(sec.attrs.get(
+                                              "surface_front_from", "")))
         word = _kind_words(kind)
         ax.annotate(f"surface {word}", (sfc, pmax), xytext=(0, 22), textcoords="offset points",
                     ha="center", fontsize=FONT["small"], color=fcol, fontweight="bold",
@@ -424,6 +434,10 @@ def section_figure(sec, *, figsize=(11.0, 7.6)):
         what += f", across the {_kind_words(kind)}"
         if "front_level_hpa" in a:
             what += f" ({a['front_level_hpa']:.0f} hPa line)"
+        how = str(a.get("surface_front_from", ""))
+        if how:  # the one definition the arrival table and timelines use too
+            how = how.replace("theta-w", "θw").replace("theta", "θ")
+            what += f"; surface front: {how}"
     if "member" in a:
         what += f", member {a['member']}"
     if a.get("note"):

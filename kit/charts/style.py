@@ -285,6 +285,8 @@ def format_lead(lead_h):
     if lead_h is None:
         return ""
     if isinstance(lead_h, (tuple, list)) and len(lead_h) == 2:
+        if float(lead_h[0]) == float(lead_h[1]):  # one valid time: one lead time
+            return format_lead(lead_h[0])
         return f"{format_lead(lead_h[0])} to {format_lead(lead_h[1]).replace('T', '', 1)}"
     value = float(lead_h)
     if not np.isfinite(value):
@@ -447,6 +449,7 @@ def stamp(fig, *, run, valid_time, lead_h, source, extra=None, thin=None):
             0.012, 1 - 0.30 / height, title_text, ha="left", va="center",
             fontsize=FONT["title"], fontweight="bold", color=INK, gid="frontshift-title",
         )
+        _fit_width(fig, title, 0.976, smallest=7.0)  # a long run list never runs off the page
         subtitle = None
         if extra:
             subtitle = fig.text(

@@ -22,6 +22,7 @@ Examples
 """
 
 import matplotlib.dates as mdates
+import matplotlib.ticker as mticker
 import numpy as np
 import pandas as pd
 
@@ -60,6 +61,31 @@ TIMELINE_COLOURS = {
 
 def _t(text):
     return pd.Timestamp(str(text).rstrip("Z")).to_datetime64()
+
+
+def _day_hour(t):
+    """Format a UTC time as ``14/19Z`` (day and hour, nearest hour)."""
+    return pd.Timestamp(t).round("h").strftime("%d/%HZ")
+
+
+def _no_passage_text(note, times):
+    """Give a "no front passage <window>" note the window of the run's own valid times."""
+    if not note.startswith("no front passage "):
+        return note
+    rest = note.split(";", 1)
+    text = f"no front passage {_day_hour(times[0])} to {_day_hour(times[-1])}"
+    return text + (f";{rest[1]}" if len(rest) > 1 else "")
+
+
+def _valid_ticks(times, every_h=6):
+    """Tick positions: valid times of the run only, every ``every_h`` h where the run has them."""
+    stamps = pd.DatetimeIndex(times)
+    picked = [t for t in stamps if t.hour % every_h == 0 and t.minute == 0]
+    if len(picked) < 2:
+        picked = list(stamps)
+    if len(picked) > 12:
+        picked = picked[:: int(np.ceil(len(picked) / 12))]
+    return [mdates.date2num(t.to_pydatetime()) for t in picked]
 
 
 def _panel_legend(ax, loc):
@@ -324,11 +350,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 if own:
                     extra = " (extrap.)" if r.get("extrapolated") == "yes" else ""
                     labels.append(
-                        (
-                            tp,
-                            f"{KIND_LABELS.get(kind, kind)} {str(r['passage_utc'])[11:]}{extra}",
-                            colour,
-                        )
+                        (tp, f"{KIND_LABELS.get(kind, kind)} {_day_hour(tp)}{extra}", colour)
                     )
         if not labels and rows is not None:  # say why no passage is marked
             own_rows = rows[rows["run"].astype(str) == run] if "run" in rows else rows
@@ -340,7 +362,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             ax_t.text(
                 0.5,
                 0.93,
-                why[0] if why else "no front passage in this run",
+                _no_passage_text(why[0], times) if why else "no front passage in this run",
                 transform=ax_t.transAxes,
                 ha="center",
                 va="top",
@@ -366,13 +388,18 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                     "alpha": 0.85,
                 },
                 zorder=6,
+                annotation_clip=True,
             )
         for ax in (ax_t, ax_p, ax_h):  # legends above passage lines and shading
             if ax.get_legend() is not None:
                 ax.get_legend().set_zorder(7)
-        ax_h.xaxis.set_major_locator(mdates.HourLocator(byhour=range(0, 24, 6)))
+        # every tick and the whole axis lie on the run's own valid times
+        ax_h.xaxis.set_major_locator(mticker.FixedLocator(_valid_ticks(times)))
         ax_h.xaxis.set_major_formatter(mdates.DateFormatter("%d/%HZ"))
-        ax_h.set_xlim(times[0] - step, times[-1] + (step / 2 if times.size == 1 else 0 * step))
+        if times.size == 1:
+            ax_h.set_xlim(times[0] - step / 2, times[0] + step / 2)
+        else:
+            ax_h.set_xlim(times[0], times[-1])
         ax_h.set_xlabel("valid time [UTC]")
         for ax in (ax_t, ax_p, ax_h):
             ax.grid(True, color=BRIEFING_COLOURS["graticule"], lw=0.4, alpha=0.6)

@@ -35,11 +35,13 @@ import numpy as np
 import pandas as pd
 
 from kit import CAUTION
+from kit.constants import FT_PER_M
 from kit.errors import InputError
 from kit.io.sites import read_sites
 from kit.model import Analysis
 from kit.science.passages import (
     PRECIP_THRESHOLD_MMH,
+    SurfaceFront,
     ZoneCentre,
     find_passages,
     format_utc,
@@ -59,6 +61,24 @@ __all__ = [
     "add_spread",
     "arrival_table",
     "thin_notes",
+    "PEOPLE_COLUMNS",
+    "PEOPLE_KEY_COLUMNS",
+    "EMPTY",
+    "is_missing",
+    "clean_text",
+    "day_hour",
+    "time_window",
+    "precip_label",
+    "fzra_label",
+    "snow_label",
+    "cloud_label",
+    "wind_label",
+    "freezing_label",
+    "newest_run",
+    "run_label",
+    "people_table",
+    "summary_table",
+    "site_lines",
 ]
 
 #: the arrival table columns every product carries (DESIGN.md)
@@ -87,6 +107,7 @@ EXTRA_COLUMNS = [
     "extrapolated",
     "surface_offset_km",
     "zone_centre_offset_km",
+    "passage_from",
     "passage_earliest_utc",
     "passage_median_utc",
     "passage_latest_utc",
@@ -137,6 +158,10 @@ COLUMN_NOTES = {
     "extrapolated": "yes when the passage lies beyond the front's last step",
     "surface_offset_km": "line moved toward the warm side to the surface by its slope [km]",
     "zone_centre_offset_km": "line moved toward the cold side to the zone centre [km]",
+    "passage_from": "how the surface front was placed: the centre of the 2 m theta-w (theta) "
+    "zone measured on the profile a section through the site cuts (the one definition of "
+    "the surface front in table, section and timeline), else estimated from the front's "
+    "level",
     "passage_earliest_utc": "earliest passage of this front over runs/members [UTC]",
     "passage_median_utc": "median passage [UTC]",
     "passage_latest_utc": "latest passage [UTC]",
@@ -404,6 +429,7 @@ def arrival_table(
             ]
             dsm = ds.sel(member=member) if member is not None else ds
             finder = ZoneCentre(dsm, settings) if zone_centre else None
+            surface_finder = SurfaceFront(dsm, settings) if surface else None
             all_series = site_series(dsm, sites)
             for _, site in sites.iterrows():
                 series = all_series[site["name"]]
@@ -434,6 +460,7 @@ def arrival_table(
                     along_tolerance_km=along_tolerance_km,
                     miss_report_km=miss_report_km,
                     centre_finder=finder,
+                    surface_finder=surface_finder,
                 )
                 if not found:
                     rows.append(
@@ -455,6 +482,7 @@ def arrival_table(
                         "extrapolated": bool(p["extrapolated"]),
                         "surface_offset_km": round_or_nan(p["surface_offset_km"]),
                         "zone_centre_offset_km": round_or_nan(p["zone_centre_offset_km"]),
+                        "passage_from": p.get("passage_from", ""),
                         "_passage_h": p["passage"],
                         "note": p["note"],
                     }
@@ -536,3 +564,337 @@ def arrival_table(
         },
     )
     return (table, store) if return_series else table
+
+
+# ----------------------------------------------------------------------- for people
+# Forecaster-facing presentation of the arrival table: one unit per quantity (heights
+# in ft, speeds in kt, times UTC as day/hour Z), empty or "-" where a value is missing.
+# The CSV keeps every column in its own units; these functions only format.
+
+#: text shown in a people's table where a value does not apply
+EMPTY = "-"
+
+#: which text of a missing value never reaches a people's product
+_MISSING_TEXT = {"", "nan", "NaN", "NaT", "None", "<NA>", "none", "null"}
+
+#: headings of :func:`people_table` (units in brackets), in order
+PEOPLE_COLUMNS = [
+    "Site", "Front", "Run", "Passage", "All runs", "Spread [h]", "Speed [kt]",
+    "Precipitation", "FZRA/PL window", "Snow risk", "Lowest cloud [ft above site]",
+    "Wind [deg/kt]", "Turn [deg]", "Temp change [C]", "0 C level [ft AMSL]", "Note",
+]
+
+#: the key headings, kept on every part when a table is split across widths
+PEOPLE_KEY_COLUMNS = ["Site", "Front", "Run", "Passage"]
+
+
+def is_missing(value):
+    """Tell whether a cell is missing: None, NaN, NaT, pandas NA and "nan", "<NA>", ""."""
+    if value is None:
+        return True
+    if isinstance(value, str):
+        return value.strip() in _MISSING_TEXT
+    try:
+        return bool(pd.isna(value))
+    except (TypeError, ValueError):
+        return False
+
+
+def _number(value):
+    """Float of a cell, or None when missing or not a number."""
+    if is_missing(value):
+        return None
+    try:
+        out = float(value)
+    except (TypeError, ValueError):
+        return None
+    return out if np.isfinite(out) else None
+
+
+def day_hour(text, *, minutes=False):
+    """``2031-02-03T09:40Z`` -> ``03/10Z`` (nearest hour) or ``03/0940Z``; missing -> "".
+
+    Parameters
+    ----------
+    text : str or datetime-like
+        A UTC time (ISO 8601, ``Z`` or naive).
+    minutes : bool
+        Keep the minutes rather than rounding to the hour.
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> day_hour("2031-02-03T09:40Z")
+    '03/10Z'
+    >>> day_hour("")
+    ''
+    """
+    if is_missing(text):
+        return ""
+    try:
+        ts = pd.Timestamp(str(text).rstrip("Z")) if isinstance(text, str) else pd.Timestamp(text)
+    except ValueError:
+        return str(text)
+    if ts.tzinfo is not None:
+        ts = ts.tz_convert("UTC").tz_localize(None)
+    if minutes:
+        return ts.strftime("%d/%H%MZ")
+    return ts.round("h").strftime("%d/%HZ")
+
+
+def time_window(start, end):
+    """Two UTC times as ``14/15-18Z`` (same day) or ``14/21Z-15/03Z``; "" when both missing."""
+    a, b = day_hour(start), day_hour(end)
+    if not a and not b:
+        return ""
+    if not a or not b or a == b:
+        return a or b
+    if a[:3] == b[:3]:
+        return f"{a[:-1]}-{b[3:]}"
+    return f"{a}-{b}"
+
+
+def _whole(value, step=1.0):
+    v = _number(value)
+    return "" if v is None else f"{round(v / step) * step:.0f}"
+
+
+def _feet(value_m, *, step=100.0):
+    """Metres -> feet rounded to ``step`` ft as text ("" when missing)."""
+    v = _number(value_m)
+    return "" if v is None else f"{round(v * FT_PER_M / step) * step:.0f}"
+
+
+def _kind_name(kind):
+    return {"warm": "warm front", "cold": "cold front",
+            "quasi-stationary": "quasi-stationary front"}.get(str(kind), str(kind))
+
+
+def precip_label(row):
+    """Precipitation of a row: ``rain 13/21Z-14/09Z`` (the type when the table gives one)."""
+    window = time_window(row.get("precip_start_utc"), row.get("precip_end_utc"))
+    kind = "" if is_missing(row.get("precip_type")) else str(row.get("precip_type")).strip()
+    if not window:
+        return kind
+    return f"{kind or 'precipitation'} {window}" if kind else f"precipitation {window}"
+
+
+def fzra_label(row):
+    """Freezing-rain / ice-pellet window ``14/15-18Z`` ("" when none)."""
+    return time_window(row.get("fzra_start_utc"), row.get("fzra_end_utc"))
+
+
+def snow_label(row):
+    """``from 14/12Z`` when the table gives a snow risk ("" otherwise)."""
+    text = "" if is_missing(row.get("snow_risk")) else str(row.get("snow_risk")).strip()
+    if not text or text.lower() == "no":
+        return ""
+    when = text.split("from", 1)[1].strip() if "from" in text else ""
+    return f"from {day_hour(when)}" if when else "yes"
+
+
+def cloud_label(row):
+    """Cloud base for people: a band ``1500-3200 ft`` or the lowest base ``400 ft at 14/06Z``."""
+    lo, hi = _number(row.get("cloud_base_low_ft_agl")), _number(row.get("cloud_base_high_ft_agl"))
+    if lo is not None and hi is not None:
+        return f"{round(lo, -2):.0f}-{round(hi, -2):.0f} ft"
+    low = _number(row.get("cloud_base_min_ft_agl"))
+    if low is None:
+        return ""
+    text = "below 100 ft" if low < 50 else f"{round(low, -2):.0f} ft"
+    when = day_hour(row.get("cloud_base_min_utc"))
+    return f"{text} at {when}" if when else text
+
+
+def wind_label(row):
+    """Wind change ``150/22 -> 190/18`` [degrees from / kt] ("" when unknown)."""
+    def one(d, s):
+        d, s = _number(d), _number(s)
+        if d is None:
+            return ""
+        return f"{round(d) % 360:03.0f}" + ("" if s is None else f"/{s:.0f}")
+
+    a = one(row.get("wind_before_deg"), row.get("wind_before_kt"))
+    b = one(row.get("wind_after_deg"), row.get("wind_after_kt"))
+    return f"{a} -> {b}" if a and b else a or b
+
+
+def freezing_label(row):
+    """0 C level before -> after [ft above mean sea level, to 100 ft]."""
+    a, b = _feet(row.get("freezing_level_before_m")), _feet(row.get("freezing_level_after_m"))
+    return f"{a} -> {b}" if a and b else a or b
+
+
+def _note_text(row, runs_window=None):
+    """Return the row's note, with a "no passage" window clipped to the run's valid times."""
+    note = "" if is_missing(row.get("note")) else str(row.get("note"))
+    if runs_window and note.startswith("no front passage "):
+        rest = note.split(";", 1)
+        first, last = runs_window
+        note = f"no front passage {day_hour(first)} to {day_hour(last)}" + (
+            f";{rest[1]}" if len(rest) > 1 else "")
+    return note
+
+
+def newest_run(table):
+    """Label of the newest run of the table (latest in ``attrs["runs"]``, else the last row's)."""
+    runs = [r for r in table.attrs.get("runs", []) if r]
+    if runs:
+        return runs[-1]
+    return str(table["run"].iloc[-1]) if "run" in table and len(table) else ""
+
+
+def run_label(run, newest):
+    """``14/00Z`` run label for people, ``14/00Z (newest)`` for the newest run."""
+    text = str(run)
+    try:
+        text = pd.Timestamp(text.rstrip("Z").replace("Z", "")).strftime("%d/%HZ")
+    except ValueError:
+        pass
+    return f"{text} (newest)" if str(run) == str(newest) else text
+
+
+def people_table(table, *, runs_window=None, newest=None):
+    """Format the arrival table as a briefer reads it: plain headings with units, short cells.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        From :func:`arrival_table` (or read back from its CSV); the optional
+        ``precip_type``, ``cloud_base_low_ft_agl`` and ``cloud_base_high_ft_agl``
+        columns are shown when present.
+    runs_window : (datetime-like, datetime-like), optional
+        First and last valid time of the runs, to clip "no front passage" windows.
+    newest : str, optional
+        Newest run label (default :func:`newest_run`); its rows are marked "(newest)".
+
+    Returns
+    -------
+    pandas.DataFrame
+        :data:`PEOPLE_COLUMNS`, every cell a string ("" where nothing applies):
+        times UTC as day/hour Z, heights in ft, speeds in kt, whole degrees.
+    """
+    newest = newest if newest is not None else newest_run(table)
+    rows = []
+    for _, r in table.iterrows():
+        r = r.to_dict()
+        spread = _number(r.get("spread_h"))
+        temp = _number(r.get("temp_change_c"))
+        rows.append({
+            "Site": str(r.get("site", "")),
+            "Front": "" if is_missing(r.get("front_kind")) else str(r["front_kind"]),
+            "Run": run_label(r.get("run", ""), newest) if not is_missing(r.get("run")) else "",
+            "Passage": day_hour(r.get("passage_utc")),
+            "All runs": time_window(r.get("passage_earliest_utc"), r.get("passage_latest_utc"))
+            if spread else "",
+            "Spread [h]": "" if spread is None else f"{spread:.1f}",
+            "Speed [kt]": _whole(r.get("speed_kt")),
+            "Precipitation": precip_label(r),
+            "FZRA/PL window": fzra_label(r),
+            "Snow risk": snow_label(r),
+            "Lowest cloud [ft above site]": cloud_label(r),
+            "Wind [deg/kt]": wind_label(r),
+            "Turn [deg]": "" if _number(r.get("wind_turn_deg")) is None
+            else f"{_number(r.get('wind_turn_deg')):+.0f}",
+            "Temp change [C]": "" if temp is None else f"{temp:+.1f}",
+            "0 C level [ft AMSL]": freezing_label(r),
+            "Note": _note_text(r, runs_window),
+        })
+    return pd.DataFrame(rows, columns=PEOPLE_COLUMNS)
+
+
+def _newest_rows(table, newest):
+    if "run" not in table:
+        return table
+    return table[table["run"].astype(str) == str(newest)]
+
+
+def summary_table(table, *, runs_window=None, newest=None):
+    """One row per site and front of the newest run: window, spread and hazards, for people.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        From :func:`arrival_table`.
+    runs_window, newest
+        As :func:`people_table`.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns Site, Front, Passage (newest run), All runs (earliest to latest),
+        Spread [h], Precipitation, FZRA/PL window, Snow risk, Lowest cloud, Wind
+        [deg/kt] and 0 C level [ft AMSL]; every cell a string.
+    """
+    newest = newest if newest is not None else newest_run(table)
+    full = people_table(_newest_rows(table, newest), runs_window=runs_window, newest=newest)
+    keep = ["Site", "Front", "Passage", "All runs", "Spread [h]", "Precipitation",
+            "FZRA/PL window", "Snow risk", "Lowest cloud [ft above site]", "Wind [deg/kt]",
+            "0 C level [ft AMSL]"]
+    out = full[keep].copy()
+    no_pass = out["Passage"] == ""
+    out.loc[no_pass, "Precipitation"] = full.loc[no_pass, "Note"]
+    return out.reset_index(drop=True)
+
+
+def site_lines(table, *, runs_window=None, newest=None, sites=None):
+    """One plain-language line per site for the newest run, in the kit's own words.
+
+    For example ``"Kelmarra: warm front about 14/04Z (all runs 14/04-07Z); precipitation
+    from 14/00Z; wind 135/22 -> 183/19; cold front about 14/13Z ..."``.
+
+    Parameters
+    ----------
+    table : pandas.DataFrame
+        From :func:`arrival_table`.
+    runs_window, newest
+        As :func:`people_table`.
+    sites : list of str, optional
+        Site order (default: as in the table).
+
+    Returns
+    -------
+    list of str
+    """
+    newest = newest if newest is not None else newest_run(table)
+    rows = _newest_rows(table, newest)
+    names = list(sites) if sites is not None else list(dict.fromkeys(rows["site"]))
+    lines = []
+    for name in names:
+        sub = rows[rows["site"] == name]
+        parts = []
+        for _, r in sub.iterrows():
+            r = r.to_dict()
+            if is_missing(r.get("passage_utc")):
+                note = _note_text(r, runs_window)
+                if note and not any(p.startswith("no front passage") for p in parts):
+                    parts.append(note.split(";")[0])
+                continue
+            bits = [f"{_kind_name(r['front_kind'])} about {day_hour(r['passage_utc'])}"]
+            window = time_window(r.get("passage_earliest_utc"), r.get("passage_latest_utc"))
+            if _number(r.get("spread_h")):
+                bits[0] += f" (all runs {window})"
+            start = day_hour(r.get("precip_start_utc"))
+            kind = "" if is_missing(r.get("precip_type")) else str(r["precip_type"])
+            if start:
+                bits.append(f"{kind or 'precipitation'} from {start}")
+            fz = fzra_label(r)
+            if fz:
+                bits.append(f"freezing rain or ice pellets possible {fz}")
+            snow = snow_label(r)
+            if snow:
+                bits.append(f"snow risk {snow}")
+            wind = wind_label(r)
+            if wind:
+                bits.append(f"wind {wind} kt")
+            parts.append("; ".join(bits))
+        lines.append(f"{name}: " + (" | ".join(parts) if parts else "no passage listed"))
+    return lines
+
+
+def clean_text(value):
+    """Return a cell for a people's product: missing values (NaN, NaT, None, <NA>) as ""."""
+    return "" if is_missing(value) else str(value)

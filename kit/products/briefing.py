@@ -26,16 +26,27 @@ import io
 import textwrap
 from pathlib import Path
 
+import matplotlib.patches
 import numpy as np
 import pandas as pd
 from matplotlib.backends.backend_pdf import PdfPages
+from matplotlib.font_manager import FontProperties
 
 from kit import CAUTION, __version__
 from kit.charts import style
 from kit.errors import InputError, OutputError
+from kit.products.arrivals import (
+    PEOPLE_KEY_COLUMNS,
+    clean_text,
+    day_hour,
+    is_missing,
+    newest_run,
+    people_table,
+)
 from kit.products.files import write_bytes
 
-__all__ = ["BriefingPack", "cover_figure", "table_figures", "TABLE_COLUMNS"]
+__all__ = ["BriefingPack", "cover_figure", "table_figures", "summary_figures", "layout_table",
+           "TableLayout", "TABLE_COLUMNS"]
 
 #: arrival-table columns shown in the pack (forecaster-facing subset), with headings
 TABLE_COLUMNS = {
@@ -69,30 +80,21 @@ COVER_NOTES = (
 )
 
 
-def _short_time(text):
-    """``2031-02-03T09:00:00Z`` -> ``03 Feb 09:00``; other text unchanged."""
-    if not isinstance(text, str) or len(text) < 16 or "T" not in text:
-        return "" if text is None or (isinstance(text, float) and np.isnan(text)) else str(text)
-    try:
-        return pd.Timestamp(text.rstrip("Z")).strftime("%d %b %H:%M")
-    except ValueError:
-        return text
-
-
 def _cell(value):
-    if value is None:
+    """Format a cell as people read it: missing as "", UTC times as day/hour Z, numbers rounded."""
+    if is_missing(value):
         return ""
     if isinstance(value, str):
+        if "T" in value and value.endswith("Z") and len(value) >= 16:
+            return day_hour(value)
         try:  # numbers read back from CSV
-            value = float(value) if value.strip() and not value.endswith("Z") else value
+            value = float(value) if value.strip() else value
         except ValueError:
-            pass
-    if isinstance(value, float):
-        if np.isnan(value):
+            return value
+    if isinstance(value, (float, np.floating)):
+        if not np.isfinite(value):
             return ""
         return f"{value:.0f}" if abs(value) >= 10 or value == round(value) else f"{value:.1f}"
-    if isinstance(value, str) and value.endswith("Z"):
-        return _short_time(value)
     return str(value)
 
 
@@ -152,7 +154,7 @@ def _draw_cover(ax, rows, scale):
 
 
 def cover_figure(*, runs, valid_window, source, sites=None, summary=None, contents=None,
-                 thin=None):
+                 thin=None, heading="Shift briefing pack"):
     """Make the pack's cover page: runs, valid window, sites, contents and the cautions.
 
     Parameters
@@ -172,6 +174,8 @@ def cover_figure(*, runs, valid_window, source, sites=None, summary=None, conten
     thin : str, optional
         What the thin run(s) lack and what was done instead (``ds.attrs["thin"]``),
         for the header line (the summary says it in full).
+    heading : str
+        The page's heading (e.g. ``Appendix`` when the summary pages come first).
 
     Returns
     -------
@@ -191,13 +195,13 @@ def cover_figure(*, runs, valid_window, source, sites=None, summary=None, conten
 
     def build(scale):
         """Make the cover's rows, long items wrapped for type shrunk by ``scale``."""
-        rows = [_CoverRow("Shift briefing pack", 22, bold=True, step=0.09)]
+        rows = [_CoverRow(heading, 22, bold=True, step=0.09)]
         rows += [_CoverRow(value, 11, key=key, step=0.055) for key, value in lines]
         for block_title, block in (("In this pack", contents), ("Summary", summary)):
             if not block:
                 continue
             rows.append(_CoverRow(block_title, 12, bold=True, step=0.05, gap=0.02))
-            for item in block[:8]:
+            for item in block[:14]:
                 rows += _bullet(item, 10, step=0.042, scale=scale)
         rows.append(_CoverRow("Caution", 12, bold=True, step=0.05,
                               colour=style.BRIEFING_COLOURS["caution"], caution_head=True))
@@ -215,30 +219,228 @@ def cover_figure(*, runs, valid_window, source, sites=None, summary=None, conten
         scale = wanted
     _draw_cover(ax, rows, scale)
     style.stamp(fig, run=", ".join(runs), valid_time=tuple(valid_window), lead_h=None,
-                source=source, extra=f"frontshift {__version__}: cover", thin=thin)
+                source=source, extra=f"frontshift {__version__}: {heading.lower()}", thin=thin)
     return fig
+
+
+#: A4 landscape page [inches]
+PAGE_IN = (11.69, 8.27)
+#: side margins of a table page [inches]
+TABLE_MARGIN_IN = 0.4
+#: widest column before its text wraps [inches]
+MAX_COLUMN_IN = 2.3
+#: table type sizes tried, largest first [pt]; below the last the columns are split
+TABLE_FONTS_PT = (8.0, 7.5, 7.0, 6.5)
+#: padding inside a cell [inches]
+CELL_PAD_IN = 0.05
+
+
+def _text_width_in(renderer, text, size_pt, bold=False):
+    """Width of one line of text as drawn [inches] (measured by the renderer)."""
+    if not text:
+        return 0.0
+    prop = FontProperties(family=style.FONT["family"], size=size_pt,
+                          weight="bold" if bold else "normal")
+    width, _, _ = renderer.get_text_width_height_descent(text, prop, ismath=False)
+    return width / renderer.dpi
+
+
+def _wrap_to(renderer, text, size_pt, width_in, bold=False):
+    """Wrap ``text`` on spaces (hard-cut a word only when it alone is too wide) to ``width_in``."""
+    lines = []
+    for para in str(text).split("\n"):
+        words = para.split(" ")
+        line = ""
+        for word in words:
+            trial = f"{line} {word}" if line else word
+            if _text_width_in(renderer, trial, size_pt, bold) <= width_in or not line:
+                line = trial
+            else:
+                lines.append(line)
+                line = word
+            while _text_width_in(renderer, line, size_pt, bold) > width_in and len(line) > 1:
+                k = len(line) - 1
+                while k > 1 and _text_width_in(renderer, line[:k], size_pt, bold) > width_in:
+                    k -= 1
+                lines.append(line[:k])
+                line = line[k:]
+        lines.append(line)
+    return lines or [""]
+
+
+class TableLayout:
+    """Measured layout of a table on a page: type size, column groups and wrapped cells.
+
+    Attributes
+    ----------
+    font_pt : float
+        Type size [pt].
+    groups : list of list of int
+        Column indices drawn together (one group per page width; key columns repeated).
+    widths_in : list of float
+        Width of each column [inches], padding included.
+    header : list of list of str
+        Wrapped heading lines per column.
+    cells : list of list of list of str
+        Wrapped lines per row and column.
+    width_in : float
+        Room across the page [inches].
+    """
+
+    def __init__(self, font_pt, groups, widths_in, header, cells, width_in):
+        self.font_pt, self.groups, self.widths_in = font_pt, groups, widths_in
+        self.header, self.cells, self.width_in = header, cells, width_in
+
+    def group_width_in(self, group):
+        """Width of one column group as drawn [inches]."""
+        return sum(self.widths_in[c] for c in group)
+
+    def line_in(self):
+        """Height of one text line [inches]."""
+        return self.font_pt * 1.25 / 72.0
+
+    def row_in(self, lines):
+        """Height of a row of ``lines`` text lines [inches]."""
+        return lines * self.line_in() + 2 * CELL_PAD_IN
+
+
+def layout_table(headings, body, *, width_in, renderer, key=None):
+    """Lay a table out to fit ``width_in``: wrap long cells, shrink type, split columns.
+
+    Each column is as wide as its widest cell (wrapped at :data:`MAX_COLUMN_IN`)
+    or its heading's longest word; when the sum is wider than the page the type
+    shrinks through :data:`TABLE_FONTS_PT`, and at the smallest size the columns
+    are split into groups that each fit, the ``key`` columns leading every group.
+
+    Parameters
+    ----------
+    headings : list of str
+    body : list of list of str
+        Cell texts (already formatted).
+    width_in : float
+        Room across the page [inches].
+    renderer : matplotlib renderer
+        Measures the text.
+    key : list of int, optional
+        Columns repeated in every group (default the first one).
+
+    Returns
+    -------
+    TableLayout
+    """
+    key = [k for k in (key if key is not None else [0]) if k < len(headings)]
+    for size in TABLE_FONTS_PT:
+        pad = 2 * CELL_PAD_IN
+        widths = []
+        for c, head in enumerate(headings):
+            word = max((_text_width_in(renderer, w, size, True) for w in head.split()),
+                       default=0.0)
+            cells = max((_text_width_in(renderer, row[c], size) for row in body), default=0.0)
+            widths.append(min(max(word, cells, 0.25), MAX_COLUMN_IN) + pad)
+        if sum(widths) <= width_in or size == TABLE_FONTS_PT[-1]:
+            break
+    groups, group = [], list(key)
+    for c in range(len(headings)):
+        if c in key:
+            continue
+        if group != key and sum(widths[k] for k in group) + widths[c] > width_in:
+            groups.append(group)
+            group = list(key)
+        group.append(c)
+    if group != key or not groups:
+        groups.append(group)
+    header = [_wrap_to(renderer, h, size, widths[c] - pad, True) for c, h in enumerate(headings)]
+    cells = [[_wrap_to(renderer, v, size, widths[c] - pad) for c, v in enumerate(row)]
+             for row in body]
+    return TableLayout(size, groups, widths, header, cells, width_in)
+
+
+def _paginate(layout, height_in, rows_per_page):
+    """Split row indices into pages that fit ``height_in`` [inches] (at most rows_per_page)."""
+    head = layout.row_in(max((len(h) for h in layout.header), default=1))
+    pages, page, used = [], [], head
+    for r, row in enumerate(layout.cells):
+        h = layout.row_in(max(len(c) for c in row))
+        if page and (used + h > height_in or len(page) >= rows_per_page):
+            pages.append(page)
+            page, used = [], head
+        page.append(r)
+        used += h
+    pages.append(page)
+    return pages
+
+
+def _draw_table(fig, layout, group, rows, *, top_in, left_in, bold_rows=(), colours=None):
+    """Draw the rows of one column group from ``top_in`` down (figure inches)."""
+    tr = fig.dpi_scale_trans
+    size = layout.font_pt
+
+    def draw_row(texts, y, height, face, bold):
+        x = left_in
+        fig.add_artist(matplotlib.patches.Rectangle(
+            (x, y - height), layout.group_width_in(group), height, transform=tr,
+            facecolor=face, edgecolor="#c5ccd1", linewidth=0.5, zorder=1))
+        for c in group:
+            lines, colour = texts[c]
+            fig.text(x + CELL_PAD_IN, y - CELL_PAD_IN, "\n".join(lines), transform=tr,
+                     ha="left", va="top", fontsize=size, linespacing=1.25 * 0.96,
+                     fontweight="bold" if bold else "normal", color=colour or style.INK,
+                     gid="frontshift-cell", zorder=2)
+            x += layout.widths_in[c]
+
+    y = top_in
+    head_h = layout.row_in(max(len(layout.header[c]) for c in group))
+    draw_row({c: (layout.header[c], None) for c in group}, y, head_h,
+             style.BRIEFING_COLOURS["header_band"], True)
+    y -= head_h
+    for n, r in enumerate(rows):
+        cells = layout.cells[r]
+        h = layout.row_in(max(len(cells[c]) for c in group))
+        texts = {c: (cells[c], (colours or {}).get((r, c))) for c in group}
+        draw_row(texts, y, h, "#f6f8f9" if n % 2 else "white", r in bold_rows)
+        y -= h
+    return y
+
+
+def _people_frame(frame, runs_window=None):
+    """Format an arrival table as people read it; any other frame with its cells cleaned."""
+    if {"site", "passage_utc"} <= set(frame.columns):
+        people = people_table(frame, runs_window=runs_window)
+        kept = [c for c in people.columns if c in PEOPLE_KEY_COLUMNS
+                or (people[c] != "").any()]
+        return people[kept]
+    cells = frame.map(_cell)
+    return cells[[c for c in cells.columns if c in PEOPLE_KEY_COLUMNS or (cells[c] != "").any()]]
 
 
 def table_figures(frame, *, title, run, valid_time=None, source="", columns=None,
                   rows_per_page=24, thin=None):
-    """Make the pages (figures) of a table, A4 landscape, stamped; long tables continue over pages.
+    """Make the pages (figures) of a table, A4 landscape, stamped; nothing cut at the page edge.
+
+    An arrival table (``site``, ``passage_utc`` ...) is shown as people read it
+    (:func:`kit.products.arrivals.people_table`: headings with units, times as
+    day/hour Z, heights in ft, speeds in kt, the newest run marked and in bold);
+    any other frame as its cleaned cells. Columns wrap, the type shrinks and,
+    if still too wide, the columns are split over pages with the key columns
+    repeated (:func:`layout_table`); long tables continue over pages.
 
     Parameters
     ----------
     frame : pandas.DataFrame
-        The table (e.g. the arrival table).
+        The table (e.g. the arrival table, or a table of display strings).
     title : str
         Shown as the product line of every page (``(page i of n)`` added).
     run : str
         Run label(s) for the header.
     valid_time : datetime-like or (datetime-like, datetime-like), optional
-        Valid time or window for the header; the table's passage times when None.
+        Valid time or window of the runs for the header; the table's passage
+        times when None (never the machine's clock).
     source : str
         Data source line.
     columns : dict, optional
-        Column -> heading; default :data:`TABLE_COLUMNS` (those present), else all.
+        Column -> heading, to show only these columns of a frame of display strings.
     rows_per_page : int
-        Rows per page.
+        Most rows per page.
     thin : str, optional
         What the thin run(s) of the table lack (``ds.attrs["thin"]``), for the header.
 
@@ -250,53 +452,153 @@ def table_figures(frame, *, title, run, valid_time=None, source="", columns=None
         raise InputError(f"table page: got {type(frame).__name__}; expected a pandas DataFrame")
     if rows_per_page < 1:
         raise InputError(f"table page: rows_per_page={rows_per_page}; expected at least 1")
-    columns = columns or {c: h for c, h in TABLE_COLUMNS.items() if c in frame.columns}
-    if not columns:
-        columns = {c: c for c in frame.columns}
     if valid_time is None:
         times = [pd.Timestamp(str(t).rstrip("Z")) for t in frame.get("passage_utc", [])
                  if isinstance(t, str) and t]
-        valid_time = (min(times), max(times)) if times else pd.Timestamp.now("UTC").floor("h")
-    body = [[_cell(v) for v in row] for row in frame[list(columns)].itertuples(index=False)]
-    if "note" in columns:
-        k = list(columns).index("note")
-        for row in body:
-            if len(row[k]) > NOTE_CHARS:
-                row[k] = row[k][: NOTE_CHARS - 3] + "..."
-    pages = max(1, int(np.ceil(len(body) / rows_per_page)))
+        if not times:
+            raise InputError(f"table page {title!r}: no valid time given and no passage times; "
+                             "expected valid_time=(first, last) of the runs")
+        valid_time = (min(times), max(times))
+    window = valid_time if isinstance(valid_time, (tuple, list)) else None
+    newest = newest_run(frame) if "run" in frame else None
+    shown = _people_frame(frame, window)
+    if columns:
+        shown = shown[[c for c in columns if c in shown.columns]].rename(columns=columns)
+    headings = [str(c) for c in shown.columns]
+    body = [[clean_text(v) for v in row] for row in shown.itertuples(index=False)]
+    bold_rows = set()
+    colours = {}
+    if "Run" in headings and newest:
+        k = headings.index("Run")
+        bold_rows = {r for r, row in enumerate(body) if row[k].endswith("(newest)")}
+    if "Front" in headings:
+        k = headings.index("Front")
+        colours = {(r, k): style.FRONT_COLOURS[row[k]] for r, row in enumerate(body)
+                   if row[k] in style.FRONT_COLOURS}
+    width_in = PAGE_IN[0] - 2 * TABLE_MARGIN_IN
+    probe, _ = style.new_figure(figsize=PAGE_IN)
+    renderer = probe.canvas.get_renderer()
+    key = [headings.index(h) for h in PEOPLE_KEY_COLUMNS if h in headings] or [0]
+    layout = layout_table(headings, body, width_in=width_in, renderer=renderer, key=key)
+    top_in = PAGE_IN[1] - style.HEADER_IN - 0.2
+    room_in = top_in - style.FOOTER_IN - 0.45
+    pages = _paginate(layout, room_in, rows_per_page) if body else [[]]
+    sheets = [(p, g) for p in pages for g in layout.groups]
     figs = []
-    for page in range(pages):
-        rows = body[page * rows_per_page:(page + 1) * rows_per_page]
-        fig, ax = style.new_figure(figsize=(11.69, 8.27), left_in=0.4, right_in=0.4)
+    for n, (rows, group) in enumerate(sheets):
+        fig, ax = style.new_figure(figsize=PAGE_IN, left_in=TABLE_MARGIN_IN,
+                                   right_in=TABLE_MARGIN_IN)
         ax.axis("off")
-        if rows:
-            table = ax.table(cellText=rows, colLabels=list(columns.values()), loc="upper center",
-                             cellLoc="center", colLoc="center")
-            table.auto_set_font_size(False)
-            table.set_fontsize(7.5)
-            table.auto_set_column_width(list(range(len(columns))))
-            table.scale(1.0, 1.35)
-            for (r, _c), cell in table.get_celld().items():
-                cell.set_edgecolor("#c5ccd1")
-                cell.set_linewidth(0.5)
-                if r == 0:
-                    cell.set_facecolor(style.BRIEFING_COLOURS["header_band"])
-                    cell.set_text_props(fontweight="bold")
-                elif r % 2 == 0:
-                    cell.set_facecolor("#f6f8f9")
-            kinds = list(frame[list(columns)].columns).index("front_kind") if (
-                "front_kind" in columns) else None
-            if kinds is not None:
-                for r, row in enumerate(rows, start=1):
-                    if row[kinds] in style.FRONT_COLOURS:
-                        table[r, kinds].get_text().set_color(style.FRONT_COLOURS[row[kinds]])
-            table.set_gid("frontshift-table")
+        if body:
+            _draw_table(fig, layout, group, rows, top_in=top_in, left_in=TABLE_MARGIN_IN,
+                        bold_rows=bold_rows, colours=colours)
         else:
             ax.text(0.5, 0.6, "No rows: no front passes the sites within the runs.",
                     ha="center", fontsize=12, color=style.INK, transform=ax.transAxes)
-        suffix = f" (page {page + 1} of {pages})" if pages > 1 else ""
+        fig._frontshift["table_layout"] = layout
+        notes = []
+        if len(sheets) > 1:
+            notes.append(f"page {n + 1} of {len(sheets)}")
+        if len(layout.groups) > 1:
+            notes.append(f"columns part {layout.groups.index(group) + 1} of {len(layout.groups)}")
+        suffix = f" ({', '.join(notes)})" if notes else ""
+        extra = f"{title}{suffix}; times UTC (day/hour Z)"
+        if bold_rows:
+            extra += "; newest run in bold"
         style.stamp(fig, run=run, valid_time=valid_time, lead_h=None, source=source,
-                    extra=f"{title}{suffix}; times UTC", thin=thin)
+                    extra=extra, thin=thin)
+        figs.append(fig)
+    return figs
+
+
+def summary_figures(*, run, valid_window, source, facts, site_lines, thin=None,
+                    heading="Shift briefing: summary"):
+    """Make the summary page(s): key facts, one plain-language line per site, the caution.
+
+    Lines are wrapped to the page as measured; what does not fit continues on
+    a further page, so nothing is cut.
+
+    Parameters
+    ----------
+    run : str
+        Run label(s) for the header (the newest run marked).
+    valid_window : (datetime-like, datetime-like)
+        First and last valid time of the newest run (UTC).
+    source : str
+        Data source line.
+    facts : list of (str, str)
+        Key and text lines under the heading (runs, valid window, sites...).
+    site_lines : list of str
+        One line per site (:func:`kit.products.arrivals.site_lines`).
+    thin : str, optional
+        What the thin run(s) lack (``ds.attrs["thin"]``).
+    heading : str
+        The page heading.
+
+    Returns
+    -------
+    list of matplotlib.figure.Figure
+        Stamped, A4 landscape.
+    """
+    left, width = 0.8, PAGE_IN[0] - 1.6
+    top = PAGE_IN[1] - style.HEADER_IN - 0.3
+    bottom = style.FOOTER_IN + 0.25
+    probe, _ = style.new_figure(figsize=PAGE_IN)
+    renderer = probe.canvas.get_renderer()
+    size = 9.5
+    blocks = []  # (lines, size, bold, colour, gap before [in])
+    blocks.append(([heading], 18, True, style.INK, 0.0, False))
+    for key, text in facts:
+        blocks.append((_wrap_to(renderer, f"{key}: {text}", size, width), size, False,
+                       style.INK, 0.02, False))
+    blocks.append((["At the sites (newest run; times UTC as day/hour Z; wind deg/kt)"], 11,
+                   True, style.INK, 0.12, False))
+    for line in site_lines:
+        name, _, rest = line.partition(": ")
+        wrapped = _wrap_to(renderer, rest.replace(" | ", "  |  "), size, width - 0.25)
+        blocks.append(([name] + ["    " + w for w in wrapped], size, False, style.INK, 0.06,
+                       True))
+    caution = [CAUTION, *COVER_NOTES]
+    tail = []
+    for k, note in enumerate(caution):
+        tail.append((_wrap_to(renderer, note, 8.5, width), 8.5, k == 0,
+                     style.BRIEFING_COLOURS["caution"] if k == 0 else style.INK, 0.03, False))
+    tail_in = sum(len(b[0]) * b[1] * 1.35 / 72.0 + b[4] for b in tail) + 0.15
+
+    pages, page, used = [], [], 0.0
+    for block in blocks:
+        need = len(block[0]) * block[1] * 1.35 / 72.0 + block[4]
+        if page and used + need > top - bottom - tail_in:
+            pages.append(page)
+            page, used = [], 0.0
+        page.append(block)
+        used += need
+    pages.append(page)
+    figs = []
+    for n, blocks_n in enumerate(pages):
+        fig, ax = style.new_figure(figsize=PAGE_IN, left_in=left, right_in=left)
+        ax.axis("off")
+        tr = fig.dpi_scale_trans
+        y = top
+        for lines, pt, bold, colour, gap, first_bold in blocks_n:
+            y -= gap
+            for k, text in enumerate(lines):
+                fig.text(left, y, text, transform=tr, ha="left", va="top", fontsize=pt,
+                         fontweight="bold" if bold or (first_bold and k == 0) else "normal",
+                         color=colour, gid="frontshift-summary")
+                y -= pt * 1.35 / 72.0
+        y = bottom + tail_in
+        for lines, pt, bold, colour, gap, _ in tail:
+            y -= gap
+            for text in lines:
+                fig.text(left, y, text, transform=tr, ha="left", va="top", fontsize=pt,
+                         fontweight="bold" if bold else "normal", color=colour,
+                         gid="frontshift-summary")
+                y -= pt * 1.35 / 72.0
+        part = f" (page {n + 1} of {len(pages)})" if len(pages) > 1 else ""
+        style.stamp(fig, run=run, valid_time=tuple(valid_window), lead_h=None, source=source,
+                    extra=f"Briefing summary{part}: newest run, spread from the other runs",
+                    thin=thin)
         figs.append(fig)
     return figs
 
@@ -369,7 +671,11 @@ class BriefingPack:
         return self.pages
 
     def add_table(self, frame, *, title, run, valid_time=None, rows_per_page=24, thin=None):
-        """Add a table over as many pages as it needs; return the pages added."""
+        """Add a table over as many pages as it needs; return the pages added.
+
+        The header's valid window is ``valid_time``, else the pack's valid window.
+        """
+        valid_time = self.valid_window if valid_time is None else valid_time
         figs = table_figures(frame, title=title, run=run, valid_time=valid_time,
                              source=self.source, rows_per_page=rows_per_page, thin=thin)
         for fig in figs:

@@ -57,14 +57,20 @@ from kit.io.runs import open_run
 from kit.io.sites import check_sites_on_grid, read_sites
 from kit.model import fronts_table
 from kit.pipeline import analyse
-from kit.products.arrivals import arrival_table, thin_notes
-from kit.products.briefing import BriefingPack
+from kit.products.arrivals import (
+    arrival_table,
+    day_hour,
+    people_table,
+    site_lines,
+    summary_table,
+    thin_notes,
+)
+from kit.products.briefing import BriefingPack, cover_figure, summary_figures, table_figures
 from kit.products.files import (
     new_product_dir,
     save_figure,
     write_bytes,
     write_csv,
-    write_html_table,
     write_json,
     write_text,
 )
@@ -88,8 +94,9 @@ PRODUCT_KINDS = {
     "through_run": "Fronts through the run (small multiples)",
     "overview": "Front lines through the run, coloured by lead time",
     "section": "Cross-section through a site across a front",
-    "arrivals_csv": "Front arrivals per site (CSV, contract columns)",
-    "arrivals_html": "Front arrivals per site (HTML table)",
+    "summary_html": "Briefing summary: passages, spread and hazards per site (newest run)",
+    "arrivals_csv": "Front arrivals per site (CSV: every column, SI and original units)",
+    "arrivals_html": "Front arrivals per site (HTML table for people: ft, kt, day/hour Z)",
     "timeline": "Site timeline with front passages",
     "pack": "Briefing pack (PDF)",
     "manifest": "This list of products (JSON)",
@@ -239,9 +246,92 @@ def _section_skip(analysis, max_sections):
     return ""
 
 
+#: style of the people's HTML pages (summary, arrivals): wide tables scroll in their box
+_PAGE_CSS = (
+    "body{font-family:sans-serif;margin:1.5em;color:#1e2a33;max-width:80em}"
+    ".wrap{overflow-x:auto;max-width:100%}"
+    "table{border-collapse:collapse;font-size:0.9em}"
+    "td,th{padding:3px 8px;border-bottom:1px solid #ccd3d8;text-align:left;"
+    "vertical-align:top}th{background:#e9eef1}"
+    "td.note{max-width:22em;white-space:normal}tr.newest td{font-weight:bold}"
+    ".caution{color:#8a3b00;font-weight:bold}.muted{color:#5d6b75}"
+    "img{max-width:100%;height:auto}"
+)
+
+
+def _html_table(frame, *, newest_mark="(newest)"):
+    """Write a people's table as HTML: escaped cells, the newest run marked, in a scroll box."""
+    head = "".join(f"<th>{html.escape(str(c))}</th>" for c in frame.columns)
+    rows = []
+    for _, r in frame.iterrows():
+        cells = [str(v) for v in r.values]
+        cls = " class='newest'" if any(c.endswith(newest_mark) for c in cells) else ""
+        tds = "".join(
+            f"<td{' class=note' if col == 'Note' else ''}>{html.escape(c) if c else '-'}</td>"
+            for col, c in zip(frame.columns, cells, strict=True))
+        rows.append(f"<tr{cls}>{tds}</tr>")
+    return (f"<div class='wrap'><table><tr>{head}</tr>" + "".join(rows)
+            + "</table></div>")
+
+
+def _page(title, body):
+    return ("<!DOCTYPE html>\n<html><head><meta charset='utf-8'>"
+            f"<title>{html.escape(title)}</title><style>{_PAGE_CSS}</style></head><body>"
+            f"<h2>{html.escape(title)}</h2><p class='caution'>{html.escape(CAUTION)}</p>"
+            f"{body}</body></html>\n")
+
+
+def _runs_text(labels):
+    """Run labels for people, the newest (last) marked."""
+    return ", ".join(f"{x} (newest)" if k == len(labels) - 1 else x
+                     for k, x in enumerate(labels))
+
+
+def _arrivals_html(table, labels, window, notes):
+    """arrivals.html: the people's table (units in the headings); the CSV has every column."""
+    people = people_table(table, runs_window=window)
+    people = people[[c for c in people.columns if c in ("Site", "Front", "Run", "Passage")
+                     or (people[c] != "").any()]]
+    body = (f"<p>Runs {html.escape(_runs_text(labels))}; valid "
+            f"{html.escape(day_hour(window[0]))} to {html.escape(day_hour(window[1]))} "
+            "(times UTC as day/hour Z; heights in ft; speeds in kt; wind as direction/speed; "
+            "the newest run in bold). Every column, in SI and original units, is in "
+            "<a href='arrivals.csv'>arrivals.csv</a>.</p>"
+            + "".join(f"<p class='caution'>{html.escape(n)}</p>" for n in notes)
+            + _html_table(people))
+    return _page(f"Front arrivals at the sites: runs {', '.join(labels)}", body)
+
+
+def _summary_html(table, labels, newest_window, window, sites, map_rel, notes):
+    """summary.html: the briefing summary (as the first pages of the pack)."""
+    lines = site_lines(table, runs_window=newest_window, sites=list(sites["name"]))
+    items = "".join(
+        f"<li><b>{html.escape(x.partition(': ')[0])}</b>: "
+        f"{html.escape(x.partition(': ')[2]).replace(' | ', '<br>')}</li>" for x in lines)
+    summ = summary_table(table, runs_window=newest_window)
+    body = (
+        f"<p>Runs {html.escape(_runs_text(labels))}. Newest run valid "
+        f"{html.escape(day_hour(newest_window[0]))} to {html.escape(day_hour(newest_window[1]))}"
+        f"; all runs {html.escape(day_hour(window[0]))} to {html.escape(day_hour(window[1]))}. "
+        "Times UTC as day/hour Z, heights in ft, speeds in kt, wind as direction/speed.</p>"
+        + "".join(f"<p class='caution'>{html.escape(n)}</p>" for n in notes)
+        + f"<h3>At the sites (newest run)</h3><ul>{items}</ul>"
+        + "<h3>Passages and hazards (newest run; all runs = earliest to latest)</h3>"
+        + _html_table(summ)
+        + (f"<h3>Fronts of the newest run</h3><p><img src='{html.escape(map_rel)}' "
+           "alt='front lines of the newest run coloured by lead time, with the sites'></p>"
+           if map_rel else "")
+        + "<p>More: <a href='briefing_pack.pdf'>briefing pack (PDF)</a> &middot; "
+        "<a href='arrivals.html'>arrival table</a> &middot; <a href='index.html'>all products"
+        "</a></p>"
+    )
+    return _page(f"Shift briefing summary: newest run {labels[-1]}", body)
+
+
 def _index_html(manifest):
     rows = []
-    for f in manifest["files"]:
+    files = sorted(manifest["files"], key=lambda f: f["kind"] != "summary_html")
+    for f in files:
         link = html.escape(f["path"])
         thumb = (f"<img src='{link}' alt='' style='max-width:160px;max-height:110px'>"
                  if f["path"].endswith(".png") else "")
@@ -257,6 +347,7 @@ def _index_html(manifest):
         ".caution{color:#8a3b00;font-weight:bold}</style></head><body>"
         f"<h2>Shift products: runs {runs}</h2>"
         f"<p class='caution'>{html.escape(CAUTION)}</p>"
+        "<p><b>Start here: <a href='summary.html'>briefing summary</a></b></p>"
         f"<p>Valid {html.escape(manifest['valid_from'])} to {html.escape(manifest['valid_to'])}"
         f" &middot; fronts at {manifest['level_hpa']:g} hPa on {html.escape(manifest['field'])}"
         f" &middot; source: {html.escape(manifest['source'])}"
@@ -353,7 +444,7 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
     # how many products: the bar's real length
     map_times = [_map_times(ds, maps_every_h) for ds in runs]
     n_products = (2 + sum(len(t) + 2 for t in map_times) + len(section_jobs)
-                  + (2 if table is not None else 0)
+                  + (3 if table is not None else 0)
                   + (len(sites) if series else 0) + 2)
     bar.total = 4 + n_products
     bar.refresh()
@@ -399,16 +490,59 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
                    if a.dataset.attrs.get("thin"))
     if section_skip:
         summary.append(f"Cross-sections not made: {section_skip}")
-    contents = ["Fronts through the run and their tracks", "Frontal maps by valid time"]
-    if section_jobs:
-        contents.append("Cross-sections through the sites across passing fronts")
-    if table is not None:
-        contents.append("Arrival table (times UTC, speeds kt, heights m)")
-    if series:
-        contents.append("Site timelines")
+    newest_times = np.atleast_1d(runs[-1]["time"].values)
+    newest_window = (newest_times[0], newest_times[-1])
+    through = [np.atleast_1d(ds["time"].values).size > 1 for ds in runs]
+    skipped = [{"product": "section", "reason": section_skip}] if section_skip else []
+    skipped += [{"product": f"through_run {labels[k]}",
+                 "reason": "the run has one valid time; its overview map shows it"}
+                for k in range(len(runs)) if not through[k]]
     pack = BriefingPack(tmp / "briefing_pack.pdf", runs=labels, valid_window=(t_first, t_last),
-                        source=short_source, sites=list(sites["name"]), summary=summary,
-                        contents=contents, thin=thin_all or None)
+                        source=short_source, cover=False, thin=thin_all or None)
+    people_run = _runs_text(labels)
+    if table is not None:
+        first_pages = summary_figures(
+            run=people_run, valid_window=newest_window, source=short_source, thin=thin_all or None,
+            facts=[("Runs", people_run),
+                   ("Valid (newest run)", f"{day_hour(newest_window[0])} to "
+                                          f"{day_hour(newest_window[1])}"),
+                   ("Fronts", summary[0]),
+                   ("Sites", ", ".join(sites["name"]))]
+            + [("Thin run", line) for line in summary if " is thin: " in line]
+            + [("Note", f"Cross-sections not made: {section_skip}")] * bool(section_skip),
+            site_lines=site_lines(table, runs_window=newest_window, sites=list(sites["name"])))
+        first_pages += table_figures(
+            summary_table(table, runs_window=newest_window),
+            title="Summary: passages and hazards at the sites (newest run; all runs = earliest "
+                  "to latest)", run=people_run, valid_time=newest_window, source=short_source,
+            thin=thin_all or None)
+        table_pages = table_figures(table, title="Front arrivals per site (all runs)",
+                                    run=", ".join(labels), valid_time=(t_first, t_last),
+                                    source=short_source, thin=thin_all or None)
+    else:
+        first_pages, table_pages = [], []
+    # the appendix: its page numbers are known before it is drawn
+    n_first = len(first_pages) + 2  # + the newest run's map + the contents page
+    contents, page_no = [], n_first + 1
+
+    def entry(text, n_pages):
+        nonlocal page_no
+        if n_pages:
+            contents.append(f"p. {page_no}: {text}" if n_pages == 1
+                            else f"pp. {page_no}-{page_no + n_pages - 1}: {text}")
+            page_no += n_pages
+
+    entry("Fronts through the newest run (small multiples)", int(through[-1]))
+    entry(f"Frontal maps of the newest run by valid time ({len(map_times[-1])})",
+          len(map_times[-1]))
+    entry("Front lines of the older run(s), coloured by lead time", len(runs) - 1)
+    entry("Cross-sections through the sites across passing fronts", len(section_jobs))
+    entry("Arrival table, every run (times UTC, speeds kt, heights ft)", len(table_pages))
+    n_timelines = sum(any(k[0] == labels[-1] and k[2] == name for k in series)
+                      for name in sites["name"]) if (series and table is not None) else 0
+    entry("Site timelines (newest run)", n_timelines)
+    contents.insert(0, f"pp. 1-{n_first - 1}: Briefing summary, passages and hazards, "
+                       "map of the newest run")
     try:
         # fronts: GeoJSON and table
         bar.set_postfix_str("fronts")
@@ -429,19 +563,36 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
         ftable["caution"] = CAUTION
         products.add(write_csv(tmp / "fronts.csv", ftable), "fronts_csv", rows=len(ftable))
 
+        # the summary pages first: summary, table of the newest run, its map, contents
+        for fig in first_pages:
+            pack.add_figure(fig, title="summary")
+        products.figure(maps.fronts_overview(runs[-1], list(analyses[-1].fronts), level=level,
+                                             sites=sites),
+                        f"maps/overview_{_slug(labels[-1])}.png", "overview", pack=pack,
+                        run=labels[-1])
+        pack.add_figure(cover_figure(runs=labels, valid_window=(t_first, t_last),
+                                     source=short_source, sites=list(sites["name"]),
+                                     summary=summary, contents=contents,
+                                     thin=thin_all or None, heading="Appendix"),
+                        title="appendix contents")
+
         # maps, newest run first into the pack
         for k in reversed(range(len(runs))):
             ds, fronts, label = runs[k], list(analyses[k].fronts), labels[k]
             field_k = analyses[k].settings.field  # theta on a run without humidity
             in_pack = pack if k == len(runs) - 1 else None
             bar.set_postfix_str(f"maps {label}")
-            products.figure(maps.fronts_overview(ds, fronts, level=level, sites=sites),
-                            f"maps/overview_{_slug(label)}.png", "overview",
-                            pack=pack, run=label)
-            products.figure(maps.fronts_through_time(ds, fronts, level=level, field=field_k,
-                                                     sites=sites),
-                            f"maps/through_run_{_slug(label)}.png", "through_run",
-                            pack=in_pack, run=label)
+            if k != len(runs) - 1:
+                products.figure(maps.fronts_overview(ds, fronts, level=level, sites=sites),
+                                f"maps/overview_{_slug(label)}.png", "overview",
+                                pack=pack, run=label)
+            if through[k]:
+                products.figure(maps.fronts_through_time(ds, fronts, level=level,
+                                                         field=field_k, sites=sites),
+                                f"maps/through_run_{_slug(label)}.png", "through_run",
+                                pack=in_pack, run=label)
+            else:
+                bar.update(1)
             # one map frame per run, redrawn per valid time (same colours through the run)
             frame = maps.MapSeries(ds, sites=sites, level=level, field=field_k)
             for t in map_times[k]:
@@ -472,14 +623,15 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
             frame["caution"] = CAUTION
             products.add(write_csv(tmp / "arrivals.csv", frame), "arrivals_csv",
                          rows=len(frame))
-            title = (f"Front arrivals at {len(sites)} sites: runs {', '.join(labels)} "
-                     "(times UTC, speeds kt)")
-            page = table.drop(columns=["thin_run"], errors="ignore")  # said once, above it
-            products.add(write_html_table(tmp / "arrivals.html", page, title, CAUTION,
-                                          notes=thin_notes(table)),
+            notes = thin_notes(table)
+            products.add(write_text(tmp / "arrivals.html",
+                                    _arrivals_html(table, labels, (t_first, t_last), notes)),
                          "arrivals_html", rows=len(table))
-            pack.add_table(table, title="Front arrivals per site", run=", ".join(labels),
-                           thin=thin_all or None)
+            products.add(write_text(tmp / "summary.html", _summary_html(
+                table, labels, newest_window, (t_first, t_last), sites,
+                f"maps/overview_{_slug(labels[-1])}.png", notes)), "summary_html")
+            for fig in table_pages:
+                pack.add_figure(fig, title="Front arrivals per site")
             if series:
                 for _, site in sites.iterrows():
                     key = next((k for k in series if k[0] == labels[-1]
@@ -508,8 +660,8 @@ def write_shift_products(run_args, sites_path, out, *, level=850.0, field="theta
         }
         if thin:
             manifest["thin"] = thin
-        if section_skip:
-            manifest["skipped"] = [{"product": "section", "reason": section_skip}]
+        if skipped:
+            manifest["skipped"] = skipped
         products.add(write_json(tmp / "manifest.json", manifest), "manifest")
         manifest["files"] = products.files
         write_text(tmp / "index.html", _index_html(manifest))

@@ -89,7 +89,7 @@ from kit.constants import (
 )
 from kit.errors import InputError
 from kit.science import fronts as kf
-from kit.science import geo, thermo
+from kit.science import geo, sections, thermo
 from kit.science.geo import (
     PointSampler,
     direction_bearing_deg,
@@ -112,6 +112,7 @@ __all__ = [
     "missing_steps",
     "signed_distance_km",
     "ZoneCentre",
+    "SurfaceFront",
     "find_passages",
     "weather_sequence",
 ]
@@ -670,6 +671,88 @@ class ZoneCentre:
         return 0.0
 
 
+_FIELD_WORDS = {"theta_w": "theta-w", "theta": "theta"}
+
+
+def _estimate_words(front, surface, zone_centre):
+    """How a passage is placed when the 2-m field does not place it (for the table)."""
+    level = f"{front.level_hpa:.0f} hPa" if front.level_hpa is not None else "the front's level"
+    parts = [f"{level} line"]
+    if zone_centre:
+        parts.append("moved to its zone centre")
+    if surface:
+        parts.append("and down its slope" if zone_centre else "moved down its slope")
+    return "estimated: " + " ".join(parts)
+
+
+class SurfaceFront:
+    """Where the surface front lies relative to a site, measured in the run's 2-m field.
+
+    The one definition of the surface front (:func:`kit.science.sections.
+    surface_front_1d`): the centre of the near-surface thermal gradient zone
+    (2-m theta-w; 2-m theta on a thin run), found on the same profile a
+    cross-section through the site would cut (normal to the line's nearest
+    segment, through the site, 10 km spacing, the same interpolation and
+    smoothing), nearest the estimate from the front's level (its zone centre
+    moved by the slope). A run without 2-m fields has no measurement: the
+    estimate is used and the table says so.
+    """
+
+    #: profile half-length either side of the estimate [km], and its spacing [km]
+    HALF_KM, SPACING_KM = 450.0, 10.0
+
+    def __init__(self, ds, settings=None):
+        self.ds, self.sec = ds, sections
+        self.field = getattr(settings, "field", "theta_w") if settings is not None else (
+            "theta_w" if "td2m" in ds else "theta")
+        if self.field == "theta_w" and "td2m" not in ds:
+            self.field = "theta"
+        self.grid_km = float(sections.grid_km(ds))
+        self._one = {}
+
+    @property
+    def available(self):
+        """Whether the run has the 2-m fields the measurement needs."""
+        need = ("t2m", "td2m") if self.field == "theta_w" else ("t2m",)
+        return all(n in self.ds for n in need)
+
+    def _at(self, time, member):
+        key = (np.datetime64(time, "ns"), member)
+        if key not in self._one:
+            ds = self.ds
+            if "member" in ds.dims and member is not None:
+                ds = ds.sel(member=member)
+            keep = [n for n in ("t2m", "td2m", "mslp") if n in ds]
+            keep += sorted({ds[n].attrs["grid_mapping"] for n in keep
+                            if ds[n].attrs.get("grid_mapping") in ds.variables})
+            one = ds[keep].sel(time=key[0]) if "time" in ds.dims else ds[keep]
+            self._one[key] = one.load()
+        return self._one[key]
+
+    def distance_km(self, front, lat, lon, guess_km):
+        """Signed distance of the site from the surface front [km], + on the cold side.
+
+        ``guess_km`` is the estimate (same sign convention); NaN when the run
+        has no 2-m fields or no zone centre lies within 300 km of the estimate.
+        """
+        if not self.available or not np.isfinite(guess_km) or len(front.lon) < 2:
+            return np.nan
+        bearing, _s_front = self.sec.normal_through(front, lat, lon)
+        # along the normal toward the warm side a point at s puts the site on its
+        # cold side by s: the site's signed distance is the front's position s
+        s_km = np.arange(guess_km - self.HALF_KM, guess_km + self.HALF_KM + 1e-6,
+                         self.SPACING_KM)
+        plon, plat = geo.destination(np.full(s_km.size, float(lon)),
+                                     np.full(s_km.size, float(lat)),
+                                     np.full(s_km.size, bearing), s_km)
+        one = self._at(front.valid_time, front.member)
+        tau = self.sec.near_surface_profile(one, plat, plon, self.field)
+        if tau is None:
+            return np.nan
+        return self.sec.surface_front_1d(tau, s_km, self.sec.surface_smoothing_km(self.grid_km),
+                                         float(guess_km), +1)
+
+
 def _level_height(zlev, level, time):
     """Height of ``level`` at the site at ``time`` [m] (linear in time; NaN outside)."""
     zl = zlev.sel(level=level, method="nearest")
@@ -689,6 +772,7 @@ def find_passages(
     along_tolerance_km=100.0,
     miss_report_km=500.0,
     centre_finder=None,
+    surface_finder=None,
 ):
     """Passages of tracked fronts over one site.
 
@@ -716,6 +800,11 @@ def find_passages(
         Measures the line-to-centre distance in the run's own field (as
         :func:`kit.products.arrivals.arrival_table` does); without it the tanh estimate from the
         front's ``grad`` and ``tfp`` is used.
+    surface_finder : SurfaceFront, optional
+        Measures where the surface front lies in the run's 2-m field (the one
+        definition of the surface front, shared with the sections); the
+        estimate from the level (slope and zone centre) is its first guess and
+        is used alone where nothing is measured.
 
     Returns
     -------
@@ -724,7 +813,8 @@ def find_passages(
         hours since 1970, NaN for a miss), ``speed_kt`` (tracked speed of the
         line over the site [kt]), ``extrapolated`` (bool), ``surface_offset_km``
         (slope shift toward the warm side [km]), ``zone_centre_offset_km``
-        (shift toward the cold side [km]), ``level_hpa``, ``note``. A track that
+        (shift toward the cold side [km]), ``passage_from`` (how the surface
+        front was placed), ``level_hpa``, ``note``. A track that
         passes the site gives no miss; a track that does not gives at most one.
     """
     lat, lon = series.attrs["lat"], series.attrs["lon"]
@@ -762,6 +852,12 @@ def find_passages(
             # by `shift` puts the site farther on its cold side, and vice versa
             g["d_km"] += shift - centre
             g["shift"], g["centre"] = shift, centre
+            g["from"] = _estimate_words(f, surface, zone_centre)
+            if surface and surface_finder is not None and near and g["overshoot_km"] < 300.0:
+                measured = surface_finder.distance_km(f, lat, lon, g["d_km"])
+                if np.isfinite(measured):
+                    g["d_km"] = measured
+                    g["from"] = f"centre of the 2 m {_FIELD_WORDS.get(surface_finder.field)} zone"
             # a split track may hold several lines at one time: keep the nearest
             if (
                 h not in by_time
@@ -782,6 +878,8 @@ def find_passages(
             w = d0 / (d0 - d1)
             tp = h0 + w * (h1 - h0)
             kind = f0.kind if w < 0.5 else f1.kind
+            placed = g0["from"] if g0["from"] == g1["from"] else (
+                f"{g0['from']} at {format_utc(h0)}, {g1['from']} at {format_utc(h1)}")
             over = (1 - w) * g0["overshoot_km"] + w * g1["overshoot_km"]
             shift = (1 - w) * g0["shift"] + w * g1["shift"]
             centre = (1 - w) * g0["centre"] + w * g1["centre"]
@@ -801,6 +899,7 @@ def find_passages(
                     "extrapolated": False,
                     "surface_offset_km": shift,
                     "zone_centre_offset_km": centre,
+                    "passage_from": placed,
                     "level_hpa": f0.level_hpa,
                     "note": note,
                 }
@@ -832,6 +931,7 @@ def find_passages(
                                 "extrapolated": True,
                                 "surface_offset_km": gK["shift"],
                                 "zone_centre_offset_km": gK["centre"],
+                                "passage_from": gK["from"],
                                 "level_hpa": fK.level_hpa,
                                 "note": f"extrapolated {dt:.1f} h past the front's last "
                                 f"step ({format_utc(hK)}) at its tracked speed",
@@ -863,6 +963,7 @@ def _miss(tid, kind, front, g, tp, shift, centre, extrap=False):
         "extrapolated": extrap,
         "surface_offset_km": shift,
         "zone_centre_offset_km": centre,
+        "passage_from": g.get("from", ""),
         "level_hpa": front.level_hpa,
         "note": note,
         "_end_km": g["end_distance_km"],
@@ -934,6 +1035,37 @@ def round_or_nan(x, nd=0):
     return round(float(x), nd) if x is not None and np.isfinite(x) else np.nan
 
 
+def _wind_times(th, passage_h, window_h):
+    """When to read the wind before and after a passage: ``(before_h, after_h, note)``.
+
+    ``window_h`` either side, interpolated in time, where the run's steps are
+    closer than ``window_h`` around the passage. On sparse output (steps
+    farther apart, or a passage within ``window_h`` of the run's start or end)
+    interpolating would mix the winds of both sides, or there is nothing to
+    interpolate: the nearest model steps before and after the passage are
+    taken instead, and the note says which.
+    """
+    hb, ha = passage_h - window_h, passage_h + window_h
+    th = np.asarray(th, dtype=float)
+    before = th[th < passage_h - 1e-6]
+    after = th[th > passage_h + 1e-6]
+    if before.size == 0 or after.size == 0:
+        return hb, ha, ""
+    nb, na = float(before.max()), float(after.min())
+    if na - nb > window_h + 1e-6:  # sparse: interpolating would mix both sides
+        wb, wa = nb, na
+    else:  # dense: window_h either side, cut to the run's steps at its start and end
+        wb = hb if hb >= th[0] else nb
+        wa = ha if ha <= th[-1] else na
+    if (wb, wa) == (hb, ha):
+        return hb, ha, ""
+    return wb, wa, (f"wind before/after from {format_utc(wb)} and {format_utc(wa)} (the "
+                    f"nearest model steps; {window_h:g} h either side is not in the run)"
+                    if na - nb <= window_h + 1e-6 else
+                    f"wind before/after from the model steps at {format_utc(wb)} and "
+                    f"{format_utc(wa)} (output every {na - nb:g} h)")
+
+
 def weather_sequence(
     series,
     passage_h,
@@ -981,10 +1113,11 @@ def weather_sequence(
             return np.nan
         return _interp(th, np.asarray(series[var].values, dtype=float), h)
 
-    # wind
-    # wind: interpolate the components in time, never the direction
-    ub, vb = at("wind_u_ms", hb), at("wind_v_ms", hb)
-    ua, va = at("wind_u_ms", ha), at("wind_v_ms", ha)
+    # wind: interpolate the components in time, never the direction; on sparse
+    # output the nearest model steps either side of the passage
+    wb, wa, wind_from = _wind_times(th, passage_h, window_h)
+    ub, vb = at("wind_u_ms", wb), at("wind_v_ms", wb)
+    ua, va = at("wind_u_ms", wa), at("wind_v_ms", wa)
     db, da_ = float(_wind_dir(ub, vb)), float(_wind_dir(ua, va))
     sb, sa = float(np.hypot(ub, vb)), float(np.hypot(ua, va))
     turn = np.nan
@@ -1064,7 +1197,10 @@ def weather_sequence(
             if low.any()
             else "no"
         )
-    row["wind_note"] = f"wind under {LIGHT_WIND_KT:g} kt: turn uncertain" if light else ""
+    notes = [wind_from] if wind_from else []
+    if light:
+        notes.append(f"wind under {LIGHT_WIND_KT:g} kt: turn uncertain")
+    row["wind_note"] = "; ".join(notes)
     # rule of thumb (common practice, no source)
     row.update(rule_rain_what="", rule_rain_from_utc="", rule_rain_to_utc="")
     if np.isfinite(speed_kt) and speed_kt >= 5.0:

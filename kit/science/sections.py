@@ -60,6 +60,12 @@ __all__ = [
     "pick_front",
     "potential_vorticity",
     "locate_frontal_surface",
+    "surface_front_1d",
+    "grid_km",
+    "normal_through",
+    "near_surface_profile",
+    "surface_smoothing_km",
+    "SURFACE_SEARCH_KM",
     "fit_frontal_slope",
     "compass_point",
     "select_time",
@@ -175,6 +181,11 @@ def _is_projected(ds):
 
 def _horizontal_dims(ds):
     return ("y", "x") if _is_projected(ds) else ("lat", "lon")
+
+
+def grid_km(ds):
+    """Typical grid length of a run [km] (the x spacing, or the latitude spacing)."""
+    return _grid_km(ds)
 
 
 def _grid_km(ds):
@@ -493,6 +504,75 @@ def _front_candidates(tau, dist_km, smoothing_km):
     return out
 
 
+def surface_smoothing_km(grid_km):
+    """Smoothing of near-surface profiles [km]: 25 km, never under one grid length."""
+    return max(25.0, float(grid_km))
+
+
+#: how far from its first guess the surface front is looked for [km]
+SURFACE_SEARCH_KM = 300.0
+
+
+def surface_front_1d(tau, dist_km, smoothing_km, guess_km, warm_sign,
+                     window_km=SURFACE_SEARCH_KM):
+    """Position of the surface front on a near-surface profile: the zone's centre [km].
+
+    THE definition of the surface front of every product (table, section,
+    timeline): the centre of the near-surface thermal gradient zone (2-m
+    theta-w, or theta on a thin run), i.e. the maximum of the smoothed
+    gradient ``|dtau/ds|``, the middle of the temperature change, where a
+    station sees the step (the 850-hPa locating line marks the zone's warm
+    edge instead, Hewson 1998). Among the gradient maxima of at least a
+    quarter of the profile's largest, with warmer air toward ``warm_sign``,
+    the one nearest ``guess_km`` within ``window_km`` is taken; the maximum is
+    refined with a parabola through its neighbours.
+
+    Parameters
+    ----------
+    tau : array_like
+        Near-surface thermal field along the profile [K] (NaN where missing).
+    dist_km : array_like
+        Distance along the profile, evenly spaced [km].
+    smoothing_km : float
+        Gaussian smoothing scale [km].
+    guess_km : float
+        Where the surface front is expected [km].
+    warm_sign : int
+        +1 when the warm side is toward larger distance, -1 otherwise.
+    window_km : float
+        Largest distance from the guess [km].
+
+    Returns
+    -------
+    float
+        Position [km]; NaN when no zone centre lies within the window.
+    """
+    tau = np.asarray(tau, float)
+    dist_km = np.asarray(dist_km, float)
+    if tau.size < 5 or not np.isfinite(guess_km) or np.isfinite(tau).sum() < 5:
+        return np.nan
+    ds_km = float(np.median(np.diff(dist_km)))
+    tau_s = _nan_gaussian_1d(tau, smoothing_km / ds_km)
+    g = np.gradient(tau_s, dist_km * 1000.0) * warm_sign  # > 0 where warmer ahead
+    if not np.isfinite(g).any() or np.nanmax(g) <= 0:
+        return np.nan
+    gmax = np.nanmax(g)
+    best = np.nan
+    for m in range(1, g.size - 1):
+        a, b, c = g[m - 1], g[m], g[m + 1]
+        if not (np.isfinite(a) and np.isfinite(b) and np.isfinite(c)):
+            continue
+        if b < 0.25 * gmax or not (b >= a and b > c):
+            continue
+        den = a - 2.0 * b + c
+        pos = dist_km[m] + (0.5 * (a - c) / den * ds_km if den < 0 else 0.0)
+        if abs(pos - guess_km) <= window_km and (
+            not np.isfinite(best) or abs(pos - guess_km) < abs(best - guess_km)
+        ):
+            best = float(pos)
+    return best
+
+
 def locate_frontal_surface(sec, *, field="theta_w", reference_km=None, reference_hpa=850.0,
                            smoothing_km=None, top_hpa=500.0):
     """Position of the frontal surface on each level of a section.
@@ -795,19 +875,19 @@ def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smooth
     sec.attrs["frontal_surface_leans_over_cold_air"] = int(bool(leans))
     sec.attrs["cold_side"] = {-1: "start", 1: "end"}.get(cold, "")
 
-    # surface front: on the 2 m theta-w (theta on a thin run) when the run has it, else
-    # the lowest located level
+    # surface front (surface_front_1d, the one definition of every product): the
+    # centre of the 2 m theta-w (theta on a thin run) zone when the run has it,
+    # nearest the frontal surface's lowest located level; else that level
     surf, how = np.nan, ""
     surface = f"{field}_surface"
     if surface in sec and cold != 0:
         ref = pos[np.isfinite(pos)][0] if np.isfinite(pos).any() else reference_km
-        c = [c for c in _front_candidates(sec[surface].values, dist,
-                                          smoothing_km or max(25.0, sec.attrs["grid_km"]))
-             if c[2] == -cold]
-        if c and ref is not None:
-            best = min(c, key=lambda q: abs(q[0] - ref))
-            if abs(best[0] - ref) <= 300.0:
-                surf, how = best[0], f"2 m {_FIELD_WORDS[field]}"
+        if ref is not None:
+            surf = surface_front_1d(sec[surface].values, dist,
+                                    smoothing_km or surface_smoothing_km(sec.attrs["grid_km"]),
+                                    float(ref), -cold)
+            if np.isfinite(surf):
+                how = f"centre of the 2 m {_FIELD_WORDS[field]} zone"
     if not np.isfinite(surf) and np.isfinite(pos).any():
         k = int(np.flatnonzero(np.isfinite(pos))[0])
         surf, how = float(pos[k]), f"lowest located level ({sec['level'].values[k]:.0f} hPa)"
@@ -901,6 +981,72 @@ def _point_of(site_or_point):
         return lat, lon, name
     lat, lon = _check_point(site_or_point, "point")
     return lat, lon, ""
+
+
+def normal_through(front, lat, lon):
+    """Return the front's normal through a point: bearing toward the warm side, crossing.
+
+    The normal is that of the line's segment nearest the point (the way
+    :func:`section_across_front` and the arrival table's surface front both
+    cut across a front).
+
+    Returns
+    -------
+    bearing : float
+        Direction toward the warm side [degrees clockwise from north].
+    s_front : float
+        Where the line crosses the normal, from the point toward the warm side [km].
+    """
+    x, y = local_east_north_km(np.asarray(front.lon, float), np.asarray(front.lat, float),
+                               lon, lat)
+    _, px, py, i, t = _nearest_on_line(x, y)
+    tx, ty = x[i + 1] - x[i], y[i + 1] - y[i]
+    tl = math.hypot(tx, ty)
+    if tl == 0:
+        raise InputError("front: repeated vertices; expected a front line")
+    nx, ny = -ty / tl, tx / tl
+    ne = np.asarray(front.normal_east, float)
+    nn = np.asarray(front.normal_north, float)
+    ce = (1 - t) * ne[i] + t * ne[i + 1]
+    cn = (1 - t) * nn[i] + t * nn[i + 1]
+    if nx * ce + ny * cn < 0:
+        nx, ny = -nx, -ny  # (nx, ny) now points to the cold side
+    wx, wy = -nx, -ny  # toward the warm side
+    return math.degrees(math.atan2(wx, wy)) % 360.0, float(px * wx + py * wy)
+
+
+def near_surface_profile(one, lat, lon, field):
+    """Sample the near-surface thermal field along points, as a section does [K].
+
+    Parameters
+    ----------
+    one : xarray.Dataset
+        The run at one valid time and member (``t2m``, ``td2m``, ``mslp``).
+    lat, lon : array_like
+        The points [degrees].
+    field : {"theta_w", "theta"}
+        2-m theta-w (mslp as surface pressure, 1013.25 hPa without it) or 2-m theta.
+
+    Returns
+    -------
+    numpy.ndarray or None
+        NaN outside the grid; None when the run lacks the 2-m fields.
+    """
+    need = ["t2m", "td2m"] if field == "theta_w" else ["t2m"]
+    if any(n not in one for n in need):
+        return None
+    keep = need + [n for n in ("mslp",) if n in one]
+    keep += sorted({one[n].attrs["grid_mapping"] for n in need
+                    if one[n].attrs.get("grid_mapping") in one.variables})
+    sub = one[keep]
+    j, i = _grid_index(sub, np.asarray(lat, float), np.asarray(lon, float))
+    flat = PointSampler(sub).sample_dataset(sub, index=(j, i), nan="propagate", dim="distance")
+    n = np.asarray(lat).size
+    psfc = (flat["mslp"].values / 100.0) if "mslp" in flat else np.full(n, 1013.25)
+    if field == "theta_w":
+        return np.asarray(thermo.wet_bulb_potential_temperature(
+            flat["t2m"].values, flat["td2m"].values, psfc), float)
+    return np.asarray(thermo.potential_temperature(flat["t2m"].values, psfc), float)
 
 
 def _nearest_on_line(x, y):
@@ -1014,23 +1160,7 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
         m = len(front.lon) // 2
         p = (float(front.lat[m]), float(front.lon[m]), "")
     slat, slon, sname = p
-    x, y = local_east_north_km(np.asarray(front.lon, float), np.asarray(front.lat, float),
-                               slon, slat)
-    _, px, py, i, t = _nearest_on_line(x, y)
-    tx, ty = x[i + 1] - x[i], y[i + 1] - y[i]
-    tl = math.hypot(tx, ty)
-    if tl == 0:
-        raise InputError("front: repeated vertices; expected a front line")
-    nx, ny = -ty / tl, tx / tl
-    ne = np.asarray(front.normal_east, float)
-    nn = np.asarray(front.normal_north, float)
-    ce = (1 - t) * ne[i] + t * ne[i + 1]
-    cn = (1 - t) * nn[i] + t * nn[i + 1]
-    if nx * ce + ny * cn < 0:
-        nx, ny = -nx, -ny  # (nx, ny) now points to the cold side
-    wx, wy = -nx, -ny  # toward the warm side
-    bearing = math.degrees(math.atan2(wx, wy)) % 360.0
-    s_front = px * wx + py * wy  # front crossing relative to the site along the section [km]
+    bearing, s_front = normal_through(front, slat, slon)
     L = float(length_km)
     c = s_front if abs(s_front) <= 0.4 * L else 0.5 * s_front
     s0, s1 = c - L / 2.0, c + L / 2.0
