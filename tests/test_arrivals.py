@@ -756,3 +756,26 @@ def test_timeline_of_one_step_without_surface_fields():
     assert "2 m temperature and dew point not in this run" in texts
     assert "precipitation not in this run" in texts
     assert "no front passage" in texts
+
+
+def test_cloud_base_is_a_band_between_the_column_points():
+    """Issue 16 item 5: the base is given only to the band the model column resolves
+    (2 m, then pressure levels hundreds of metres apart), never as a finer value."""
+    from kit.science.passages import _cloud_band
+
+    z = np.array([10.0, 120.0, 780.0, 1460.0, 3010.0])  # 2 m, 1000, 925, 850, 700 hPa [m]
+    rh = np.array([0.80, 0.85, 0.90, 0.97, 0.99])
+    assert _cloud_band(z, rh, 0.95) == (780.0, 1460.0)  # between 925 and 850 hPa
+    rh_fog = np.array([0.98, 0.99, 0.90, 0.97, 0.99])
+    assert _cloud_band(z, rh_fog, 0.95) == (10.0, 120.0)  # from the ground up
+    assert all(np.isnan(_cloud_band(z, np.full(5, 0.5), 0.95)))
+
+
+def test_table_cloud_band_bounds_its_lowest_base():
+    ds, fronts = make_run(kind="warm", passage_h=12.0)
+    row = arrival_table([analysis_of(ds, fronts)], site_frame()).iloc[0]
+    lo, hi = row["cloud_base_low_ft_agl"], row["cloud_base_high_ft_agl"]
+    # this synthetic run is saturated at 2 m ahead of its warm front: from the ground
+    # to the next point of the column (1000 hPa, about 110 m = 400 ft above the site)
+    assert (lo, hi) == (0.0, 400.0)
+    assert row["cloud_base_min_ft_agl"] == lo

@@ -263,14 +263,19 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 label=label,
             )
         if humid:
-            ax_h.plot(
-                times,
-                series["cloud_base_m"].values * FT_PER_M,
+            # the base is known only to the band between the column's points
+            # (kit.science.passages): drawn as the band, never as a line finer than that
+            low = series["cloud_base_low_m"].values * FT_PER_M
+            high = series["cloud_base_high_m"].values * FT_PER_M
+            ok = np.isfinite(low) & np.isfinite(high)
+            ax_h.vlines(
+                times[ok],
+                low[ok],
+                np.maximum(high[ok], low[ok] + 100.0),
                 color=TIMELINE_COLOURS["cloud_base"],
-                lw=0,
-                marker="v",
-                ms=5,
-                label="cloud base (RH >= 95 %)",
+                lw=4,
+                alpha=0.8,
+                label="cloud base lies in this band (RH >= 95 % between model levels)",
             )
         else:
             ax_h.text(
@@ -306,7 +311,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 [
                     (series["freezing_level_m"].values - elev) * FT_PER_M,
                     (series["wet_bulb_freezing_level_m"].values - elev) * FT_PER_M,
-                    series["cloud_base_m"].values * FT_PER_M,
+                    series["cloud_base_high_m"].values * FT_PER_M,
                     [1000.0],
                 ]
             )

@@ -123,6 +123,8 @@ EXTRA_COLUMNS = [
     "cloud_base_before_ft_agl",
     "cloud_base_min_ft_agl",
     "cloud_base_min_utc",
+    "cloud_base_low_ft_agl",
+    "cloud_base_high_ft_agl",
     "fzra_start_utc",
     "fzra_end_utc",
     "fzra_warm_layer_max_c",
@@ -174,9 +176,17 @@ COLUMN_NOTES = {
     "thetaw_change_k": "theta-w at the front's level after minus before [K]",
     "wet_bulb_freezing_level_before_m": "wet-bulb 0 C level before [m above mean sea level]",
     "wet_bulb_freezing_level_after_m": "wet-bulb 0 C level after [m above mean sea level]",
-    "cloud_base_before_ft_agl": "lowest level with RH >= 95 % 3 h before [ft above site]",
-    "cloud_base_min_ft_agl": "lowest such level from 12 h before to 3 h after [ft above site]",
+    "cloud_base_before_ft_agl": "cloud base 3 h before, lower bound of its band (below) "
+    "[ft above site]",
+    "cloud_base_min_ft_agl": "lowest cloud base from 12 h before to 3 h after, lower bound of "
+    "its band [ft above site]",
     "cloud_base_min_utc": "time of that lowest base [UTC]",
+    "cloud_base_low_ft_agl": "the lowest cloud base lies between this and cloud_base_high_ft_agl "
+    "[ft above site]: between the highest unsaturated and the lowest saturated point (RH >= "
+    "95 %, common practice, no source) of the model column (2 m, then the pressure levels "
+    "above the site, often 500-800 m apart); 0 when saturated at 2 m (fog or cloud on the "
+    "ground possible); a model diagnosis, not an observation",
+    "cloud_base_high_ft_agl": "upper bound of that band [ft above site]",
     "fzra_start_utc": "first step with air above 0 C aloft over sub-zero ground air [UTC]",
     "fzra_end_utc": "last such step (freezing rain / ice pellets possible) [UTC]",
     "fzra_warm_layer_max_c": "warmest temperature in that layer aloft [C]",

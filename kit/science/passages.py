@@ -223,6 +223,25 @@ def _columns(z_lev, x_lev, z_sfc, x_sfc):
     return z, x
 
 
+def _cloud_band(z, rh, threshold):
+    """Band the cloud base lies in, as the model column resolves it: (low, high) [m].
+
+    Between the highest point below the lowest saturated point (RH >= the
+    threshold) and that saturated point: the column's points are 2 m and the
+    pressure levels above the ground, several hundred metres apart, so the
+    base is known only to that band. Saturated at 2 m: from the ground to the
+    next point (fog or cloud on the ground possible). (NaN, NaN) without a
+    saturated point.
+    """
+    sat = np.flatnonzero(np.isfinite(rh) & (rh >= threshold))
+    if z.size == 0 or sat.size == 0:
+        return np.nan, np.nan
+    k = int(sat[0])
+    if k == 0:
+        return float(z[0]), float(z[1]) if z.size > 1 else float(z[0])
+    return float(z[k - 1]), float(z[k])
+
+
 def _lowest_saturated(z, rh, threshold):
     """Height of the lowest level where RH reaches ``threshold`` [m]; NaN if none."""
     if z.size == 0:
@@ -401,6 +420,8 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
         "freezing_level_m",
         "wet_bulb_freezing_level_m",
         "cloud_base_m",
+        "cloud_base_low_m",
+        "cloud_base_high_m",
         "warm_layer_base_m",
         "warm_layer_top_m",
         "warm_layer_max_c",
@@ -420,10 +441,14 @@ def _derive(ds, s, name, lat, lon, elev, row, col):
     for idx in np.ndindex(*shape) if humid else ():
         zr, rc = _column(zz[idx], rhv[idx], z_sfc, rh_s[idx])
         res["cloud_base_m"][idx] = _lowest_saturated(zr, rc, CLOUD_RH) - z_sfc
+        res["cloud_base_low_m"][idx], res["cloud_base_high_m"][idx] = (
+            np.asarray(_cloud_band(zr, rc, CLOUD_RH)) - z_sfc)
     units = {
         "freezing_level_m": "m above mean sea level",
         "wet_bulb_freezing_level_m": "m above mean sea level",
         "cloud_base_m": "m above site",
+        "cloud_base_low_m": "m above site",
+        "cloud_base_high_m": "m above site",
         "warm_layer_base_m": "m above mean sea level",
         "warm_layer_top_m": "m above mean sea level",
         "warm_layer_max_c": "degC",
@@ -1166,14 +1191,22 @@ def weather_sequence(
         )
     # cloud base proxy [ft above site]
     cb = np.asarray(series["cloud_base_m"].values, dtype=float)
-    row["cloud_base_before_ft_agl"] = round_or_nan(at("cloud_base_m", hb) * FT_PER_M, -2)
-    win = (th >= passage_h - 12.0) & (th <= passage_h + window_h) & np.isfinite(cb)
+    row["cloud_base_before_ft_agl"] = round_or_nan(at("cloud_base_low_m", hb) * FT_PER_M, -2)
+    # the lowest band from 12 h before to window_h after: never finer than the
+    # column resolves (kit.science.passages._cloud_band), rounded to 100 ft
+    lo_m = np.asarray(series["cloud_base_low_m"].values, dtype=float)
+    hi_m = np.asarray(series["cloud_base_high_m"].values, dtype=float)
+    win = (th >= passage_h - 12.0) & (th <= passage_h + window_h) & np.isfinite(hi_m)
     if win.any():
-        k = np.nonzero(win)[0][int(np.argmin(cb[win]))]
-        row["cloud_base_min_ft_agl"] = round_or_nan(cb[k] * FT_PER_M, -2)
+        idx = np.nonzero(win)[0]
+        k = idx[int(np.lexsort((lo_m[idx], hi_m[idx]))[0])]
+        row["cloud_base_min_ft_agl"] = round_or_nan(lo_m[k] * FT_PER_M, -2)
+        row["cloud_base_low_ft_agl"] = round_or_nan(lo_m[k] * FT_PER_M, -2)
+        row["cloud_base_high_ft_agl"] = round_or_nan(hi_m[k] * FT_PER_M, -2)
         row["cloud_base_min_utc"] = format_utc(series["time"].values[k])
     else:
         row["cloud_base_min_ft_agl"], row["cloud_base_min_utc"] = np.nan, ""
+        row["cloud_base_low_ft_agl"] = row["cloud_base_high_ft_agl"] = np.nan
     # freezing rain / ice pellets: warm layer aloft over sub-zero ground air
     wl = np.asarray(series["warm_layer_max_c"].values, dtype=float)
     lo, hi = (24.0, window_h) if front_kind in ("warm", "quasi-stationary") else (window_h, 12.0)
