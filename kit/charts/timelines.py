@@ -101,6 +101,25 @@ def _panel_legend(ax, loc):
     )
 
 
+def _precip_types(ax, rows, series, times, y):
+    """Write each spell's precipitation type (the table's ``precip_type``) at its start."""
+    if rows is None or not len(rows) or "precip_type" not in rows:
+        return
+    run = series.attrs.get("run")
+    done = set()
+    for _, r in rows.iterrows():
+        what, start = str(r.get("precip_type") or ""), str(r.get("precip_start_utc") or "")
+        if not what or not start or (run and r.get("run") not in (None, "", run)):
+            continue
+        t = np.datetime64(start.rstrip("Z"), "ns")
+        if (what, t) in done or t < times[0] or t > times[-1]:
+            continue
+        done.add((what, t))
+        ax.text(mdates.date2num(t), y, what, fontsize=FONT["small"], ha="left", va="top",
+                color=INK, gid="precip-type", zorder=8, clip_on=True,
+                bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.85})
+
+
 def timeline_figure(series, rows=None, *, title_extra=None):
     """Draw the timeline of one site.
 
@@ -206,6 +225,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             rates = np.asarray(series["precip"].values, dtype=float)
             peak = float(np.nanmax(rates)) if np.isfinite(rates).any() else 0.0
             ax_p.set_ylim(0, max(1.0, peak) * 1.3)
+            _precip_types(ax_p, rows, series, times, max(1.0, peak) * 1.12)
         else:
             absent(ax_p, "precipitation")
         ax_p.set_ylabel("[mm/h]")

@@ -129,6 +129,7 @@ EXTRA_COLUMNS = [
     "fzra_end_utc",
     "fzra_warm_layer_max_c",
     "snow_risk",
+    "precip_type",
     "rule_rain_what",
     "rule_rain_from_utc",
     "rule_rain_to_utc",
@@ -187,6 +188,10 @@ COLUMN_NOTES = {
     "above the site, often 500-800 m apart); 0 when saturated at 2 m (fog or cloud on the "
     "ground possible); a model diagnosis, not an observation",
     "cloud_base_high_ft_agl": "upper bound of that band [ft above site]",
+    "precip_type": "type of the precipitation spell step by step (rain, snow, freezing rain or "
+    "ice pellets, e.g. 'snow then rain'): freezing rain or ice pellets under a warm layer "
+    "aloft over sub-zero ground air, snow with the wet-bulb 0 C level under 300 m above the "
+    "site (common practice, no source); 'precipitation' when the run has no humidity",
     "fzra_start_utc": "first step with air above 0 C aloft over sub-zero ground air [UTC]",
     "fzra_end_utc": "last such step (freezing rain / ice pellets possible) [UTC]",
     "fzra_warm_layer_max_c": "warmest temperature in that layer aloft [C]",

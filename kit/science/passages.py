@@ -230,15 +230,17 @@ def _cloud_band(z, rh, threshold):
     threshold) and that saturated point: the column's points are 2 m and the
     pressure levels above the ground, several hundred metres apart, so the
     base is known only to that band. Saturated at 2 m: from the ground to the
-    next point (fog or cloud on the ground possible). (NaN, NaN) without a
-    saturated point.
+    first point at least 100 m above it (fog or cloud on the ground possible).
+    (NaN, NaN) without a saturated point.
     """
     sat = np.flatnonzero(np.isfinite(rh) & (rh >= threshold))
     if z.size == 0 or sat.size == 0:
         return np.nan, np.nan
     k = int(sat[0])
-    if k == 0:
-        return float(z[0]), float(z[1]) if z.size > 1 else float(z[0])
+    if k == 0:  # up to the first point at least 100 m above the ground (a level just
+        # above the ground resolves nothing)
+        above = np.flatnonzero(z >= z[0] + 100.0)
+        return float(z[0]), float(z[above[0]] if above.size else z[-1])
     return float(z[k - 1]), float(z[k])
 
 
@@ -1060,6 +1062,36 @@ def round_or_nan(x, nd=0):
     return round(float(x), nd) if x is not None and np.isfinite(x) else np.nan
 
 
+def _precip_type(th, spell, warm_layer_max_c, series):
+    """Type of the precipitation spell, step by step in order: ``"snow then rain"``.
+
+    At each wet step: freezing rain or ice pellets where a layer above 0 C
+    aloft lies over sub-zero air at the ground (the FZRA/PL window), else
+    snow where the wet-bulb 0 C level is under :data:`SNOW_WBFL_M` above the
+    site, else rain (common practice, no source); "" without precipitation,
+    "precipitation" where the run has no humidity to tell (thin run).
+    """
+    if not spell:
+        return ""
+    wet = (th > spell[0] - 1e-9) & (th <= spell[1] + 1e-9)
+    wb = np.asarray(series["wet_bulb_freezing_level_m"].values, dtype=float) - float(
+        series.attrs.get("elevation_m", 0.0)
+    )
+    if not np.isfinite(wb[wet]).any():
+        return "precipitation"
+    kinds = []
+    for k in np.nonzero(wet)[0]:
+        if np.isfinite(warm_layer_max_c[k]):
+            kind = "freezing rain or ice pellets"
+        elif np.isfinite(wb[k]) and wb[k] < SNOW_WBFL_M:
+            kind = "snow"
+        else:
+            kind = "rain"
+        if not kinds or kinds[-1] != kind:
+            kinds.append(kind)
+    return " then ".join(kinds)
+
+
 def _wind_times(th, passage_h, window_h):
     """When to read the wind before and after a passage: ``(before_h, after_h, note)``.
 
@@ -1230,6 +1262,7 @@ def weather_sequence(
             if low.any()
             else "no"
         )
+    row["precip_type"] = _precip_type(th, sp, wl, series)
     notes = [wind_from] if wind_from else []
     if light:
         notes.append(f"wind under {LIGHT_WIND_KT:g} kt: turn uncertain")
