@@ -150,3 +150,22 @@ def test_rerun_and_briefing_panels_bad_paths(tmp_path):
     assert "color:#a11d1d" in brief.message.value
     assert "Traceback" not in brief.message.value
     assert brief.folder is None
+
+
+def test_briefing_panel_one_write_per_action(tmp_path, monkeypatch):
+    # issue 16: notebook 05 wrote on "Run all" and again on its button
+    calls = []
+
+    def fake_write(runs, sites, out, **kw):
+        folder = tmp_path / f"set{len(calls)}"
+        folder.mkdir()
+        (folder / "manifest.json").write_text('{"files": []}')
+        calls.append(folder)
+        return folder
+
+    monkeypatch.setattr(panels, "write_shift_products", fake_write)
+    brief = panels.briefing_panel(["run"], "sites.csv", out_dir=tmp_path).controller
+    first = brief.written()  # the notebook's cell: writes once
+    assert brief.written() == first and len(calls) == 1  # running it again: no new set
+    brief.write_button.click()  # a press: one new set
+    assert len(calls) == 2 and brief.written() == calls[-1]

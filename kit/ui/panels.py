@@ -816,6 +816,18 @@ class _BriefingPanel:
         self.say(f"{len(manifest['files'])} products written to {folder}", "ok")
         return folder
 
+    def written(self):
+        """The folder of this panel's last write, writing once if nothing was written yet.
+
+        For the notebook's own cell: "Run all" writes one set, and a press of
+        *Write products* before or after writes one more, never two per action.
+        """
+        if self.folder is not None:
+            self.say(f"products already written to {self.folder} (press Write products "
+                     "for a new set)", "ok")
+            return self.folder
+        return self.write()
+
 
 def briefing_panel(runs, sites, **kwargs):
     """Build the panel that writes the briefing pack and every shift product."""
