@@ -27,10 +27,10 @@ import numpy as np
 import pytest
 from grib_synth import LEVELS, U_EARTH, V_EARTH, fields_at, grid_of, write_run
 from pyproj import CRS, Proj, Transformer
+from test_badinput_loader import raises_one_line
 
 import kit
 from kit.cli import main
-from kit.errors import InputError
 from kit.io.grib import open_grib, walk_messages
 
 REAL = Path(__file__).resolve().parent / "real_data"
@@ -40,16 +40,6 @@ NAM_NC = REAL / "nam_awp211_20180917T00Z.nc"
 ERA5_GRIB = GRIB / "era5_members_20170101_2an.grib"
 ERA5_NC = REAL / "era5_enda_members_20170101.nc"
 REPO = Path(__file__).resolve().parents[1]
-
-
-def raises_one_line(func, *needles):
-    with pytest.raises(InputError) as info:
-        func()
-    msg = str(info.value)
-    assert "\n" not in msg, msg
-    for n in needles:
-        assert n.lower() in msg.lower(), f"{n!r} not in {msg!r}"
-    return msg
 
 
 def eccodes_fields(path, multi=True):

@@ -936,8 +936,8 @@ def find_passages(
             if len(steps) >= 2:
                 hJ, _, gJ = steps[-2]
                 rate = (gK["d_km"] - gJ["d_km"]) / (hK - hJ)  # km h-1
-            else:
-                sp = fK.motion_speed_ms
+            else:  # one step: the front's one speed (tracked, else the front-normal wind)
+                sp = fK.speed_best_ms
                 rate = -float(sp) * 3.6 if sp is not None and np.isfinite(sp) else 0.0
             dK = gK["d_km"]
             if rate != 0 and dK * rate < 0 and abs(rate) <= _MAX_FRONT_SPEED_KMH:
@@ -961,7 +961,9 @@ def find_passages(
                                 "passage_from": gK["from"],
                                 "level_hpa": fK.level_hpa,
                                 "note": f"extrapolated {dt:.1f} h past the front's last "
-                                f"step ({format_utc(hK)}) at its tracked speed",
+                                f"step ({format_utc(hK)}) at "
+                                + ("its tracked speed" if len(steps) >= 2 else
+                                   f"its speed ({fK.speed_source}: one step only)"),
                             }
                         )
         out.extend(hits)

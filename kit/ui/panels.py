@@ -44,8 +44,7 @@ from kit.errors import FrontshiftError, InputError
 from kit.io.runs import open_run
 from kit.io.sites import check_sites_on_grid, read_sites
 from kit.pipeline import analyse
-from kit.products.arrivals import arrival_table
-from kit.products.briefing import TABLE_COLUMNS
+from kit.products.arrivals import arrival_table, newest_run, people_table
 from kit.products.files import save_figure, write_csv, write_html_table, write_json
 from kit.products.fronts import fronts_to_geojson
 from kit.products.shift import write_shift_products
@@ -688,9 +687,10 @@ class _ArrivalsPanel:
         """Show the picked site's rows and its timeline for the picked run."""
         name = self.site_pick.value
         rows = self.table[self.table["site"] == name]
-        cols = [c for c in TABLE_COLUMNS if c in rows.columns]
-        self.table_html.value = rows[cols].rename(columns=TABLE_COLUMNS).to_html(
-            index=False, na_rep="", border=0)
+        # the people's table of every product (ft, kt, day/hour Z; the newest run marked)
+        shown = people_table(rows, newest=newest_run(self.table))
+        shown = shown[[c for c in shown.columns if (shown[c] != "").any()]]
+        self.table_html.value = shown.to_html(index=False, border=0, escape=True)
         key = next((k for k in self.series if k[0] == self.run_pick.value and k[2] == name),
                    None)
         if key is None:
@@ -817,7 +817,7 @@ class _BriefingPanel:
         return folder
 
     def written(self):
-        """The folder of this panel's last write, writing once if nothing was written yet.
+        """Return the folder of this panel's last write, writing once if nothing was yet.
 
         For the notebook's own cell: "Run all" writes one set, and a press of
         *Write products* before or after writes one more, never two per action.
