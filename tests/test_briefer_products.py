@@ -225,3 +225,19 @@ def test_one_step_run_gets_no_through_run_page(tmp_path):
     assert any(s["product"].startswith("through_run") for s in manifest["skipped"])
     for text in _pack_texts(folder):
         assert "+12 h to +12 h" not in text
+
+
+def test_same_passage_time_in_table_summary_and_pack(shift):
+    # issue 16: one passage time everywhere (the section agrees with the table by
+    # construction: tests/test_one_passage.py); here the CSV, summary.html and the pack
+    folder, _valid = shift
+    table = pd.read_csv(folder / "arrivals.csv", comment="#", keep_default_na=False)
+    newest = arrivals.newest_run(table)
+    rows = table[(table["run"].astype(str) == newest) & (table["passage_utc"] != "")]
+    assert len(rows), "the invented event has passages in its newest run"
+    summary = _html(folder)["summary.html"]
+    first_pages = " ".join(_pack_texts(folder)[:2])
+    for _, r in rows.iterrows():
+        words = f"{r['front_kind']} front about {arrivals.day_hour(r['passage_utc'])}"
+        assert words in summary, words
+        assert words in " ".join(first_pages.split()), words
