@@ -155,7 +155,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
         sharex=True,
         hspace=0.12,
         left_in=0.85,
-        right_in=0.35,
+        right_in=0.85,  # room for the ft AMSL scale of the heights
         bottom_in=0.5,
     )
     ax_t, ax_p, ax_w, ax_h = axes[:, 0]
@@ -326,6 +326,13 @@ def timeline_figure(series, rows=None, *, title_extra=None):
             )
             first_span = False
         ax_h.set_ylabel("[ft above site]")
+        # the tables give the 0 C levels above mean sea level (as aviation reads them):
+        # the same heights on a second scale, so both read the same number
+        off_ft = elev * FT_PER_M
+        amsl = ax_h.secondary_yaxis("right", functions=(lambda y: y + off_ft,
+                                                         lambda y: y - off_ft))
+        amsl.set_ylabel("[ft AMSL]")
+        amsl.set_gid("ft-amsl-axis")
         top = np.nanmax(
             np.concatenate(
                 [
