@@ -325,7 +325,7 @@ def test_front_misses_site():
 def test_signed_distance_sign_and_size():
     """[lib] distance from a meridian at 1 degree longitude at 50N: pyproj Geod of the
     perpendicular foot agrees within 0.5 km; sign positive on the cold side."""
-    pyproj = pytest.importorskip("pyproj")
+    import pyproj  # required: a missing one must fail
     ds, fronts = make_run(kind="cold", passage_h=100.0)  # front far west at t=0
     f = fronts[0].replace(lon=np.full_like(fronts[0].lat, -1.0))
     g = signed_distance_km(f, 50.0, 0.0)
@@ -545,7 +545,8 @@ def test_contract_columns_and_formats():
 def test_timeline_figure_content():
     """The timeline carries run, valid period, source, caution, the site, the four panels'
     labels and a vertical line per passage in the front's WMO colour."""
-    pytest.importorskip("matplotlib")
+    import matplotlib  # noqa: F401 - required: a missing one must fail
+
     from kit import CAUTION
     from kit.charts.style import FRONT_COLOURS, stamp_texts
     from kit.charts.timelines import timeline_figure
@@ -600,7 +601,7 @@ def scenario_table():
 
 
 @pytest.mark.slow
-def test_scenario_passages_within_1h(scenario_table):
+def test_scenario_passages_within_45_minutes(scenario_table):
     """[regression] every site sees both fronts in both runs, each within 1 h of
     sample_grids/truth.json: the table's surface front is the centre of the 2-m zone,
     measured (issue 16, one definition), which is where the scenario puts its surface
@@ -614,10 +615,12 @@ def test_scenario_passages_within_1h(scenario_table):
         err_h = (np.datetime64(r["passage_utc"][:-1]) - np.datetime64(tp[:-1])) / np.timedelta64(
             1, "h"
         )
-        assert abs(err_h) <= 1.0, (r["site"], r["run"], r["front_kind"], err_h)
         worst = max(worst, abs(err_h))
         checked += 1
     assert checked == 2 * 2 * 6
+    # measured 0.55 h (2026-12); the scenario's truth is written at sea level while its
+    # sites sit a little above it (issue 17 item 1): 0.25 h waits on the generator
+    assert worst <= 0.75, worst
     assert store  # the site series of every run were kept
 
 
@@ -674,7 +677,7 @@ def test_passage_across_the_dateline_southern_hemisphere():
 def test_site_series_projected_grid():
     """[lib] on a Lambert conformal grid (pyproj) a field linear in x and y is
     interpolated exactly at the site (bilinear), and the profile work runs."""
-    pyproj = pytest.importorskip("pyproj")
+    import pyproj  # required: a missing one must fail
     crs = pyproj.CRS.from_proj4("+proj=lcc +lat_1=45 +lat_2=55 +lat_0=50 +lon_0=5 +R=6371000")
     to_ll = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
     x = np.arange(-300e3, 300e3 + 1, 20e3)
@@ -743,7 +746,8 @@ def test_site_in_missing_data_says_so():
 def test_timeline_of_one_step_without_surface_fields():
     """A one-step run without 2-m fields and precipitation still draws: each empty
     panel says what the run lacks and the figure says no front passed."""
-    pytest.importorskip("matplotlib")
+    import matplotlib  # noqa: F401 - required: a missing one must fail
+
     from kit.charts.style import stamp_texts
     from kit.charts.timelines import timeline_figure
 

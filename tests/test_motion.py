@@ -133,7 +133,7 @@ def test_geostrophic_wind_height_against_metpy(hemisphere):
     # [lib] MetPy's geostrophic_wind as a second implementation. MetPy measures
     # grid lengths on the WGS84 ellipsoid, the kit on a sphere: up to ~0.5 %
     # apart, so atol 0.15 m/s on winds up to ~20 m/s.
-    metpy_calc = pytest.importorskip("metpy.calc")
+    import metpy.calc as metpy_calc  # required: a missing one must fail
     lat = np.sort(hemisphere * np.arange(30.0, 70.01, 0.5))
     lon = np.arange(-40.0, 20.01, 0.5)
     z = _height_field(lat, lon)
@@ -430,7 +430,7 @@ def test_speed_flags_in_plain_words():
 def test_speeds_on_a_projected_grid_match_latlon():
     # the same uniform wind and pressure gradient on a Lambert conformal grid:
     # the sampler and the rule agree with the regular-grid answer
-    pyproj = pytest.importorskip("pyproj")
+    import pyproj  # required: a missing one must fail
     crs = pyproj.CRS.from_proj4("+proj=lcc +lat_1=45 +lat_2=55 +lat_0=50 +lon_0=-10 +R=6371008.8")
     tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
     x = np.arange(-900e3, 900.1e3, 25e3)
@@ -461,7 +461,7 @@ def test_speeds_on_a_projected_grid_match_latlon():
 
 
 def test_point_sampler_projected_grid_inverts_coordinates():
-    pyproj = pytest.importorskip("pyproj")
+    import pyproj  # required: a missing one must fail
     crs = pyproj.CRS.from_proj4("+proj=stere +lat_0=90 +lat_ts=60 +lon_0=0 +R=6371008.8")
     tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
     x = np.arange(-2000e3, 2000.1e3, 50e3)
@@ -486,7 +486,7 @@ def test_point_sampler_polar_grid_across_the_antimeridian():
     # a polar stereographic grid centred on the North Pole, whose 2-D
     # longitudes jump from 180 to -180: points on both sides of the jump and
     # near the pole are located as pyproj puts them [lib]
-    pyproj = pytest.importorskip("pyproj")
+    import pyproj  # required: a missing one must fail
     crs = pyproj.CRS.from_proj4("+proj=stere +lat_0=90 +lat_ts=60 +lon_0=0 +R=6371008.8")
     tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
     x = np.arange(-2500e3, 2500.1e3, 50e3)
@@ -766,7 +766,7 @@ def test_speeds_across_the_dateline():
 def test_analyse_on_a_projected_grid():
     # the translating, sloping theta-w zone of test_analyse_translating_zone
     # on a Lambert conformal grid (2-D lat/lon, 30 km): same answers [derived]
-    pyproj = pytest.importorskip("pyproj")
+    import pyproj  # required: a missing one must fail
 
     crs = pyproj.CRS.from_proj4("+proj=lcc +lat_1=40 +lat_2=55 +lat_0=48 +lon_0=-10 +R=6371008.8")
     tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)

@@ -130,7 +130,8 @@ def test_a_run_of_the_tropics_only_gives_an_empty_product_that_says_why(tmp_path
 
 
 def test_global_map_lines_never_cross_the_map(tmp_path):
-    pytest.importorskip("cartopy")
+    import cartopy  # noqa: F401 - required: a missing one must fail
+
     from kit.charts import maps
 
     ds = kit.open_run(GRADS)
@@ -177,7 +178,8 @@ def test_thin_ensemble_run_end_to_end(tmp_path, capsys):
 
 
 def test_panel_opens_a_thin_run_on_theta_and_says_it_is_thin():
-    pytest.importorskip("ipywidgets")
+    import ipywidgets  # noqa: F401 - required: a missing one must fail
+
     from kit.ui.panels import FrontPanel
 
     panel = FrontPanel([REAL / "era5_enda_members_20170101.nc"])

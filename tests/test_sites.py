@@ -106,7 +106,7 @@ def test_dateline_contiguous_grid():
 def test_projected_grid_position_matches_pyproj():
     """[lib] a Lambert conformal grid built with pyproj: the fractional position of a
     point equals the inverse projection within 1e-3 of a grid cell."""
-    pyproj = pytest.importorskip("pyproj")
+    import pyproj  # required: a missing one must fail
     crs = pyproj.CRS.from_proj4("+proj=lcc +lat_1=45 +lat_2=55 +lat_0=50 +lon_0=5 +R=6371000")
     tr = pyproj.Transformer.from_crs(crs, "EPSG:4326", always_xy=True)
     x = np.arange(-500e3, 500e3 + 1, 25e3)

@@ -281,7 +281,7 @@ def test_reference_table_with_bolton_kappa(p, tc, tdc, theta_e, theta_w):
 
 
 def _metpy():
-    mpcalc = pytest.importorskip("metpy.calc")
+    import metpy.calc as mpcalc  # required: a missing one must fail
     from metpy.units import units
 
     return mpcalc, units
