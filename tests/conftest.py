@@ -28,6 +28,14 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 LEVELS_HPA = (1000.0, 925.0, 850.0, 700.0, 500.0)
 
+#: the canonical Dataset's units, stated here from DEVELOPERS.md ("The canonical
+#: Dataset"), not taken from the code under test; tests/test_grids.py checks the
+#: loader against this table
+CANONICAL_UNITS = {
+    "t": "K", "td": "K", "u": "m s-1", "v": "m s-1", "z": "m", "mslp": "Pa", "ps": "Pa",
+    "zsfc": "m", "t2m": "K", "td2m": "K", "u10": "m s-1", "v10": "m s-1", "precip": "mm h-1",
+}
+
 
 def _isa_height_m(p_hpa):
     # ICAO standard atmosphere, troposphere (shape only)
@@ -127,8 +135,6 @@ def synthetic_fields(
         order = ["member", "time", "level", "lat", "lon"]
         for n in ds.data_vars:
             ds[n] = ds[n].transpose(*[d for d in order if d in ds[n].dims])
-    from kit.io.runs import CANONICAL_UNITS
-
     for n, u in CANONICAL_UNITS.items():
         if n in ds:  # optional fields (ps, zsfc) the synthetic run does not carry
             ds[n].attrs["units"] = u

@@ -240,6 +240,26 @@ def test_surface_projection_from_slope():
     assert row["passage_from"].startswith("estimated: 850 hPa line")
 
 
+@pytest.mark.parametrize("kind, sign", [("cold", -1.0), ("warm", +1.0)])
+def test_surface_estimate_uses_the_run_height_above_an_elevated_site(kind, sign):
+    """Issue 17 item 3 [analytic]: without 2-m fields the surface front is h * N from the
+    850-hPa line, h the run's own height of 850 hPa above the site (not the standard
+    height above sea level). Heights 250 m above standard, a site at 600 m:
+    h = 1457 + 250 - 600 = 1107 m; slope 1:50 -> 55.4 km, at 36 km/h 1.54 h ahead of
+    the line's zone centre for a cold front (earlier), behind for a warm front (later)."""
+    ds, fronts = make_run(kind=kind, passage_h=12.0)
+    ds = ds.drop_vars(["t2m", "td2m"])
+    ds["z"] = ds["z"] + 250.0
+    fronts = [f.replace(structure=FrontStructure(50.0, None, None, 50.0)) for f in fronts]
+    site = site_frame(elevation_m=600.0)
+    row = arrival_table([analysis_of(ds, fronts)], site, surface=True).iloc[0]
+    h_m = std_height(850.0) + 250.0 - 600.0
+    shift_km = h_m * 50.0 / 1000.0
+    assert row["surface_offset_km"] == pytest.approx(shift_km, abs=1.0)
+    assert hours_of(row["passage_utc"]) == pytest.approx(12.0 + sign * shift_km / 36.0,
+                                                         abs=10 / 60)
+
+
 @pytest.mark.parametrize("kind", ["cold", "warm"])
 def test_surface_front_measured_in_the_2m_field(kind):
     """Issue 16: one surface front. With 2-m fields the passage is that of the 2-m zone's

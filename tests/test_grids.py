@@ -1209,3 +1209,12 @@ def test_folder_of_analyses_each_its_own_reference_time(tmp_path, base):
     assert got["reference_time"].values == base["time"].values[0]
     np.testing.assert_array_equal(got["time"].values, base["time"].values)
     np.testing.assert_allclose(got["t"].values, base["t"].values, rtol=1e-12)
+
+
+def test_loader_units_are_the_stated_contract():
+    # issue 17: the unit contract is stated in the tests (conftest), not imported from kit
+    from conftest import CANONICAL_UNITS as STATED
+
+    from kit.io.runs import CANONICAL_UNITS
+
+    assert CANONICAL_UNITS == STATED
