@@ -768,7 +768,7 @@ def sample_run():
 
 
 @needs_sample
-@pytest.mark.parametrize("set_name", ["analyses", "2027-01-13T12Z"])
+@pytest.mark.parametrize("set_name", ["analyses", "2027-01-13T12Z", "2027-01-14T00Z"])
 def test_sample_event_freezing_rain_window(sample_truth, sample_run, set_name):
     info = sample_truth["sets"][set_name]
     ds = sample_run(info["folder"])
@@ -784,11 +784,19 @@ def test_sample_event_freezing_rain_window(sample_truth, sample_run, set_name):
     assert found.any(), f"no warm layer aloft at {name} in {set_name}"
     assert np.all(tmax.values[found] > T0) and np.all(base.values[found] < top.values[found])
     assert np.all(base.values[found] >= float(site.elevation_m))
-    # ...only in the hours before the warm front passes it
-    passage = np.datetime64(info["passages"][name]["warm"].rstrip("Z"))
-    times = col["time"].values[found]
-    assert np.all(times <= passage)
-    assert np.all(times >= passage - np.timedelta64(24, "h"))
+    # ...at the steps of the truth file's window, within an hour (issue 17: the test
+    # once allowed any time in the 24 h before the warm front)
+    window = info["freezing_rain_window"]
+    assert window["site"] == name
+    start = np.datetime64(window["start"].rstrip("Z"), "ns")
+    end = np.datetime64(window["end"].rstrip("Z"), "ns")
+    hour = np.timedelta64(1, "h")
+    steps = col["time"].values.astype("datetime64[ns]")
+    must = (steps >= start + hour) & (steps <= end - hour)
+    may = (steps >= start - hour) & (steps <= end + hour)
+    assert must.any(), "the window holds no model step"
+    assert np.all(found[must]), (steps[must], steps[found])
+    assert not np.any(found & ~may), steps[found & ~may]
     # [def] the wet-bulb 0 C level is never above the 0 C level (T_W <= T)
     fl = thermo.freezing_level(col["t"], col["z"]).values
     wb = thermo.wet_bulb_freezing_level(col["t"], col["td"], col["z"], col["level"]).values
