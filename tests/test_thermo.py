@@ -280,6 +280,32 @@ def test_reference_table_with_bolton_kappa(p, tc, tdc, theta_e, theta_w):
     assert thermo.wet_bulb_potential_temperature(t, td, p) == pytest.approx(theta_w, abs=0.03)
 
 
+@pytest.mark.parametrize("p, tc, tdc, theta_e, theta_w", TABLE)
+def test_reference_table_against_metpy_itself(p, tc, tdc, theta_e, theta_w):
+    """[lib] Issue 17: the library is called here, not only its old numbers pinned.
+
+    MetPy (the installed version; 1.7.1 when this was written) is the reference:
+    ``equivalent_potential_temperature`` (Bolton 1980, Eq. 39) and
+    ``wet_bulb_potential_temperature`` (Davies-Jones 2008). The table rows were
+    made with an earlier MetPy and sit up to 0.04 K (theta-e) above 1.7.1; the
+    kit with kappa = 2/7 agrees with the installed MetPy within 0.05 K (theta-e)
+    and 0.01 K (theta-w), and the table with it within the same bounds.
+    """
+    import metpy
+    import metpy.calc as mpcalc  # required: a missing one must fail
+    from metpy.units import units
+
+    args = (p * units.hPa, tc * units.degC, tdc * units.degC)
+    ref_e = float(np.asarray(mpcalc.equivalent_potential_temperature(*args).m_as("K")))
+    ref_w = float(np.asarray(mpcalc.wet_bulb_potential_temperature(*args).m_as("K")))
+    t, td = tc + T0, tdc + T0
+    kit_e = thermo.equivalent_potential_temperature(t, td, p, kappa=2.0 / 7.0)
+    kit_w = thermo.wet_bulb_potential_temperature(t, td, p, kappa=2.0 / 7.0)
+    assert abs(kit_e - ref_e) < 0.05, (metpy.__version__, kit_e, ref_e)
+    assert abs(kit_w - ref_w) < 0.01, (metpy.__version__, kit_w, ref_w)
+    assert abs(theta_e - ref_e) < 0.05 and abs(theta_w - ref_w) < 0.01
+
+
 def _metpy():
     import metpy.calc as mpcalc  # required: a missing one must fail
     from metpy.units import units
