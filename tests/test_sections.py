@@ -311,14 +311,33 @@ def test_freezing_level_of_a_linear_lapse_rate():
     # linear interpolation in z is exact for a linear profile
     np.testing.assert_allclose(sec["freezing_level_m"].values, (t_sfc - 273.15) / gamma,
                                atol=1e-6)
-    # second implementation inside the kit: kit.science.thermo.freezing_level on the same columns
-    from kit.science.thermo import freezing_level
-
-    fl = freezing_level(sec["t"], sec["z"], dim="level")
-    np.testing.assert_allclose(sec["freezing_level_m"].values, np.asarray(fl), atol=1.0)
+    # (issue 17: no longer compared with kit.science.thermo, a second copy of the code)
     # [pub, definition] the wet-bulb temperature lies between dew point and temperature,
     # so the wet-bulb 0 C level is lower than the 0 C level in unsaturated air
     assert (sec["wet_bulb_freezing_level_m"] < sec["freezing_level_m"]).all()
+
+
+def test_freezing_level_of_a_profile_that_bends_at_a_level():
+    """[analytic] Issue 17: an outside reference for the 0 C level, not the kit's own
+    thermo: a profile isothermal-ish (0.002 K/m) up to the 850-hPa height, then 0.008 K/m.
+    The breakpoint sits on a level, so linear interpolation between levels is exact:
+    T(z) = T850 - 0.008 (z - z850) crosses 0 C at z850 + (T850 - 273.15) / 0.008."""
+    z850 = float(z_isa(850.0))
+    t850 = 276.0 + 0.0 * z850
+
+    def temp(P, LA, LO):
+        z = z_isa(P)
+        below = 276.0 + 0.002 * (z850 - z)
+        above = 276.0 - 0.008 * (z - z850)
+        return np.where(z <= z850, below, above) + 0 * LA
+
+    f = dict(t=temp, td=lambda P, LA, LO: temp(P, LA, LO) - 3.0,
+             u=lambda P, LA, LO: 5 + 0 * LA, v=lambda P, LA, LO: 0 * LA,
+             z=lambda P, LA, LO: z_isa(P) + 0 * LA)
+    ds = make_run(f, np.arange(40.0, 60.01, 0.5), np.arange(-10.0, 10.01, 0.5))
+    sec = S.section_between(ds, (45.0, 0.0), (55.0, 0.0), steps=11, time=TIMES[0])
+    want = z850 + (t850 - 273.15) / 0.008
+    np.testing.assert_allclose(sec["freezing_level_m"].values, want, atol=1e-6)
 
 
 # ----------------------------------------------------------------------------- frontal surface
