@@ -243,10 +243,26 @@ def test_shift_on_sample_grids(tmp_path):
                    rows[(rows["site"] == site) & (rows["front_kind"] == kind)]["passage_utc"]]
             assert got and min(abs((g - t_true).total_seconds()) for g in got) <= 3 * 3600, (
                 site, kind, when, got)
-    # a section through each site across a passing front, and one timeline per site
+    # a section through each site across a passing front, and one timeline per site,
+    # checked by what they say of themselves (issue 17: not by file existence only):
+    # the site, the front and the valid time of a section, the passages of a timeline
     sites = pd.read_csv(SAMPLE / "sites.csv")
     for name in sites["name"]:
         slug = name.replace(" ", "_")
-        assert list((folder / "sections").glob(f"section_{slug}_*.png"))
-        assert (folder / "timelines" / f"timeline_{slug}.png").exists()
+        secs = sorted((folder / "sections").glob(f"section_{slug}_*.png"))
+        assert secs, name
+        for path in secs:
+            kind = path.stem.split("_")[-3]
+            stamp = pd.Timestamp(path.stem.split("_")[-1].rstrip("Z"))
+            with Image.open(path) as img:
+                text = img.text
+            assert f"through {name}, across the {kind} front" in text["Description"], text
+            assert stamp.strftime("Valid %a %d %b %Y %H:%M UTC") in text["Title"], text
+            assert text["Disclaimer"] == CAUTION
+        with Image.open(folder / "timelines" / f"timeline_{slug}.png") as img:
+            text = img.text
+        own = rows[rows["site"] == name]
+        for _, r in own.iterrows():
+            hour = pd.Timestamp(r["passage_utc"].rstrip("Z")).round("h").strftime("%d/%HZ")
+            assert f"{r['front_kind']} front {hour}" in text["Description"], (name, text)
     assert len(PdfReader(folder / "briefing_pack.pdf").pages) >= 5

@@ -484,6 +484,13 @@ def stamp(fig, *, run, valid_time, lead_h, source, extra=None, thin=None):
         artists["thin"] = thin_artist
     state.update(stamped=True, artists=artists, run=run, valid_time=valid_time,
                  lead_h=lead_h, source=src)
+    # what a saved file says of itself (PNG text chunks, PDF info):
+    # kit.products.files.figure_metadata
+    state["metadata"] = {"Title": title_text, "Description": str(extra or ""),
+                         "Source": f"Source: {src}", "Disclaimer": CAUTION,
+                         "Software": "frontshift"}
+    if thin_line(thin):
+        state["metadata"]["Comment"] = thin_line(thin)
     keys = ("title", "subtitle", "source", "caution") + (("thin",) if thin_artist else ())
     return {k: artists[k] for k in keys}
 

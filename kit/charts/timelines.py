@@ -384,6 +384,8 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                     labels.append(
                         (tp, f"{KIND_LABELS.get(kind, kind)} {_day_hour(tp)}{extra}", colour)
                     )
+        fig._frontshift["describe"] = [f"passages: {', '.join(t for _tp, t, _c in labels)}"
+                                       if labels else "no passage marked"]
         if not labels and rows is not None:  # say why no passage is marked
             own_rows = rows[rows["run"].astype(str) == run] if "run" in rows else rows
             why = [

@@ -153,6 +153,41 @@ def write_html_table(path, frame, title, caution, overwrite=False, notes=()):
     return write_text(path, page, overwrite)
 
 
+def figure_metadata(fig, fmt):
+    """Metadata to save with a stamped figure: run, valid time, subject, source, caution.
+
+    Parameters
+    ----------
+    fig : matplotlib.figure.Figure
+        A figure passed through :func:`kit.charts.style.stamp` (which leaves
+        ``fig._frontshift["metadata"]``; figure modules may add
+        ``fig._frontshift["describe"]``, e.g. a timeline's passages).
+    fmt : str
+        ``"png"``, ``"svg"`` or ``"pdf"``.
+
+    Returns
+    -------
+    dict or None
+        Keys the format accepts (PNG: text chunks; PDF: Title, Subject, Keywords;
+        SVG: Title, Description); None for an unstamped figure.
+    """
+    meta = dict(getattr(fig, "_frontshift", {}).get("metadata") or {})
+    if not meta:
+        return None
+    extra = [str(x) for x in getattr(fig, "_frontshift", {}).get("describe", [])]
+    if extra:
+        meta["Description"] = "; ".join([meta.get("Description", "")] + extra).strip("; ")
+    if fmt == "png":
+        return meta
+    if fmt == "pdf":
+        return {"Title": meta["Title"], "Subject": meta.get("Description", ""),
+                "Keywords": meta["Disclaimer"], "Creator": "frontshift"}
+    if fmt == "svg":
+        return {"Title": meta["Title"],
+                "Description": f"{meta.get('Description', '')} {meta['Disclaimer']}".strip()}
+    return None
+
+
 def save_figure(fig, path, overwrite=False, dpi=110):
     """Save a matplotlib figure atomically; the format follows the suffix (png, svg, pdf)."""
     path = Path(path)
@@ -160,7 +195,7 @@ def save_figure(fig, path, overwrite=False, dpi=110):
     if fmt not in ("png", "svg", "pdf"):
         raise OutputError(f"{path}: unknown figure format '.{fmt}'; expected .png, .svg or .pdf")
     buf = io.BytesIO()
-    fig.savefig(buf, format=fmt, dpi=dpi)
+    fig.savefig(buf, format=fmt, dpi=dpi, metadata=figure_metadata(fig, fmt))
     return write_bytes(path, buf.getvalue(), overwrite)
 
 
