@@ -241,3 +241,15 @@ def test_same_passage_time_in_table_summary_and_pack(shift):
         words = f"{r['front_kind']} front about {arrivals.day_hour(r['passage_utc'])}"
         assert words in summary, words
         assert words in " ".join(first_pages.split()), words
+
+
+def test_extrapolated_passages_are_marked_for_people():
+    # a passage beyond the run's last step (one-step analyses, the run's end) must not
+    # read like a model-step passage in the summary or the tables
+    row = {"site": "Sallow Cross", "front_kind": "cold", "run": "2031-02-03T00Z",
+           "passage_utc": "2031-02-03T09:00Z", "extrapolated": "yes", "note": ""}
+    table = pd.DataFrame([row])
+    people = arrivals.people_table(table)
+    assert people.loc[0, "Passage"] == "03/09Z (extrap.)"
+    line = " ".join(arrivals.site_lines(table))
+    assert "cold front about 03/09Z (extrapolated past the run's last step)" in line

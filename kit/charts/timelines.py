@@ -73,7 +73,9 @@ def _no_passage_text(note, times):
     if not note.startswith("no front passage "):
         return note
     rest = note.split(";", 1)
-    text = f"no front passage {_day_hour(times[0])} to {_day_hour(times[-1])}"
+    first, last = _day_hour(times[0]), _day_hour(times[-1])
+    span = f"{first} to {last}" if first != last else f"(one valid time, {first})"
+    text = f"no front passage {span}"
     return text + (f";{rest[1]}" if len(rest) > 1 else "")
 
 

@@ -749,8 +749,9 @@ def _note_text(row, runs_window=None):
     if runs_window and note.startswith("no front passage "):
         rest = note.split(";", 1)
         first, last = runs_window
-        note = f"no front passage {day_hour(first)} to {day_hour(last)}" + (
-            f";{rest[1]}" if len(rest) > 1 else "")
+        span = (f"{day_hour(first)} to {day_hour(last)}" if day_hour(first) != day_hour(last)
+                else f"(one valid time, {day_hour(first)})")
+        note = f"no front passage {span}" + (f";{rest[1]}" if len(rest) > 1 else "")
     return note
 
 
@@ -802,7 +803,8 @@ def people_table(table, *, runs_window=None, newest=None):
             "Site": str(r.get("site", "")),
             "Front": "" if is_missing(r.get("front_kind")) else str(r["front_kind"]),
             "Run": run_label(r.get("run", ""), newest) if not is_missing(r.get("run")) else "",
-            "Passage": day_hour(r.get("passage_utc")),
+            "Passage": day_hour(r.get("passage_utc")) + (
+                " (extrap.)" if str(r.get("extrapolated", "")) in ("yes", "True") else ""),
             "All runs": time_window(r.get("passage_earliest_utc"), r.get("passage_latest_utc"))
             if spread else "",
             "Spread [h]": "" if spread is None else f"{spread:.1f}",
@@ -892,6 +894,8 @@ def site_lines(table, *, runs_window=None, newest=None, sites=None):
             window = time_window(r.get("passage_earliest_utc"), r.get("passage_latest_utc"))
             if _number(r.get("spread_h")):
                 bits[0] += f" (all runs {window})"
+            if str(r.get("extrapolated", "")) in ("yes", "True"):
+                bits[0] += " (extrapolated past the run's last step)"
             start = day_hour(r.get("precip_start_utc"))
             kind = "" if is_missing(r.get("precip_type")) else str(r["precip_type"])
             if start:
