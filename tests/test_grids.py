@@ -1153,7 +1153,7 @@ def test_large_files_are_chunked_one_step_at_a_time(tmp_path, base, monkeypatch)
     import kit.io.netcdf as netcdf
 
     path = write(raw_variant(base), tmp_path / "big.nc")
-    monkeypatch.setattr(netcdf, "_SMALL_FILE_BYTES", 0)  # treat the file as large
+    monkeypatch.setattr(netcdf, "SMALL_FILE_BYTES", 0)  # treat the file as large
     got = open_run(path)
     # one valid time per chunk: the value checks read the first step only
     assert got["t"].chunks[0] == (1,) * base.sizes["time"]

@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from kit.errors import InputError
-from kit.io.discover import GRIB_SUFFIXES, NETCDF_SUFFIXES, file_kind
+from kit.io.discover import is_data_file
 from kit.io.runs import open_run
 
 __all__ = [
@@ -102,11 +102,7 @@ def load_runs(run_args, member=None):
 
 
 def _has_data_files(folder):
-    return any(
-        p.is_file() and not p.name.startswith(".")
-        and (p.suffix.lower() in NETCDF_SUFFIXES + GRIB_SUFFIXES or file_kind(p) is not None)
-        for p in folder.iterdir()
-    )
+    return any(is_data_file(p) for p in folder.iterdir())
 
 
 def _run_folders(arg):

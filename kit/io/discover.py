@@ -19,20 +19,83 @@ import glob
 import os
 from pathlib import Path
 
-from kit.io.grib import is_grib_head
 from kit.io.messages import input_error, join_names
 
-__all__ = ["GRIB_SUFFIXES", "NETCDF_SUFFIXES", "check_one_kind", "expand_run_arg", "file_kind"]
+__all__ = [
+    "GRIB_MAGIC",
+    "GRIB_SUFFIXES",
+    "LEAD_IN_BYTES",
+    "NETCDF_SUFFIXES",
+    "check_one_kind",
+    "expand_run_arg",
+    "file_kind",
+    "is_data_file",
+    "is_grib_head",
+    "is_netcdf_head",
+]
 
 #: name endings of data files: a folder always gives these (a broken one is then
 #: reported, never skipped); other files only when their bytes are GRIB or NetCDF
 NETCDF_SUFFIXES = (".nc", ".nc4", ".netcdf", ".cdf")
 GRIB_SUFFIXES = (".grib", ".grib1", ".grib2", ".grb", ".grb1", ".grb2", ".gb1", ".gb2")
 
-_NETCDF_MAGIC = (b"CDF\x01", b"CDF\x02", b"CDF\x05")
-_HDF5_MAGIC = b"\x89HDF\r\n\x1a\n"
-#: bytes read to tell a file's kind (a WMO heading may precede a GRIB message)
-_HEAD_BYTES = 4096
+#: first bytes of NetCDF-3 (classic, 64-bit offset, 64-bit data) and of HDF5 (NetCDF-4)
+NETCDF_MAGIC = (b"CDF\x01", b"CDF\x02", b"CDF\x05")
+HDF5_MAGIC = b"\x89HDF\r\n\x1a\n"
+#: section 0 of a GRIB message
+GRIB_MAGIC = b"GRIB"
+#: bytes read to tell a file's kind; how far into a file the first GRIB message
+#: may start (a WMO abbreviated heading may precede it)
+LEAD_IN_BYTES = 4096
+
+
+def is_netcdf_head(head):
+    r"""Whether a file's first bytes are NetCDF-3 or HDF5 (NetCDF-4; user block allowed).
+
+    Examples
+    --------
+    >>> is_netcdf_head(b"CDF\x02rest"), is_netcdf_head(b"GRIB")
+    (True, False)
+    """
+    return head[:4] in NETCDF_MAGIC or any(
+        head[o : o + 8] == HDF5_MAGIC for o in (0, 512, 1024, 2048)
+    )
+
+
+def is_grib_head(head):
+    r"""Whether the first bytes of a file are (or soon begin) a GRIB message.
+
+    Parameters
+    ----------
+    head : bytes
+        The file's first bytes (a WMO abbreviated heading may come before).
+
+    Returns
+    -------
+    bool
+
+    Examples
+    --------
+    >>> is_grib_head(b"GRIB\x00\x00\x00\x02"), is_grib_head(b"CDF\x01")
+    (True, False)
+    """
+    return head[:4] == GRIB_MAGIC or GRIB_MAGIC in head[:LEAD_IN_BYTES]
+
+
+
+def is_data_file(path):
+    """Whether a folder's file is one of a run: not hidden, named like data or GRIB/NetCDF.
+
+    A file named like data (``.nc``, ``.grib2`` ...) always counts, so a broken
+    one is reported, never skipped; any other file counts when its bytes are
+    GRIB or NetCDF (suffix-less operational GRIB).
+    """
+    path = Path(path)
+    return (
+        path.is_file()
+        and not path.name.startswith(".")
+        and (path.suffix.lower() in NETCDF_SUFFIXES + GRIB_SUFFIXES or file_kind(path) is not None)
+    )
 
 
 def file_kind(path):
@@ -55,12 +118,10 @@ def file_kind(path):
     """
     try:
         with open(path, "rb") as fh:
-            head = fh.read(_HEAD_BYTES)
+            head = fh.read(LEAD_IN_BYTES)
     except OSError:
         return None
-    if head[:4] in _NETCDF_MAGIC or any(
-        head[o : o + 8] == _HDF5_MAGIC for o in (0, 512, 1024, 2048)
-    ):
+    if is_netcdf_head(head):
         return "netcdf"
     if is_grib_head(head):
         return "grib"
@@ -132,13 +193,7 @@ def expand_run_arg(arg):
     text = os.path.expanduser(os.fspath(arg))
     path = Path(text)
     if path.is_dir():
-        files = sorted(
-            p
-            for p in path.iterdir()
-            if p.is_file()
-            and not p.name.startswith(".")
-            and (p.suffix.lower() in NETCDF_SUFFIXES + GRIB_SUFFIXES or file_kind(p) is not None)
-        )
+        files = sorted(p for p in path.iterdir() if is_data_file(p))
         if not files:
             others = sorted(p.name for p in path.iterdir() if not p.name.startswith("."))
             raise input_error(

@@ -54,9 +54,11 @@ import xarray as xr
 from pyproj import CRS, Transformer
 
 from kit.constants import GRIB_SPHERE_RADIUS_M
+from kit.io.discover import GRIB_MAGIC, LEAD_IN_BYTES
 from kit.io.messages import input_error, join_names
+from kit.io.netcdf import SMALL_FILE_BYTES
 
-__all__ = ["GRIB_GRID_TYPES", "is_grib_head", "open_grib", "walk_messages"]
+__all__ = ["GRIB_GRID_TYPES", "open_grib", "walk_messages"]
 
 #: ecCodes grid types read (refused otherwise, with the reason)
 GRIB_GRID_TYPES = (
@@ -115,35 +117,9 @@ _SURFACE_STANDARD_NAMES = {
     "prate": "precipitation_flux",
 }
 
-#: files smaller than this [bytes] are decoded whole when opened (as NetCDF
-#: files of this size are one chunk per variable); larger ones stay lazy
-_SMALL_FILE_BYTES = 64 * 2**20
-
 #: GRIB sections 0 and the edition-1 flag byte
-_GRIB = b"GRIB"
+_GRIB = GRIB_MAGIC
 _END = b"7777"
-#: how far into a file the first message may start (WMO abbreviated headings)
-_LEAD_IN_BYTES = 4096
-
-
-def is_grib_head(head):
-    r"""Whether the first bytes of a file are (or soon begin) a GRIB message.
-
-    Parameters
-    ----------
-    head : bytes
-        The file's first bytes (a WMO abbreviated heading may come before).
-
-    Returns
-    -------
-    bool
-
-    Examples
-    --------
-    >>> is_grib_head(b"GRIB\\x00\\x00\\x00\\x02"), is_grib_head(b"CDF\\x01")
-    (True, False)
-    """
-    return head[:4] == _GRIB or _GRIB in head[:_LEAD_IN_BYTES]
 
 
 def _read_exact(fh, n):
@@ -183,7 +159,7 @@ def walk_messages(path):
         pos = 0
         while pos < size:
             fh.seek(pos)
-            chunk = fh.read(_LEAD_IN_BYTES if not out else 64)
+            chunk = fh.read(LEAD_IN_BYTES if not out else 64)
             at = chunk.find(_GRIB)
             if at < 0:
                 if not out:
@@ -721,7 +697,8 @@ def open_grib(path, chunks):
         return ds.load()
     if isinstance(chunks, dict):
         return ds.chunk(chunks)
-    if path.stat().st_size < _SMALL_FILE_BYTES:
+    if path.stat().st_size < SMALL_FILE_BYTES:
+        # files as small as NetCDF keeps in one chunk per variable (kit.io.netcdf);
         # decoding is the cost of GRIB: decode a small file once, not again for
         # the value checks and again for the products
         ds = ds.load()

@@ -13,13 +13,12 @@ import warnings
 import xarray as xr
 
 from kit.io.cf_time import LEAD_NAMES, REF_NAMES
+from kit.io.discover import is_netcdf_head
 from kit.io.members import MEMBER_NAMES
 from kit.io.messages import input_error
 
-__all__ = ["open_netcdf"]
+__all__ = ["SMALL_FILE_BYTES", "open_netcdf"]
 
-_MAGIC = (b"CDF\x01", b"CDF\x02", b"CDF\x05")
-_HDF5 = b"\x89HDF\r\n\x1a\n"
 
 
 def _check_netcdf_file(path):
@@ -32,11 +31,9 @@ def _check_netcdf_file(path):
         raise input_error(path, f"cannot be read ({exc.strerror or exc})") from None
     if size == 0:
         raise input_error(path, "empty file (0 bytes); expected a NetCDF file")
-    if head[:4] in _MAGIC:
+    if is_netcdf_head(head):
         if head[:4] in (b"CDF\x01", b"CDF\x02"):
             _check_classic_complete(path)
-        return
-    if any(head[o : o + 8] == _HDF5 for o in (0, 512, 1024, 2048)):
         return
     if head[:4] == b"GRIB":
         found = "a GRIB file"
@@ -75,7 +72,7 @@ def _check_classic_complete(path):
 
 #: files smaller than this [bytes] are chunked as stored (one dask chunk per
 #: variable and file) when chunks="auto": cheaper to set up, same laziness
-_SMALL_FILE_BYTES = 64 * 2**20
+SMALL_FILE_BYTES = 64 * 2**20
 
 
 def _step_dims(ds):
@@ -130,7 +127,7 @@ def open_netcdf(path, chunks):
             warnings.simplefilter("ignore", category=xr.SerializationWarning)
             ds = xr.open_dataset(path, chunks=None if chunks == "auto" else chunks, **kwargs)
             if isinstance(chunks, str) and chunks == "auto":
-                if path.stat().st_size < _SMALL_FILE_BYTES:
+                if path.stat().st_size < SMALL_FILE_BYTES:
                     ds = ds.chunk({})
                 else:
                     # one step/member per chunk, dask sizes the rest: reading the
