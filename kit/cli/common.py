@@ -9,11 +9,9 @@ folder of run folders gives each of its run folders).
 import glob
 from pathlib import Path
 
-import numpy as np
-
 from kit.errors import InputError
 from kit.io.discover import is_data_file
-from kit.io.runs import open_run
+from kit.io.runs import oldest_first, open_run
 
 __all__ = [
     "add_latest_argument",
@@ -83,13 +81,6 @@ def add_sites_argument(parser):
     )
 
 
-def reference_time(ds):
-    """Return the reference time of a canonical run [datetime64[ns]] (NaT when it has none)."""
-    if "reference_time" in ds.coords:
-        return np.datetime64(ds["reference_time"].values, "ns")
-    return np.datetime64("NaT", "ns")
-
-
 def load_runs(run_args, member=None):
     """Open every RUN with :func:`kit.io.runs.open_run`, oldest first (the last is newest).
 
@@ -97,8 +88,7 @@ def load_runs(run_args, member=None):
     in separate folders) keep the order given.
     """
     runs = [open_run(arg, member=member) for arg in run_args]
-    order = sorted(range(len(runs)), key=lambda i: (reference_time(runs[i]), i))
-    return [runs[i] for i in order]
+    return [runs[i] for i in oldest_first(runs)]
 
 
 def _has_data_files(folder):
@@ -135,8 +125,7 @@ def resolve_runs(run_args, latest=None):
     if latest < 1:
         raise InputError(f"--latest {latest}: expected a whole number of runs, 1 or more")
     cands = [r for arg in run_args for r in _run_folders(arg)]
-    refs = [reference_time(open_run(r)) for r in cands]
-    order = sorted(range(len(cands)), key=lambda i: (refs[i], i))
+    order = oldest_first([open_run(r) for r in cands])
     return [cands[i] for i in order][-latest:]
 
 

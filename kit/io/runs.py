@@ -101,6 +101,8 @@ __all__ = [
     "open_runs",
     "to_canonical",
     "run_label",
+    "reference_time",
+    "oldest_first",
 ]
 
 #: coordinates a canonical field keeps (the rest of a file's coordinates are dropped)
@@ -120,6 +122,39 @@ _KEPT_COORDS = (
 
 def _fmt_time(t):
     return pd.Timestamp(t).strftime("%Y-%m-%dT%H:%MZ")
+
+
+def reference_time(ds):
+    """Return the reference time of a canonical run [datetime64[ns]]; NaT when it has none.
+
+    Examples
+    --------
+    >>> import xarray as xr
+    >>> str(reference_time(xr.Dataset(coords={"reference_time": np.datetime64("2027-01-14")})))
+    '2027-01-14T00:00:00.000000000'
+    """
+    if "reference_time" in ds.coords:
+        return np.datetime64(ds["reference_time"].values, "ns")
+    return np.datetime64("NaT", "ns")
+
+
+def oldest_first(runs):
+    """Order of runs by reference time, oldest first (the last is the newest).
+
+    "Newest" is the latest reference time everywhere in the kit (commands,
+    shift products, panels); runs of one reference time (members in separate
+    folders) keep the order given.
+
+    Parameters
+    ----------
+    runs : list of xarray.Dataset
+
+    Returns
+    -------
+    list of int
+        Indices into ``runs``.
+    """
+    return sorted(range(len(runs)), key=lambda i: (reference_time(runs[i]), i))
 
 
 def run_label(reference_time):

@@ -53,7 +53,7 @@ from kit.charts.sections import section_figure
 from kit.charts.style import source_text
 from kit.charts.timelines import timeline_figure
 from kit.errors import InputError, OutputError
-from kit.io.runs import open_run
+from kit.io.runs import oldest_first, open_run
 from kit.io.sites import check_sites_on_grid, read_sites
 from kit.model import fronts_table
 from kit.pipeline import analyse
@@ -167,12 +167,7 @@ def _load(run_args, sites_path):
         check_sites_on_grid(sites, ds)
         runs.append(ds)
     # newest run last (by reference time), as the briefing reads them
-    def ref(ds):
-        return np.datetime64(ds["reference_time"].values, "ns") if "reference_time" in (
-            ds.coords) else np.datetime64("NaT")
-
-    order = sorted(range(len(runs)), key=lambda i: (ref(runs[i]), i))
-    runs = [runs[i] for i in order]
+    runs = [runs[i] for i in oldest_first(runs)]
     labels = [str(ds.attrs.get("run") or f"run{i + 1}") for i, ds in enumerate(runs)]
     if len(set(labels)) != len(labels):
         raise InputError(

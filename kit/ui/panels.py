@@ -41,7 +41,7 @@ from kit.charts.style import KIND_LABELS
 from kit.charts.timelines import timeline_figure
 from kit.charts.verification import position_error_figure, timing_error_figure
 from kit.errors import FrontshiftError, InputError
-from kit.io.runs import open_run
+from kit.io.runs import oldest_first, open_run
 from kit.io.sites import check_sites_on_grid, read_sites
 from kit.pipeline import analyse
 from kit.products.arrivals import arrival_table, newest_run, people_table
@@ -332,12 +332,7 @@ class FrontPanel:
 
     def _newest_index(self):
         """Index of the run with the latest reference time (the last added among equals)."""
-        def ref(i):
-            ds = self.runs[i]
-            if "reference_time" in ds.coords:
-                return np.datetime64(ds["reference_time"].values, "ns")
-            return np.datetime64("NaT", "ns")
-        return max(range(len(self.runs)), key=lambda i: (ref(i), i))
+        return oldest_first(self.runs)[-1]
 
     def _open_typed(self):
         path = self.path_text.value.strip()
