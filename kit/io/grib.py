@@ -88,20 +88,16 @@ _LEVEL_SHORT_NAMES = ("t", "dpt", "r", "q", "gh", "z", "u", "v")
 _PRESSURE_LEVEL_TYPES = {"isobaricInhPa": 1.0, "isobaricInPa": 0.01}
 
 #: near-surface quantities: (ecCodes short name, type of level or None for any,
-#: level or None, name given in the Dataset); the first of a group present wins
+#: name given in the Dataset); the first of a group present wins
 _SURFACE_FIELDS = (
-    (
-        ("prmsl", "meanSea", None, "prmsl"),
-        ("msl", None, None, "msl"),
-        ("mslet", "meanSea", None, "mslet"),
-    ),
-    (("sp", "surface", None, "sp"),),
-    (("orog", "surface", None, "orog"), ("z", "surface", None, "zsfc")),
-    (("2t", None, None, "t2m"),),
-    (("2d", None, None, "d2m"), ("2r", None, None, "r2"), ("2sh", None, None, "q2")),
-    (("10u", None, None, "u10"),),
-    (("10v", None, None, "v10"),),
-    (("tp", "surface", None, "tp"), ("prate", "surface", None, "prate")),
+    (("prmsl", "meanSea", "prmsl"), ("msl", None, "msl"), ("mslet", "meanSea", "mslet")),
+    (("sp", "surface", "sp"),),
+    (("orog", "surface", "orog"), ("z", "surface", "zsfc")),
+    (("2t", None, "t2m"),),
+    (("2d", None, "d2m"), ("2r", None, "r2"), ("2sh", None, "q2")),
+    (("10u", None, "u10"),),
+    (("10v", None, "v10"),),
+    (("tp", "surface", "tp"), ("prate", "surface", "prate")),
 )
 
 #: CF standard names of the near-surface fields (cfgrib gives some none, or
@@ -252,7 +248,7 @@ def _wanted(short, level_type):
     return any(
         short == s and (tol is None or tol == level_type)
         for group in _SURFACE_FIELDS
-        for s, tol, _level, _name in group
+        for s, tol, _name in group
     )
 
 
@@ -400,15 +396,14 @@ def _level_fields(path, index, rows):
         for tol, to_hpa in _PRESSURE_LEVEL_TYPES.items():
             if not any(r["shortName"] == short and r["typeOfLevel"] == tol for r in rows):
                 continue
-            for step_type in sorted({r["stepType"] for r in rows if r["shortName"] == short
-                                     and r["typeOfLevel"] == tol}):
-                sub = index.subindex(shortName=short, typeOfLevel=tol, stepType=step_type)
-                da = _open_field(path, sub, f"{short} on {tol}")
-                if tol not in da.dims:
-                    da = da.expand_dims(tol)
-                lev = np.atleast_1d(np.asarray(da[tol].values, dtype=np.float64)) * to_hpa
-                parts.append(da.rename({tol: "plev"}).assign_coords(plev=lev))
-                break
+            step_type = min(r["stepType"] for r in rows
+                            if r["shortName"] == short and r["typeOfLevel"] == tol)
+            sub = index.subindex(shortName=short, typeOfLevel=tol, stepType=step_type)
+            da = _open_field(path, sub, f"{short} on {tol}")
+            if tol not in da.dims:
+                da = da.expand_dims(tol)
+            lev = np.atleast_1d(np.asarray(da[tol].values, dtype=np.float64)) * to_hpa
+            parts.append(da.rename({tol: "plev"}).assign_coords(plev=lev))
         if not parts:
             continue
         da = parts[0] if len(parts) == 1 else xr.concat(parts, dim="plev").sortby("plev")
@@ -445,11 +440,10 @@ def _surface_fields(path, index, rows, grid):
     """Open the near-surface fields the kit uses on the run's grid (first present of a group)."""
     out = {}
     for group in _SURFACE_FIELDS:
-        for short, tol, level, name in group:
+        for short, tol, name in group:
             hits = [
                 r for r in rows
                 if r["shortName"] == short and (tol is None or r["typeOfLevel"] == tol)
-                and (level is None or float(r["level:float"]) == level)
                 and r.get("md5GridSection") == grid
             ]
             if not hits:

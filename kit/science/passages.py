@@ -729,11 +729,9 @@ class SurfaceFront:
     HALF_KM, SPACING_KM = 450.0, 10.0
 
     def __init__(self, ds, settings=None):
-        self.ds, self.sec = ds, sections
-        self.field = getattr(settings, "field", "theta_w") if settings is not None else (
-            "theta_w" if "td2m" in ds else "theta")
-        if self.field == "theta_w" and "td2m" not in ds:
-            self.field = "theta"
+        self.ds = ds
+        field = getattr(settings, "field", "theta_w")  # theta-w needs the 2-m dew point
+        self.field = "theta" if field == "theta_w" and "td2m" not in ds else field
         self.grid_km = float(sections.grid_km(ds))
         self._one = {}
 
@@ -764,7 +762,7 @@ class SurfaceFront:
         """
         if not self.available or not np.isfinite(guess_km) or len(front.lon) < 2:
             return np.nan
-        bearing, _s_front = self.sec.normal_through(front, lat, lon)
+        bearing, _crossing = sections.normal_through(front, lat, lon)
         # along the normal toward the warm side a point at s puts the site on its
         # cold side by s: the site's signed distance is the front's position s
         s_km = np.arange(guess_km - self.HALF_KM, guess_km + self.HALF_KM + 1e-6,
@@ -773,10 +771,10 @@ class SurfaceFront:
                                      np.full(s_km.size, float(lat)),
                                      np.full(s_km.size, bearing), s_km)
         one = self._at(front.valid_time, front.member)
-        tau = self.sec.near_surface_profile(one, plat, plon, self.field)
+        tau = sections.near_surface_profile(one, plat, plon, self.field)
         if tau is None:
             return np.nan
-        return self.sec.surface_front_1d(tau, s_km, self.sec.surface_smoothing_km(self.grid_km),
+        return sections.surface_front_1d(tau, s_km, sections.surface_smoothing_km(self.grid_km),
                                          float(guess_km), +1)
 
 
@@ -1111,7 +1109,8 @@ def _wind_times(th, passage_h, window_h):
     if before.size == 0 or after.size == 0:
         return hb, ha, ""
     nb, na = float(before.max()), float(after.min())
-    if na - nb > window_h + 1e-6:  # sparse: interpolating would mix both sides
+    sparse = na - nb > window_h + 1e-6  # interpolating would mix both sides
+    if sparse:
         wb, wa = nb, na
     else:  # dense: window_h either side, cut to the run's steps at its start and end
         wb = hb if hb >= th[0] else nb
@@ -1120,7 +1119,7 @@ def _wind_times(th, passage_h, window_h):
         return hb, ha, ""
     return wb, wa, (f"wind before/after from {format_utc(wb)} and {format_utc(wa)} (the "
                     f"nearest model steps; {window_h:g} h either side is not in the run)"
-                    if na - nb <= window_h + 1e-6 else
+                    if not sparse else
                     f"wind before/after from the model steps at {format_utc(wb)} and "
                     f"{format_utc(wa)} (output every {na - nb:g} h)")
 
@@ -1223,8 +1222,7 @@ def weather_sequence(
         row.update(
             precip_start_utc="", precip_end_utc="", precip_total_mm=np.nan, precip_peak_mm_h=np.nan
         )
-    # cloud base proxy [ft above site]
-    cb = np.asarray(series["cloud_base_m"].values, dtype=float)
+    # cloud base [ft above site], as the band the column resolves (_cloud_band)
     row["cloud_base_before_ft_agl"] = round_or_nan(at("cloud_base_low_m", hb) * FT_PER_M, -2)
     # the lowest band from 12 h before to window_h after: never finer than the
     # column resolves (kit.science.passages._cloud_band), rounded to 100 ft
