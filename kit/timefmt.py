@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pandas as pd
 
-__all__ = ["utc", "iso_seconds", "iso_minutes", "iso_compact"]
+__all__ = ["utc", "iso_seconds", "iso_minutes", "iso_compact", "day_hour"]
 
 
 def utc(t) -> pd.Timestamp:
@@ -28,3 +28,9 @@ def iso_minutes(t) -> str:
 def iso_compact(t) -> str:
     """``20310203T0600Z``: ISO 8601 basic form, to the minute, for file and folder names."""
     return utc(t).strftime("%Y%m%dT%H%MZ")
+
+
+def day_hour(t, *, minutes=False) -> str:
+    """``14/19Z`` (day and hour, nearest hour) or ``14/1940Z``: the form of products for people."""
+    ts = utc(t)
+    return ts.strftime("%d/%H%MZ") if minutes else ts.round("h").strftime("%d/%HZ")

@@ -43,6 +43,7 @@ from kit.charts.style import (  # noqa: E402
 )
 from kit.constants import FT_PER_M, KT_PER_MS, T0_K  # noqa: E402
 from kit.errors import InputError  # noqa: E402
+from kit.timefmt import day_hour  # noqa: E402
 
 __all__ = ["timeline_figure", "TIMELINE_COLOURS"]
 
@@ -63,17 +64,12 @@ def _t(text):
     return pd.Timestamp(str(text).rstrip("Z")).to_datetime64()
 
 
-def _day_hour(t):
-    """Format a UTC time as ``14/19Z`` (day and hour, nearest hour)."""
-    return pd.Timestamp(t).round("h").strftime("%d/%HZ")
-
-
 def _no_passage_text(note, times):
     """Give a "no front passage <window>" note the window of the run's own valid times."""
     if not note.startswith("no front passage "):
         return note
     rest = note.split(";", 1)
-    first, last = _day_hour(times[0]), _day_hour(times[-1])
+    first, last = day_hour(times[0]), day_hour(times[-1])
     span = f"{first} to {last}" if first != last else f"(one valid time, {first})"
     text = f"no front passage {span}"
     return text + (f";{rest[1]}" if len(rest) > 1 else "")
@@ -384,7 +380,7 @@ def timeline_figure(series, rows=None, *, title_extra=None):
                 if own:
                     extra = " (extrap.)" if r.get("extrapolated") == "yes" else ""
                     labels.append(
-                        (tp, f"{KIND_LABELS.get(kind, kind)} {_day_hour(tp)}{extra}", colour)
+                        (tp, f"{KIND_LABELS.get(kind, kind)} {day_hour(tp)}{extra}", colour)
                     )
         fig._frontshift["describe"] = [f"passages: {', '.join(t for _tp, t, _c in labels)}"
                                        if labels else "no passage marked"]

@@ -51,6 +51,7 @@ from kit.science.passages import (
     site_series,
     weather_sequence,
 )
+from kit.timefmt import day_hour as format_day_hour
 
 __all__ = [
     "CONTRACT_COLUMNS",
@@ -653,11 +654,7 @@ def day_hour(text, *, minutes=False):
         ts = pd.Timestamp(str(text).rstrip("Z")) if isinstance(text, str) else pd.Timestamp(text)
     except ValueError:
         return str(text)
-    if ts.tzinfo is not None:
-        ts = ts.tz_convert("UTC").tz_localize(None)
-    if minutes:
-        return ts.strftime("%d/%H%MZ")
-    return ts.round("h").strftime("%d/%HZ")
+    return format_day_hour(ts, minutes=minutes)
 
 
 def time_window(start, end):
