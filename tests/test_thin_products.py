@@ -69,6 +69,8 @@ HUMIDITY_COLUMNS = [
     "cloud_base_before_ft_agl",
     "cloud_base_min_ft_agl",
     "cloud_base_min_utc",
+    "cloud_base_low_ft_agl",
+    "cloud_base_high_ft_agl",
 ]
 KAPPA_BOLTON = 0.2854  # Bolton (1980), Eq. 7: theta = T (1000 / p) ** 0.2854
 
