@@ -234,13 +234,16 @@ def test_shift_on_sample_grids(tmp_path):
     # within 3 h (regression against the invented truth; kit.products.arrivals' tests are tighter)
     table = pd.read_csv(folder / "arrivals.csv", keep_default_na=False)
     rows = table[(table["run"] == newest) & (table["passage_utc"] != "")]
+    end = pd.Timestamp(truth["valid_times"][-1].rstrip("Z"))
     for site, passages in truth["sets"][newest]["passages"].items():
         for kind, when in passages.items():
-            if not when:
+            if not when or pd.Timestamp(when.rstrip("Z")) > end:
                 continue
             t_true = pd.Timestamp(when.rstrip("Z"))
+            # no occluded kind yet (issue 19): the occlusion is timed as warm or cold
+            kinds = ("warm", "cold") if kind == "occluded" else (kind,)
             got = [pd.Timestamp(t.rstrip("Z")) for t in
-                   rows[(rows["site"] == site) & (rows["front_kind"] == kind)]["passage_utc"]]
+                   rows[(rows["site"] == site) & rows["front_kind"].isin(kinds)]["passage_utc"]]
             assert got and min(abs((g - t_true).total_seconds()) for g in got) <= 3 * 3600, (
                 site, kind, when, got)
     # a section through each site across a passing front, and one timeline per site,

@@ -25,12 +25,12 @@ from pyproj import CRS, Transformer
 from scipy import ndimage
 
 from kit import CAUTION
-from kit.science import fronts as F
-from kit.science import geo
 from kit.errors import InputError
 from kit.model import FrontMotion, fronts_table
-from kit.timefmt import iso_seconds
 from kit.products.fronts import fronts_to_geojson
+from kit.science import fronts as F
+from kit.science import geo
+from kit.timefmt import iso_seconds
 
 R = geo.EARTH_RADIUS_M
 T0 = np.datetime64("2030-01-01T00:00", "ns")
@@ -641,7 +641,8 @@ def _dist_to_lines_km(lon, lat, lines):
 def test_demo_scenario_lines_and_types(which):
     from kit.io.runs import open_run
 
-    truth = _truth()["sets"][which]
+    everything = _truth()
+    truth, prescribed = everything["sets"][which], everything["prescribed"]
     ds = open_run(SAMPLE / truth["folder"], chunks=None)
     fronts = F.find_fronts(ds, level=850.0)
     by_time = {}
@@ -650,15 +651,20 @@ def test_demo_scenario_lines_and_types(which):
     assert set(by_time) == set(truth["times"]), "a valid time without fronts"
     for t, tv in truth["times"].items():
         found = by_time[t]
-        low = tv["low"]
+        tp = tv["triple_point"]
         for kind in ("warm", "cold"):
             line = tv["850hPa_locating"][kind]
             lon, lat = np.asarray(line["lon"]), np.asarray(line["lat"])
             # the scenario rounds the corner of the warm sector within about
-            # 200 km of the low (truth.json notes); 300 km at 850 hPa, where the
-            # lines are displaced toward the cold side; and 100 km off the edges
-            far = geo.great_circle_km(lon, lat, low["lon"], low["lat"]) > 300.0
-            keep = far & _interior(lon, lat, ds, 100.0)
+            # 200 km of the triple point (truth.json notes); 300 km at 850 hPa,
+            # where the lines are displaced toward the cold side; and 100 km off
+            # the edges (this selects the truth to be found, not the found lines)
+            far = geo.great_circle_km(lon, lat, tp["lon"], tp["lat"]) > 300.0
+            # and the front dies out over its last few hundred km (truth.json
+            # prescribed length_km and notes): the last 300 km are not required
+            along = 50.0 * np.arange(lon.size)
+            alive = along < prescribed[kind]["length_km"] - 300.0
+            keep = far & alive & _interior(lon, lat, ds, 100.0)
             if keep.sum() < 3:
                 continue
             # a truth stretch shorter than the kit's minimum length (the young
@@ -671,23 +677,30 @@ def test_demo_scenario_lines_and_types(which):
             # [regression, scenario] mean distance under 50 km at every step;
             # the 50 km smoothing alone moves the line ~30 km warmward (1-D check above)
             assert d.mean() < 50.0, f"{which} {t} {kind}: mean distance {d.mean():.0f} km"
-            # and the found lines of that kind lie on the truth where the truth runs
-            for f in same:
-                dd = _dist_to_lines_km(
-                    f.lon, f.lat, [SimpleNamespace(lon=lon, lat=lat)]
-                )
-                on_truth = dd < 150.0
-                if on_truth.sum() > 3:
-                    assert dd[on_truth].mean() < 50.0
-        # types right: every found line near a truth line has that line's kind
+        # every point of every found line is scored (issue 17: no self-selection):
+        # length-weighted, at least 95 % of all found line lies within 150 km of a
+        # truth line (warm, cold or occluded) and its mean distance is under 60 km
+        truth_lines = {}
+        for kind in ("warm", "cold", "occluded"):
+            line = tv["850hPa_locating"][kind]
+            if len(line["lon"]) >= 2:
+                truth_lines[kind] = SimpleNamespace(lon=np.asarray(line["lon"]),
+                                                    lat=np.asarray(line["lat"]))
+        total = within = dist_sum = 0.0
         for f in found:
-            near = {}
-            for kind in ("warm", "cold"):
-                line = tv["850hPa_locating"][kind]
-                tl = SimpleNamespace(lon=np.asarray(line["lon"]), lat=np.asarray(line["lat"]))
-                near[kind] = np.median(_dist_to_lines_km(f.lon, f.lat, [tl]))
-            kind = min(near, key=near.get)
-            if near[kind] < 100.0:
+            d = {k: _dist_to_lines_km(f.lon, f.lat, [tl]) for k, tl in truth_lines.items()}
+            nearest = np.min(np.vstack(list(d.values())), axis=0)
+            w = geo.vertex_weights_km(f.lon, f.lat)
+            total += w.sum()
+            within += w[nearest < 150.0].sum()
+            dist_sum += (w * nearest).sum()
+            # types right: a line on the warm or cold truth has that kind; lines
+            # on the occlusion are typed warm or cold until the kit types
+            # occlusions (issue 19), so they are scored for position only
+            kind = min(d, key=lambda k: np.median(d[k]))
+            if kind != "occluded" and np.median(d[kind]) < 100.0:
                 assert f.kind == kind, (
                     f"{which} {t}: a {f.kind} front lies on the {kind} truth line"
                 )
+        assert within / total >= 0.95, f"{which} {t}: {within / total:.2f} of the found length"
+        assert dist_sum / total < 60.0, f"{which} {t}: mean {dist_sum / total:.0f} km"

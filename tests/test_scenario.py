@@ -65,6 +65,12 @@ def _interp(ds, name, level=None):
     )
 
 
+def _orog_at(ds):
+    """Bilinear sampler of the written orography (no time dimension) at (lat, lon) points."""
+    return RegularGridInterpolator((ds.lat.values, ds.lon.values), ds.orog.values,
+                                   bounds_error=False, fill_value=np.nan)
+
+
 def _point_along(line, km):
     """(lon, lat, local ray azimuth [deg]) at ``km`` along a truth line (50 km spacing)."""
     lon, lat = np.asarray(line["lon"]), np.asarray(line["lat"])
@@ -185,6 +191,7 @@ def test_cf_attributes():
         "u10": ("eastward_wind", "m s-1"),
         "v10": ("northward_wind", "m s-1"),
         "precip": ("precipitation_amount", "kg m-2"),
+        "orog": ("surface_altitude", "m"),
     }
     with netCDF4.Dataset(EVENT / "runs" / RUN_B / "step_027.nc") as nc:
         assert nc.Conventions == "CF-1.8"
@@ -240,16 +247,18 @@ def test_heights_are_hypsometric():
     # Hypsometric equation, layer form z2 - z1 = (Rd/g0) Tmean ln(p1/p2)
     # (Wallace & Hobbs 2006, Atmospheric Science 2nd ed., Eq. 3.29; number
     # from memory), with the layer-mean temperature of a profile linear in
-    # ln p. Tolerance from the quantization: z 1 m steps (+-0.5 m each end),
+    # ln p. Tolerance from the quantization: z 2 m steps (+-1 m each end),
     # t 0.05 K steps (<= 0.2 m on the thickest layer).
     ds = _open(_analysis(24))
     t, z = ds.t.isel(time=0).values, ds.z.isel(time=0).values
     p = ds.level.values
     for k in range(1, len(p)):
         dz = RD / G0 * 0.5 * (t[k - 1] + t[k]) * np.log(p[k - 1] / p[k])
-        np.testing.assert_allclose(z[k] - z[k - 1], dz, atol=1.3, err_msg=f"{p[k]} hPa")
+        np.testing.assert_allclose(z[k] - z[k - 1], dz, atol=2.3, err_msg=f"{p[k]} hPa")
     # sea level -> 1000 hPa with the 2-m temperature standing in for the
-    # sea-level one (2 m apart: < 0.02 K)
+    # sea-level one (2 m apart: < 0.02 K), at sea points (orography 0 m)
+    sea = ds.orog.values == 0.0
+    assert sea.mean() > 0.5
     z1000 = (
         RD
         / G0
@@ -257,7 +266,7 @@ def test_heights_are_hypsometric():
         * (ds.t2m.isel(time=0).values + t[0])
         * np.log(ds.msl.isel(time=0).values / 1e5)
     )
-    np.testing.assert_allclose(z[0], z1000, atol=0.8)
+    np.testing.assert_allclose(z[0][sea], z1000[sea], atol=1.3)
 
 
 def test_thickness_against_metpy():
@@ -269,7 +278,7 @@ def test_thickness_against_metpy():
         col = ds.t.isel(time=0, lat=j, lon=i).values * units.K
         thick = mpcalc.thickness_hydrostatic(p, col).m_as("m")
         z = ds.z.isel(time=0, lat=j, lon=i).values
-        assert thick == pytest.approx(z[-1] - z[0], abs=1.5)
+        assert thick == pytest.approx(z[-1] - z[0], abs=2.5)
 
 
 # --------------------------------------------------------------------------
@@ -292,11 +301,11 @@ def _own_geostrophic(z, lat, lon):
 def test_winds_are_geostrophic(level):
     # Geostrophic wind (Holton & Hakim 2013, Eq. 3.12; from memory) by our
     # own centred differences and by MetPy's geostrophic_wind [lib].
-    # Tolerance from the quantization of the written heights (1 m steps): the
-    # centred difference of two values each off by <= 0.5 m puts u within
-    # g0 / (f 2 dy) * 1 m and v within g0 / (f 2 dx) * 1 m (1.4-2 m/s for u,
-    # up to 3 m/s for v at 63 N where dx is short), plus 0.06 m/s for the
-    # wind's own 0.1 m/s steps. Scaled by that bound, the error of a difference
+    # Tolerance from the quantization of the written heights (2 m steps): the
+    # centred difference of two values each off by <= 1 m puts u within
+    # g0 / (f 2 dy) * 2 m and v within g0 / (f 2 dx) * 2 m (2.8-4 m/s for u,
+    # up to 6 m/s for v at 63 N where dx is short), plus 0.12 m/s for the
+    # wind's own 0.2 m/s steps. Scaled by that bound, the error of a difference
     # of two uniform rounding errors has an RMS of 1/sqrt(6) = 0.41: it must
     # stay under 0.5. Any systematic error (f, earth radius, grid length) shows
     # in the least-squares slope of the recomputed against the written wind,
@@ -310,8 +319,8 @@ def test_winds_are_geostrophic(level):
     f = 2 * OMEGA * np.sin(phi)
     dy = sc.EARTH_RADIUS * np.radians(0.25)
     dx = dy * np.cos(phi)
-    bound_u = G0 / (f * 2 * dy) * 1.0 + 0.06
-    bound_v = G0 / (f * 2 * dx) * 1.0 + 0.06
+    bound_u = G0 / (f * 2 * dy) * 2.0 + 0.12
+    bound_v = G0 / (f * 2 * dx) * 2.0 + 0.12
     lon2, lat2 = np.meshgrid(lon, lat)
     mdx, mdy = mpcalc.lat_lon_grid_deltas(lon2, lat2, geod=GEOD)
     um, vm = mpcalc.geostrophic_wind(z * units.m, mdx, mdy, lat2 * units.degrees)
@@ -347,20 +356,46 @@ def _centre_position(ds, kind, level, lon0, lat0, az_normal, half_km=900.0):
     return _zone_centre(s[ok], values[ok])
 
 
+def _line_crossing_km(s, lon, lat, line):
+    """Position [km] on a transect (s, lon, lat) nearest to a truth polyline."""
+    d = [min(GEOD.inv(x, y, lo, la)[2] for lo, la in zip(line["lon"], line["lat"], strict=True))
+         for x, y in zip(lon, lat, strict=True)]
+    k = int(np.argmin(d))
+    # the nearest vertex of a 50-km spaced line: refine on the segment pair
+    lo_, la_ = np.asarray(line["lon"]), np.asarray(line["lat"])
+    j = int(np.argmin([GEOD.inv(lon[k], lat[k], a, b)[2] for a, b in zip(lo_, la_, strict=True)]))
+    pts = []
+    for a, b in ((max(j - 1, 0), j), (j, min(j + 1, len(lo_) - 1))):
+        if a == b:
+            continue
+        _, _, seg = GEOD.inv(lo_[a], la_[a], lo_[b], la_[b])
+        az, _, _ = GEOD.inv(lo_[a], la_[a], lo_[b], la_[b])
+        fine = np.linspace(0.0, seg, 101)
+        flon, flat, _ = GEOD.fwd(np.full(101, lo_[a]), np.full(101, la_[a]), np.full(101, az), fine)
+        pts += list(zip(flon, flat, strict=True))
+    best = min(((abs(GEOD.inv(x, y, plo, pla)[2]), sv) for sv, x, y in zip(s, lon, lat, strict=True)
+                if abs(sv - s[k]) <= 60.0 for plo, pla in pts), key=lambda t: t[0])
+    return best[1]
+
+
+def _height_at(ds, level, lon, lat):
+    return float(_interp(ds, "z", level)(np.c_[[lat], [lon]])[0])
+
+
 @pytest.mark.parametrize("kind", ["warm", "cold"])
 def test_speed_and_slope_from_the_fields(truth, kind):
     # Zone centres (tanh fit to the temperature) on a transect normal to the
-    # surface front at 600 km from the low at +18 h, found again at +30 h and
-    # on a higher level. Speed = displacement / 12 h; slope = height
-    # difference of the levels (ICAO heights used by the scenario) / horizontal
-    # offset. Tolerance 3 % for speed (grid interpolation, map scale),
-    # 8 % for slope (the background gradient moves the steepest point by a few km).
-    t1, t2 = 18, 30
-    line = truth["sets"]["analyses"]["times"][_iso(t1)]["surface"][kind]
+    # 850 hPa front 600 km from the triple point at +18 h, found again at
+    # +21 h and on a higher level. Speed = displacement / 3 h against the
+    # truth's mean front-normal speed of the two times (measured there on the
+    # geometry); slope = difference of the WRITTEN heights of the two levels at
+    # the two zone centres / horizontal offset. Tolerance 6 % for speed (the
+    # front turns and its speed varies along it; grid interpolation), 8 % for
+    # slope (the background gradient moves the steepest point by a few km).
+    t1, t2 = 18, 21
+    line = truth["sets"]["analyses"]["times"][_iso(t1)]["850hPa"][kind]
     lon0, lat0, az_ray = _point_along(line, 600.0)
     az_normal = az_ray - 90.0 if kind == "warm" else az_ray + 90.0  # toward the cold side
-    hgt = truth["prescribed"]["level_heights_m_for_geometry"]
-    # 850 hPa: above the shallow surface cold pool; upper level within the transect
     low, upper = 850.0, (600.0 if kind == "warm" else 500.0)
     ds1, ds2 = _open(_analysis(t1)), _open(_analysis(t2))
     s_low1 = _centre_position(ds1, kind, low, lon0, lat0, az_normal)
@@ -369,12 +404,23 @@ def test_speed_and_slope_from_the_fields(truth, kind):
     # the front moves toward its cold side (warm) or warm side (cold)
     moved_km = (s_low2 - s_low1) * (1 if kind == "warm" else -1)
     speed = moved_km * 1e3 / ((t2 - t1) * 3600.0)
-    expected = np.mean(
-        [truth["sets"]["analyses"]["times"][_iso(h)]["speed_earth_ms"][kind] for h in (t1, t2)]
-    )
-    assert speed == pytest.approx(expected, rel=0.03)
-    assert expected == pytest.approx(truth["speeds_ms"][kind], rel=0.015)
-    dh = hgt[str(int(upper))] - hgt[str(int(low))]
+    # the truth lines cross the same transect where the fields put the zone
+    s_tr, lon_tr, lat_tr = _transect(lon0, lat0, az_normal, 900.0, step_km=1.0)
+    at = [
+        _line_crossing_km(
+            s_tr, lon_tr, lat_tr, truth["sets"]["analyses"]["times"][_iso(h)]["850hPa"][kind]
+        )
+        for h in (t1, t2)
+    ]
+    expected = (at[1] - at[0]) * (1 if kind == "warm" else -1) * 1e3 / ((t2 - t1) * 3600.0)
+    assert speed == pytest.approx(expected, rel=0.05)
+    # and the truth's own speed 600 km along the surface front is of that size
+    # (it is measured elsewhere on the turning front: within 15 %)
+    own = truth["sets"]["analyses"]["times"][_iso(t1)]["speed_earth_ms"][kind]
+    assert own == pytest.approx(expected, rel=0.15)
+    lo_l, la_l, _ = GEOD.fwd(lon0, lat0, az_normal, s_low1 * 1e3)
+    lo_u, la_u, _ = GEOD.fwd(lon0, lat0, az_normal, s_up1 * 1e3)
+    dh = _height_at(ds1, upper, lo_u, la_u) - _height_at(ds1, low, lo_l, la_l)
     slope_1_in = (s_up1 - s_low1) * 1e3 / dh
     assert slope_1_in == pytest.approx(truth["slopes_1_in"][kind], rel=0.08)
     # the truth slopes are the common-practice values: warm about 1 in 150
@@ -382,47 +428,175 @@ def test_speed_and_slope_from_the_fields(truth, kind):
     assert (100 <= slope_1_in <= 300) if kind == "warm" else (45 <= slope_1_in <= 100)
 
 
-def test_truth_surface_line_is_the_zone_centre(truth):
-    # the truth surface line sits on the steepest 1000 hPa temperature change
-    # (1000 hPa lies 150 * 111 m = 17 km / 50 * 111 m = 6 km toward the cold
-    # side); tolerance 6 km (0.25 deg grid, linear interpolation)
-    ds = _open(_analysis(24))
-    for kind, lean in (("warm", 150.0), ("cold", 50.0)):
-        line = truth["sets"]["analyses"]["times"][_iso(24)]["surface"][kind]
-        for km in (300.0, 900.0):
-            lon0, lat0, az_ray = _point_along(line, km)
-            az_normal = az_ray - 90.0 if kind == "warm" else az_ray + 90.0
-            s0 = _centre_position(ds, kind, 1000.0, lon0, lat0, az_normal, half_km=300.0)
-            expected = lean * truth["prescribed"]["level_heights_m_for_geometry"]["1000"] / 1e3
-            assert s0 == pytest.approx(expected, abs=6.0), (kind, km, s0)
+@pytest.mark.parametrize("kind", ["warm", "cold"])
+def test_truth_lines_are_the_zone_centres_of_the_written_fields(truth, kind):
+    # The truth is measured on what the files hold: the 850 hPa line on the
+    # steepest 850 hPa temperature change, the surface line on the steepest
+    # 2-m temperature change (over land the 2-m surface is the orography, and
+    # the zone there lies slope x height toward the cold side of the sea-level
+    # front). Tolerance 6 km (0.25 deg grid, linear interpolation, the
+    # background gradient); both at several points and two times.
+    checked = {"850hPa": 0, "surface": 0}
+    for hour in (15, 33):
+        ds = _open(_analysis(hour))
+        rec = truth["sets"]["analyses"]["times"][_iso(hour)]
+        for level, field, lev in (("850hPa", "t", 850.0), ("surface", "t2m", None)):
+            line = rec[level][kind]
+            for km in (300.0, 700.0, 1100.0):
+                if km / 50.0 + 1 >= len(line["lon"]):
+                    continue
+                lon0, lat0, az_ray = _point_along(line, km)
+                az_normal = az_ray - 90.0 if kind == "warm" else az_ray + 90.0
+                s, lon, lat = _transect(lon0, lat0, az_normal, 300.0)
+                if level == "surface":
+                    # over rough ground the 2-m temperature also steps with the
+                    # terrain (6.5 K/km): only transects over ground within 100 m
+                    ground = _orog_at(ds)(np.c_[lat, lon])
+                    if np.nanmax(ground) - np.nanmin(ground) > 100.0:
+                        continue
+                vals = _interp(ds, field, lev)(np.c_[lat, lon])
+                ok = np.isfinite(vals)
+                s0 = _zone_centre(s[ok], vals[ok])
+                assert abs(s0) < 6.0, (hour, level, km, s0)
+                checked[level] += 1
+    assert checked["850hPa"] >= 5 and checked["surface"] >= 2, checked
+
+
+def test_site_elevations_are_the_written_orography():
+    ds = _open(_analysis(0))
+    for name, lat, lon, elev in sc.SITES:
+        grid = float(_orog_at(ds)(np.c_[[lat], [lon]])[0])
+        assert elev > 0.0, f"{name} is at sea"
+        assert grid == pytest.approx(elev, abs=1.0), name
+    assert max(e for *_, e in sc.SITES) > 500.0  # one upland site
+    assert min(e for *_, e in sc.SITES) < 100.0  # one near the coast
 
 
 def test_passages_are_consistent(truth):
-    start, end = np.datetime64("2027-01-14T00:00"), np.datetime64("2027-01-16T00:00")
+    start, end = np.datetime64("2027-01-13T18:00"), np.datetime64("2027-01-16T06:00")
     ana = truth["sets"]["analyses"]["passages"]
+    stages = {"warm and cold": 0, "occluded": 0}
     for set_name, entry in truth["sets"].items():
         offset = entry["timing_offset_h"]
         for site, p in entry["passages"].items():
-            warm = np.datetime64(p["warm"].rstrip("Z"))
-            cold = np.datetime64(p["cold"].rstrip("Z"))
-            assert start < warm < cold < end, (set_name, site)
-            shift = np.datetime64(ana[site]["warm"].rstrip("Z")) - warm
-            assert shift / np.timedelta64(1, "s") == pytest.approx(offset * 3600.0, abs=1.0)
+            when = {k: None if v is None else np.datetime64(v.rstrip("Z")) for k, v in p.items()}
+            for kind, t in when.items():
+                if t is None:
+                    assert ana[site][kind] is None or set_name != "analyses"
+                    continue
+                assert start <= t <= end, (set_name, site, kind)
+                if ana[site][kind] is not None:
+                    shift = np.datetime64(ana[site][kind].rstrip("Z")) - t
+                    # the runs show the scenario offset in time (1 min rounding)
+                    assert shift / np.timedelta64(1, "s") == pytest.approx(offset * 3600.0, abs=61)
+            if when["warm"] is not None and when["cold"] is not None:
+                assert when["warm"] < when["cold"], (set_name, site)
+                stages["warm and cold"] += 1
+            if when["occluded"] is not None:
+                assert when["warm"] is None and when["cold"] is None, (set_name, site)
+                stages["occluded"] += 1
+    # the life cycle reaches the sites at different stages
+    assert stages["warm and cold"] >= 3 * 4 and stages["occluded"] >= 3
     assert truth["timing_offsets_h"] == {"analyses": 0.0, RUN_A: 1.5, RUN_B: -2.0}
 
 
 def test_run_fronts_are_offset_in_time(truth):
-    # run A shows the event 1.5 h ahead: its +24 h field equals the scenario
-    # at +25.5 h, i.e. the analyses' front 1.5 h * speed further on
+    # run A shows the event 1.5 h ahead: its +24 h cold front is where the
+    # analyses' cold front is 1.5 h later, i.e. about 1.5 h * its speed on
     a = truth["sets"][RUN_A]["times"][_iso(24)]["surface"]["cold"]
     b = truth["sets"]["analyses"]["times"][_iso(24)]["surface"]["cold"]
-    _, _, dist = GEOD.inv(a["lon"][0], a["lat"][0], b["lon"][0], b["lat"][0])
-    lon, lat, _ = _point_along(a, 600.0)
+    speed = truth["sets"]["analyses"]["times"][_iso(24)]["speed_earth_ms"]["cold"]
     lon_b, lat_b, az = _point_along(b, 600.0)
-    # the cold front moves toward az - 90 (its warm side); displacement normal to it
-    fwd, _, d = GEOD.inv(lon_b, lat_b, lon, lat)
-    normal = d * math.cos(math.radians(fwd - (az - 90.0)))
-    assert normal / 1e3 == pytest.approx(12.0 * 1.5 * 3.6, rel=0.03)
+    # the cold front moves toward az - 90 (its warm side): nearest point of a
+    # on the normal through b's point
+    s, lon, lat = _transect(lon_b, lat_b, az - 90.0, 200.0, step_km=1.0)
+    dist = [min(GEOD.inv(x, y, lo, la)[2] for lo, la in zip(a["lon"], a["lat"], strict=True))
+            for x, y in zip(lon, lat, strict=True)]
+    moved_km = s[int(np.argmin(dist))]
+    assert moved_km == pytest.approx(speed * 1.5 * 3.6, rel=0.12)
+
+
+def test_life_cycle_deepens_narrows_and_occludes(truth):
+    # the low deepens (fastest in the first day), its warm sector narrows and
+    # an occlusion forms in the second day and lengthens; the analyses' MSLP
+    # minimum is at the truth low centre within a grid length and its
+    # central pressure within 1 hPa
+    times = truth["sets"]["analyses"]["times"]
+    p = [times[_iso(h)]["low"]["central_pressure_hpa"] for h in range(0, 49, 3)]
+    assert all(b < a for a, b in zip(p, p[1:], strict=False))
+    assert p[0] - p[8] > p[8] - p[16] > 0.0
+    occ = [times[_iso(h)]["occluded_length_km"] for h in range(0, 49, 3)]
+    forms = np.datetime64(truth["sets"]["analyses"]["occlusion_forms"].rstrip("Z"))
+    assert np.datetime64("2027-01-14T12:00") < forms < np.datetime64("2027-01-15T00:00")
+    assert occ[0] == 0.0 and occ[-1] > 400.0
+    assert all(b >= a for a, b in zip(occ, occ[1:], strict=False))
+    assert len(times[_iso(48)]["surface"]["occluded"]["lon"]) >= 5
+    assert len(times[_iso(12)]["surface"]["occluded"]["lon"]) == 0
+
+    def opening_deg(hour):  # angle between the fronts 300 km from the triple point
+        rec = times[_iso(hour)]["surface"]
+        tp = times[_iso(hour)]["triple_point"]
+        az = []
+        for kind in ("warm", "cold"):
+            lon, lat, _ = _point_along(rec[kind], 300.0)
+            az.append(GEOD.inv(tp["lon"], tp["lat"], lon, lat)[0])
+        return (az[1] - az[0]) % 360.0
+
+    assert opening_deg(3) - opening_deg(45) > 15.0
+    for hour in (6, 24, 42):
+        ds = _open(_analysis(hour))
+        msl = ds.msl.isel(time=0).values / 100.0
+        j, i = np.unravel_index(np.argmin(msl), msl.shape)
+        low = times[_iso(hour)]["low"]
+        gap = GEOD.inv(low["lon"], low["lat"], ds.lon.values[i], ds.lat.values[j])[2]
+        assert gap < 30e3, (hour, gap)
+        assert msl.min() == pytest.approx(low["central_pressure_hpa"], abs=1.0)
+
+
+@pytest.mark.parametrize("kind", ["warm", "cold", "occluded"])
+def test_isobars_kink_in_troughs_at_the_fronts(truth, kind):
+    # a front lies in a trough: along a normal the MSLP has its minimum at the
+    # surface front (within 20 km) and the isobars turn sharply there (the
+    # pressure gradient across the front changes by more than 0.6 hPa per
+    # 100 km between 30 km either side) [trade, common practice, no source]
+    hour = 42 if kind == "occluded" else 24
+    ds = _open(_analysis(hour))
+    line = truth["sets"]["analyses"]["times"][_iso(hour)]["surface"][kind]
+    at = 150.0 if kind == "occluded" else 500.0
+    lon0, lat0, az_ray = _point_along(line, at)
+    az_normal = az_ray - 90.0 if kind != "cold" else az_ray + 90.0
+    s, lon, lat = _transect(lon0, lat0, az_normal, 150.0, step_km=2.0)
+    p = _interp(ds, "msl")(np.c_[lat, lon]) / 100.0
+    # the trough is on the sea-level front; the truth surface line lies slope x
+    # ground height toward the cold side of it (the 2-m surface over land)
+    ground = float(_orog_at(ds)(np.c_[[lat0], [lon0]])[0])
+    expected = -truth["slopes_1_in"][kind] * (ground + 2.0) / 1000.0
+    # the trough: relative to the straight line through the ends of the transect
+    dip = p - np.interp(s, [s[0], s[-1]], [p[0], p[-1]])
+    assert abs(s[int(np.argmin(dip))] - expected) <= 20.0, (kind, expected)
+    grad = np.gradient(p, s) * 100.0  # hPa per 100 km
+    change = grad[np.searchsorted(s, 30.0)] - grad[np.searchsorted(s, -30.0)]
+    assert change > 0.6, (kind, change)
+
+
+def test_warm_tongue_over_the_occlusion(truth):
+    # the occlusion's warm tongue aloft: theta-w at 850 hPa (MetPy) higher on
+    # the truth 850 hPa occluded line than 250 km either side of it
+    hour = 45
+    ds = _open(_analysis(hour))
+    t = ds.t.isel(time=0).sel(level=850.0)
+    rh = ds.rh.isel(time=0).sel(level=850.0)
+    td = mpcalc.dewpoint_from_relative_humidity(t.values * units.K, rh.values / 100.0)
+    thw = mpcalc.wet_bulb_potential_temperature(850.0 * units.hPa, t.values * units.K, td)
+    ds["thw"] = (("lat", "lon"), thw.m_as("K"))
+    ds["thw"] = ds["thw"].expand_dims(time=ds.time)
+    line = truth["sets"]["analyses"]["times"][_iso(hour)]["850hPa"]["occluded"]
+    for km in (100.0, 200.0):
+        lon0, lat0, az_ray = _point_along(line, km)
+        s, lon, lat = _transect(lon0, lat0, az_ray - 90.0, 250.0, step_km=5.0)
+        v = _interp(ds, "thw")(np.c_[lat, lon])
+        mid = v[np.abs(s) <= 30.0].max()
+        assert mid > v[0] + 1.0 and mid > v[-1] + 1.0, (km, v[0], mid, v[-1])
 
 
 # --------------------------------------------------------------------------
@@ -440,27 +614,35 @@ def _across(
     return s, _interp(ds, field, level)(np.c_[lat, lon]), (lon, lat, az_normal)
 
 
-def test_front_normal_winds_at_850(truth):
-    # A warm front moves at about 2/3 of the 850 hPa wind component across it
-    # (wind about 1.5 x its speed, blowing from the warm to the cold side); a
-    # cold front at about the full component, wind from the cold to the warm
-    # side [trade, common practice, no source]. Mean over 200-1200 km from the low.
-    ds = _open(_analysis(24))
-    rec = truth["sets"]["analyses"]["times"][_iso(24)]["850hPa"]
+@pytest.mark.parametrize("hour", [18, 30, 42])
+def test_front_normal_winds_at_850(truth, hour):
+    # A warm front moves at about half to two-thirds of the 850 hPa wind
+    # component across it (wind 1.5-2 x its speed, blowing from the warm to the
+    # cold side; from memory); a cold front at about the full component, wind
+    # from the cold to the warm side [trade, common practice, no source]. Mean
+    # over 200-1200 km from the triple point, against the front-normal speed
+    # 600 km along, at three stages of the life cycle. The scenario prescribes
+    # the fronts' motion and the winds follow its pressure field, so the rule
+    # holds only roughly: measured 2026-12 warm 1.2-1.9, cold 1.0-1.6 (the young
+    # cold front runs slower than its wind); the bands are the rule +-40 %.
+    ds = _open(_analysis(hour))
+    rec = truth["sets"]["analyses"]["times"][_iso(hour)]
     iu, iv = _interp(ds, "u", 850.0), _interp(ds, "v", 850.0)
-    for kind, lo, hi in (("warm", 1.25, 1.8), ("cold", 0.8, 1.25)):
+    for kind, lo, hi in (("warm", 1.05, 2.4), ("cold", 0.7, 1.7)):
         vals = []
         for km in range(200, 1201, 100):
-            lon0, lat0, az_ray = _point_along(rec[kind], float(km))
+            if km / 50.0 + 1 >= len(rec["850hPa"][kind]["lon"]):
+                continue
+            lon0, lat0, az_ray = _point_along(rec["850hPa"][kind], float(km))
             az = math.radians(az_ray - 90.0 if kind == "warm" else az_ray + 90.0)
             pt = np.c_[[lat0], [lon0]]
             vals.append(float(iu(pt)[0]) * math.sin(az) + float(iv(pt)[0]) * math.cos(az))
-        toward_cold = np.mean(vals)
-        ratio = toward_cold / truth["speeds_ms"][kind]
+        assert len(vals) >= 5
+        ratio = np.mean(vals) / rec["speed_earth_ms"][kind]
         if kind == "warm":
-            assert lo <= ratio <= hi, ratio
+            assert lo <= ratio <= hi, (hour, ratio)
         else:
-            assert lo <= -ratio <= hi, ratio
+            assert lo <= -ratio <= hi, (hour, ratio)
 
 
 def test_theta_w_contrast_at_850(truth):
@@ -670,9 +852,10 @@ def test_station_series_layout_and_defects(truth):
 
 def test_station_series_follow_the_analyses(truth):
     # the noisy station series are drawn from the analysis scenario: MSL
-    # pressure within 1 hPa, temperature within 1.5 K (noise 0.25 K, station
-    # elevation, 2-m field at the nearest minute) of the analysis at the site
-    for name, lat, lon, elev in sc.SITES[:3]:
+    # pressure within 1 hPa, temperature within 1.5 K (noise 0.25 K, the
+    # grid's 2-m surface against the site's elevation, 1 m apart) of the
+    # analysis at the site
+    for name, lat, lon, _ in sc.SITES[:3]:
         df = pd.read_csv(EVENT / "stations" / f"{name}.csv")
         df = df[pd.to_numeric(df["temperature_c"], errors="coerce").notna()]
         df.index = pd.to_datetime(df["time_utc"], utc=True).dt.tz_convert(None)
@@ -684,25 +867,39 @@ def test_station_series_follow_the_analyses(truth):
             ds = _open(_analysis(h))
             pt = np.c_[[lat], [lon]]
             p = _interp(ds, "msl")(pt)[0] / 100.0
-            t = _interp(ds, "t2m")(pt)[0] - 273.15 - 0.0065 * elev
+            t = _interp(ds, "t2m")(pt)[0] - 273.15
             assert float(row["pressure_hpa"]) == pytest.approx(p, abs=1.0)
             assert float(row["temperature_c"]) == pytest.approx(t, abs=1.5)
 
 
-def test_sites_see_both_fronts_in_the_fields(truth):
-    # at every site the 2-m temperature is higher between the passages
-    # (warm sector) than 3 h before the warm front [regression against truth]
+def test_sites_see_their_fronts_in_the_fields(truth):
+    # at every site crossed by both fronts the 2-m temperature is higher
+    # between the passages (warm sector) than 3 h before the warm front; at a
+    # site crossed by the occlusion the 850 hPa temperature peaks within 6 h of
+    # its passage (the warm tongue leaning over it) [regression against truth]
+    start = pd.Timestamp("2027-01-14")
+
+    def step(t):
+        return int(np.clip(((t - start) / pd.Timedelta(hours=3)), 0, 16)) * 3
+
+    checked = 0
     for name, lat, lon, _ in sc.SITES:
-        p = truth["sets"]["analyses"]["passages"][name]
-        warm = pd.Timestamp(p["warm"].rstrip("Z"))
-        cold = pd.Timestamp(p["cold"].rstrip("Z"))
-        before = int(((warm - pd.Timestamp("2027-01-14")) / pd.Timedelta(hours=3))) * 3 - 3
-        inside = (
-            int(((warm + (cold - warm) / 2 - pd.Timestamp("2027-01-14")) / pd.Timedelta(hours=3)))
-            * 3
-        )
-        before = max(before, 0)
+        p = {k: None if v is None else pd.Timestamp(v.rstrip("Z"))
+             for k, v in truth["sets"]["analyses"]["passages"][name].items()}
         pt = np.c_[[lat], [lon]]
-        t_before = _interp(_open(_analysis(before)), "t2m")(pt)[0]
-        t_inside = _interp(_open(_analysis(inside)), "t2m")(pt)[0]
-        assert t_inside > t_before + 2.0, (name, before, inside)
+        both = p["warm"] is not None and p["cold"] is not None
+        if both and p["cold"] < start + pd.Timedelta(hours=48):
+            before = max(step(p["warm"]) - 3, 0)
+            inside = step(p["warm"] + (p["cold"] - p["warm"]) / 2)
+            t_before = _interp(_open(_analysis(before)), "t2m")(pt)[0]
+            t_inside = _interp(_open(_analysis(inside)), "t2m")(pt)[0]
+            assert t_inside > t_before + 2.0, (name, before, inside)
+            checked += 1
+        if p["occluded"] is not None:
+            at = step(p["occluded"])
+            hours = list(range(max(at - 12, 0), min(at + 12, 48) + 1, 3))
+            t850 = [_interp(_open(_analysis(h)), "t", 850.0)(pt)[0] for h in hours]
+            peak = hours[int(np.argmax(t850))]
+            assert abs(peak - step(p["occluded"])) <= 6, (name, peak)
+            checked += 1
+    assert checked >= 5

@@ -801,7 +801,7 @@ def test_sample_event_freezing_rain_window(sample_truth, sample_run, set_name):
     sites = pd.read_csv(SAMPLE / "sites.csv").set_index("name")
     name = sample_truth["freezing_rain_site"]
     site = sites.loc[name]
-    col = ds.sel(lat=site.lat, lon=site.lon, method="nearest")
+    col = ds.interp(lat=site.lat, lon=site.lon)  # bilinear, as the site series
     top, base, tmax = thermo.warm_layer_aloft(
         col["t"], col["z"], t_surface=col["t2m"], z_surface=float(site.elevation_m)
     )
@@ -810,9 +810,10 @@ def test_sample_event_freezing_rain_window(sample_truth, sample_run, set_name):
     assert found.any(), f"no warm layer aloft at {name} in {set_name}"
     assert np.all(tmax.values[found] > T0) and np.all(base.values[found] < top.values[found])
     assert np.all(base.values[found] >= float(site.elevation_m))
-    # ...at the steps of the truth file's window, within an hour (issue 17: the test
-    # once allowed any time in the 24 h before the warm front)
-    window = info["freezing_rain_window"]
+    # ...at the steps of the truth file's window of a warm nose over sub-zero air
+    # (its freezing-rain window without the precipitation), within an hour (issue
+    # 17: the test once allowed any time in the 24 h before the warm front)
+    window = info["warm_nose_window"]
     assert window["site"] == name
     start = np.datetime64(window["start"].rstrip("Z"), "ns")
     end = np.datetime64(window["end"].rstrip("Z"), "ns")

@@ -84,8 +84,6 @@ from kit.constants import (
     NM_KM,
     RD,
     T0_K,
-    TYPICAL_SLOPE_1_IN,
-    ZONE_CENTRE_FACTOR,
 )
 from kit.errors import InputError
 from kit.science import fronts as kf
@@ -128,7 +126,7 @@ SNOW_WBFL_M = 300.0
 LIGHT_WIND_KT = 3.0
 # typical slopes (TYPICAL_SLOPE_1_IN) and the line-to-zone-centre factor
 # (ZONE_CENTRE_FACTOR) are in kit.constants, with their sources
-_MAX_CENTRE_KM = 300.0
+_MAX_CENTRE_KM = sections.MAX_CENTRE_KM
 #: rule of thumb distances [nautical miles] (REFERENCES.md, [trade])
 WARM_RAIN_AHEAD_NM = (200.0, 300.0)
 COLD_HEAVY_BEHIND_NM = (50.0, 100.0)
@@ -591,38 +589,6 @@ def _compass(bearing):
     return _COMPASS[int(((bearing % 360.0) + 22.5) // 45.0) % 8]
 
 
-def _slope_1_in(front):
-    n = front.props.get("slope_1_in") if front.props else None
-    try:
-        n = float(n)
-    except (TypeError, ValueError):
-        n = np.nan
-    if np.isfinite(n) and 10.0 <= abs(n) <= 1000.0:
-        return abs(n), "front"
-    typ = TYPICAL_SLOPE_1_IN.get(front.kind)
-    return (typ, "typical") if typ else (np.nan, "none")
-
-
-def _zone_centre_km(front):
-    """Distance from the locating line to the frontal zone's centre, toward the cold side [km].
-
-    The locating line lies on the warm edge of the frontal zone (Hewson 1998).
-    For a tanh zone of half-width L the line is at 0.658 L from the centre,
-    where |grad tau| / TFP = 0.866 L; so the centre lies
-    :data:`ZONE_CENTRE_FACTOR` |grad tau| / TFP = 0.760 |grad tau| / TFP on the
-    cold side (derived from the analytic zone of REFERENCES.md). The median
-    over the vertices is used; NaN when the front carries no usable
-    ``grad``/``tfp``.
-    """
-    grad = np.asarray(front.grad, dtype=float)
-    tfp = np.asarray(front.tfp, dtype=float)
-    ok = np.isfinite(grad) & np.isfinite(tfp) & (tfp > 0) & (grad > 0)
-    if not ok.any():
-        return np.nan
-    km = ZONE_CENTRE_FACTOR * float(np.median(grad[ok] / tfp[ok])) / 1000.0
-    return km if 0.0 < km <= _MAX_CENTRE_KM else np.nan
-
-
 class ZoneCentre:
     """Distance from a locating line to the frontal zone's centre, from the run's field.
 
@@ -631,7 +597,7 @@ class ZoneCentre:
     changes sign), sampled with cubic interpolation every 2 km out to
     ``max_km``; the smoothing and thermal field are those of the front finder
     (kit.science.fronts.FrontSettings). Falls back to the tanh estimate
-    (:func:`_zone_centre_km`) where no maximum is found.
+    (:func:`kit.science.sections.zone_centre_offset_km`) where no maximum is found.
     """
 
     def __init__(self, ds, settings=None, max_km=_MAX_CENTRE_KM, step_km=2.0):
@@ -747,7 +713,7 @@ class SurfaceFront:
             ds = self.ds
             if "member" in ds.dims and member is not None:
                 ds = ds.sel(member=member)
-            keep = [n for n in ("t2m", "td2m", "mslp") if n in ds]
+            keep = [n for n in ("t2m", "td2m", *sections.SURFACE_PRESSURE_FIELDS) if n in ds]
             keep += sorted({ds[n].attrs["grid_mapping"] for n in keep
                             if ds[n].attrs.get("grid_mapping") in ds.variables})
             one = ds[keep].sel(time=key[0]) if "time" in ds.dims else ds[keep]
@@ -861,7 +827,7 @@ def find_passages(
             g = signed_distance_km(f, lat, lon)
             shift = 0.0
             if surface and zlev is not None and f.level_hpa is not None:
-                n, _ = _slope_1_in(f)
+                n, _ = sections.front_slope_1_in(f)
                 if np.isfinite(n):
                     zl = _level_height(zlev, float(f.level_hpa), f.valid_time)
                     if np.isfinite(zl):
@@ -871,7 +837,7 @@ def find_passages(
             if zone_centre and centre_finder is not None and near:
                 centre = centre_finder.offset_km(f, lat, lon)
             if zone_centre and not np.isfinite(centre):
-                centre = _zone_centre_km(f)
+                centre = sections.zone_centre_offset_km(f)
             centre = 0.0 if not np.isfinite(centre) else centre
             # d is positive on the cold side: moving the line toward the warm side
             # by `shift` puts the site farther on its cold side, and vice versa

@@ -39,7 +39,16 @@ from pyproj import CRS, Transformer
 from scipy.ndimage import gaussian_filter1d
 
 from kit import CAUTION
-from kit.constants import EARTH_RADIUS_KM, EARTH_RADIUS_M, G0, NM_KM, OMEGA
+from kit.constants import (
+    EARTH_RADIUS_KM,
+    EARTH_RADIUS_M,
+    G0,
+    NM_KM,
+    OMEGA,
+    RD,
+    TYPICAL_SLOPE_1_IN,
+    ZONE_CENTRE_FACTOR,
+)
 from kit.errors import InputError
 from kit.science import thermo
 from kit.science.geo import (
@@ -60,6 +69,10 @@ __all__ = [
     "pick_front",
     "potential_vorticity",
     "locate_frontal_surface",
+    "front_slope_1_in",
+    "zone_centre_offset_km",
+    "MAX_CENTRE_KM",
+    "surface_pressure_hpa",
     "surface_front_1d",
     "grid_km",
     "normal_through",
@@ -349,7 +362,8 @@ def _at_time(ds, time, member):
     check_section_levels(ds)
     ds = _select_member(ds, member)
     t = select_time(ds, time)
-    keep = [n for n in ("t", "td", "u", "v", "z", "precip", "t2m", "td2m", "mslp") if n in ds]
+    keep = [n for n in ("t", "td", "u", "v", "z", "precip", "t2m", "td2m", "ps", "mslp", "zsfc")
+            if n in ds]
     # the CF grid-mapping variable of a projected grid, for exact point placement
     keep += sorted({ds[n].attrs["grid_mapping"] for n in _REQUIRED
                     if ds[n].attrs.get("grid_mapping") in ds.variables})
@@ -557,7 +571,7 @@ def surface_front_1d(tau, dist_km, smoothing_km, guess_km, warm_sign,
     if not np.isfinite(g).any() or np.nanmax(g) <= 0:
         return np.nan
     gmax = np.nanmax(g)
-    best = np.nan
+    cands = []  # (position, gradient) of the maxima within the window
     for m in range(1, g.size - 1):
         a, b, c = g[m - 1], g[m], g[m + 1]
         if not (np.isfinite(a) and np.isfinite(b) and np.isfinite(c)):
@@ -566,11 +580,11 @@ def surface_front_1d(tau, dist_km, smoothing_km, guess_km, warm_sign,
             continue
         den = a - 2.0 * b + c
         pos = dist_km[m] + (0.5 * (a - c) / den * ds_km if den < 0 else 0.0)
-        if abs(pos - guess_km) <= window_km and (
-            not np.isfinite(best) or abs(pos - guess_km) < abs(best - guess_km)
-        ):
-            best = float(pos)
-    return best
+        if abs(pos - guess_km) <= window_km:
+            cands.append((float(pos), float(b)))
+    if not cands:
+        return np.nan
+    return min(cands, key=lambda c: abs(c[0] - guess_km))[0]
 
 
 def locate_frontal_surface(sec, *, field="theta_w", reference_km=None, reference_hpa=850.0,
@@ -703,7 +717,8 @@ def fit_frontal_slope(position_km, height_m):
 # sections
 # ---------------------------------------------------------------------------
 def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
-           reference_hpa=850.0, front_kind=None, smoothing_km=None):
+           reference_hpa=850.0, front_kind=None, smoothing_km=None, front_slope=None,
+           ground_at_km=None, centre_km=np.nan):
     one, t_valid = _at_time(ds, time, member)
     j, i = _grid_index(one, lat, lon)
     one, j, i = _window(one, j, i)
@@ -796,21 +811,22 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
                                    "long_name": "potential vorticity times the "
                                    "sign of latitude (2 on the dynamic tropopause)"}
 
+    if "zsfc" in flat:
+        sec["ground_m"] = ("distance", np.asarray(flat["zsfc"].values, float),
+                           {"units": "m", "long_name": "height of the model surface"})
     if "precip" in flat:
         sec["precip"] = ("distance", flat["precip"].values.astype(float),
                          {"units": "mm h-1", "long_name": "surface precipitation "
                          "rate over the model step ending at the valid time"})
-    psfc = (flat["mslp"].values / 100.0) if "mslp" in flat else np.full(dist.shape, 1013.25)
+    psfc, p_words = surface_pressure_hpa(flat, dist.shape)
     if humid and "t2m" in flat and "td2m" in flat:
         sec["theta_w_surface"] = ("distance", np.asarray(thermo.wet_bulb_potential_temperature(
             flat["t2m"].values, flat["td2m"].values, psfc), float),
-            {"units": "K", "long_name": "wet-bulb potential temperature at 2 m (mslp as "
-             "surface pressure)"})
+            {"units": "K", "long_name": f"wet-bulb potential temperature at 2 m ({p_words})"})
     elif not humid and "t2m" in flat:
         sec["theta_surface"] = ("distance", np.asarray(thermo.potential_temperature(
             flat["t2m"].values, psfc), float),
-            {"units": "K", "long_name": "potential temperature at 2 m (mslp as surface "
-             "pressure)"})
+            {"units": "K", "long_name": f"potential temperature at 2 m ({p_words})"})
 
     ws = sec["wind_speed"].values
     attrs = {
@@ -848,13 +864,90 @@ def _build(ds, lat, lon, dist, bearing, time, member, *, reference_km=None,
     sec.attrs = attrs
 
     _add_frontal_surface(sec, reference_km=reference_km, reference_hpa=reference_hpa,
-                         front_kind=front_kind, smoothing_km=smoothing_km)
+                         front_kind=front_kind, smoothing_km=smoothing_km,
+                         front_slope=front_slope, ground_at_km=ground_at_km,
+                         centre_km=centre_km)
     sec["level"].attrs.update(units="hPa", long_name="pressure level")
     sec["distance"].attrs.update(units="km", long_name="distance along the section from its start")
     return sec
 
 
-def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smoothing_km):
+def front_slope_1_in(front):
+    """Slope N (1 in N) of a front's surface for the surface-front estimate, and its source.
+
+    The front's own slope (:mod:`kit.science.structure`) where it is plausible
+    (1 in 10 to 1 in 1000), else the typical slope of its kind
+    (:data:`kit.constants.TYPICAL_SLOPE_1_IN`); ``(nan, "none")`` without either.
+    """
+    n = front.props.get("slope_1_in") if front.props else None
+    try:
+        n = float(n)
+    except (TypeError, ValueError):
+        n = np.nan
+    if np.isfinite(n) and 10.0 <= abs(n) <= 1000.0:
+        return abs(n), "front"
+    typ = TYPICAL_SLOPE_1_IN.get(front.kind)
+    return (typ, "typical") if typ else (np.nan, "none")
+
+
+#: largest distance from a locating line to its zone's centre that is believed [km]
+MAX_CENTRE_KM = 300.0
+
+
+def zone_centre_offset_km(front):
+    """Distance from the locating line to the frontal zone's centre, toward the cold side [km].
+
+    The locating line lies on the warm edge of the frontal zone (Hewson 1998).
+    For a tanh zone of half-width L the line is at 0.658 L from the centre,
+    where |grad tau| / TFP = 0.866 L; so the centre lies
+    :data:`kit.constants.ZONE_CENTRE_FACTOR` |grad tau| / TFP = 0.760 |grad tau| / TFP
+    on the cold side (derived from the analytic zone of REFERENCES.md). The
+    median over the vertices is used; NaN when the front carries no usable
+    ``grad``/``tfp``.
+    """
+    grad = np.asarray(front.grad, dtype=float)
+    tfp = np.asarray(front.tfp, dtype=float)
+    ok = np.isfinite(grad) & np.isfinite(tfp) & (tfp > 0) & (grad > 0)
+    if not ok.any():
+        return np.nan
+    km = ZONE_CENTRE_FACTOR * float(np.median(grad[ok] / tfp[ok])) / 1000.0
+    return km if 0.0 < km <= MAX_CENTRE_KM else np.nan
+
+
+def _surface_guess_km(sec, reference_km, reference_hpa, slope_1_in, cold, pos, zpos,
+                      ground_at_km=None, centre_km=np.nan):
+    """Return where the surface front is expected on a section [km].
+
+    The front line's crossing on its level (``reference_km``; else the lowest
+    located level of the frontal surface) moved toward the warm side by the
+    slope times the level's height above the ground (at ``ground_at_km``, the
+    site, when given) and toward the cold side by the line's zone-centre
+    offset: the estimate the arrival table starts from too
+    (:func:`kit.science.passages.find_passages`), so both look for the same
+    zone. None when there is nothing to start from.
+    """
+    dist = sec["distance"].values
+    if reference_km is not None and np.isfinite(reference_km):
+        ref = float(reference_km)
+        k = int(np.argmin(np.abs(sec["level"].values - float(reference_hpa))))
+        z_ref = float(np.interp(ref, dist, sec["z"].values[k]))
+    elif np.isfinite(pos).any():
+        k = int(np.flatnonzero(np.isfinite(pos))[0])
+        ref, z_ref = float(pos[k]), float(zpos[k])
+    else:
+        return None
+    at = ref if ground_at_km is None else float(ground_at_km)
+    ground = float(np.interp(at, dist, sec["ground_m"].values)) if "ground_m" in sec else 0.0
+    above = max(z_ref - ground, 0.0) if np.isfinite(z_ref) else 0.0
+    if np.isfinite(slope_1_in):
+        ref = ref - cold * above * float(slope_1_in) / 1000.0
+    if np.isfinite(centre_km):
+        ref = ref + cold * float(centre_km)
+    return ref
+
+
+def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smoothing_km,
+                         front_slope=None, ground_at_km=None, centre_km=np.nan):
     field = thermal_field(sec)
     pos, cold = locate_frontal_surface(sec, field=field, reference_km=reference_km,
                                        reference_hpa=reference_hpa, smoothing_km=smoothing_km)
@@ -881,7 +974,10 @@ def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smooth
     surf, how = np.nan, ""
     surface = f"{field}_surface"
     if surface in sec and cold != 0:
-        ref = pos[np.isfinite(pos)][0] if np.isfinite(pos).any() else reference_km
+        slope = front_slope if front_slope is not None and np.isfinite(front_slope) else \
+            TYPICAL_SLOPE_1_IN.get(front_kind, np.nan)
+        ref = _surface_guess_km(sec, reference_km, reference_hpa, slope, cold, pos, zpos,
+                                ground_at_km=ground_at_km, centre_km=centre_km)
         if ref is not None:
             surf = surface_front_1d(sec[surface].values, dist,
                                     smoothing_km or surface_smoothing_km(sec.attrs["grid_km"]),
@@ -1015,6 +1111,48 @@ def normal_through(front, lat, lon):
     return math.degrees(math.atan2(wx, wy)) % 360.0, float(px * wx + py * wy)
 
 
+#: fields the surface pressure of a near-surface profile is taken from
+SURFACE_PRESSURE_FIELDS = ("ps", "mslp", "zsfc")
+#: lapse rate of the reduction of sea-level pressure to the model surface [K m-1]
+#: (the standard atmosphere's 6.5 K/km, ICAO 1993; the usual reduction, common practice)
+_REDUCTION_LAPSE = 0.0065
+
+
+def surface_pressure_hpa(flat, shape):
+    """Pressure at the 2-m surface of near-surface samples [hPa], and how it was had.
+
+    The run's surface pressure where it has one; else its mean-sea-level
+    pressure taken down to the model surface (``zsfc``) by the hypsometric
+    equation with the layer's mean temperature, the 2-m temperature plus half
+    the standard lapse over the height (Wallace & Hobbs 2006, Eq. 3.29; number
+    from memory); else mean-sea-level pressure, else 1013.25 hPa. Over high
+    ground sea-level pressure instead of the surface's makes 2-m theta-w several
+    kelvin too cold (about 1 K per 100 m), a terrain step a front finder
+    would take for a front.
+
+    Parameters
+    ----------
+    flat : xarray.Dataset
+        Samples along a ``distance`` dimension (``ps``, ``mslp`` [Pa], ``zsfc`` [m], ``t2m`` [K]).
+    shape : tuple
+        Shape of the samples.
+
+    Returns
+    -------
+    (numpy.ndarray, str)
+    """
+    if "ps" in flat:
+        return np.asarray(flat["ps"].values, float) / 100.0, "surface pressure"
+    if "mslp" not in flat:
+        return np.full(shape, 1013.25), "1013.25 hPa as surface pressure"
+    p = np.asarray(flat["mslp"].values, float) / 100.0
+    if "zsfc" not in flat or "t2m" not in flat:
+        return p, "mslp as surface pressure"
+    z = np.clip(np.asarray(flat["zsfc"].values, float), 0.0, None)
+    t_mean = np.asarray(flat["t2m"].values, float) + 0.5 * _REDUCTION_LAPSE * z
+    return p * np.exp(-G0 * z / (RD * t_mean)), "mslp taken down to the model surface"
+
+
 def near_surface_profile(one, lat, lon, field):
     """Sample the near-surface thermal field along points, as a section does [K].
 
@@ -1025,7 +1163,8 @@ def near_surface_profile(one, lat, lon, field):
     lat, lon : array_like
         The points [degrees].
     field : {"theta_w", "theta"}
-        2-m theta-w (mslp as surface pressure, 1013.25 hPa without it) or 2-m theta.
+        2-m theta-w or 2-m theta, at the surface pressure of
+        :func:`surface_pressure_hpa`.
 
     Returns
     -------
@@ -1035,14 +1174,13 @@ def near_surface_profile(one, lat, lon, field):
     need = ["t2m", "td2m"] if field == "theta_w" else ["t2m"]
     if any(n not in one for n in need):
         return None
-    keep = need + [n for n in ("mslp",) if n in one]
+    keep = need + [n for n in SURFACE_PRESSURE_FIELDS if n in one]
     keep += sorted({one[n].attrs["grid_mapping"] for n in need
                     if one[n].attrs.get("grid_mapping") in one.variables})
     sub = one[keep]
     j, i = _grid_index(sub, np.asarray(lat, float), np.asarray(lon, float))
     flat = PointSampler(sub).sample_dataset(sub, index=(j, i), nan="propagate", dim="distance")
-    n = np.asarray(lat).size
-    psfc = (flat["mslp"].values / 100.0) if "mslp" in flat else np.full(n, 1013.25)
+    psfc, _ = surface_pressure_hpa(flat, (np.asarray(lat).size,))
     if field == "theta_w":
         return np.asarray(thermo.wet_bulb_potential_temperature(
             flat["t2m"].values, flat["td2m"].values, psfc), float)
@@ -1173,7 +1311,10 @@ def section_across_front(ds, front, site_or_point=None, *, length_km=1200.0, spa
     front_km = s_front - s0
     sec = _build(ds, lat, lon, dist, brg, front.valid_time, front.member,
                  reference_km=front_km, reference_hpa=float(front.level_hpa),
-                 front_kind=front.kind, smoothing_km=smoothing_km)
+                 front_kind=front.kind, smoothing_km=smoothing_km,
+                 front_slope=front_slope_1_in(front)[0],
+                 ground_at_km=None if p[2] == "" and site_or_point is None else -s0,
+                 centre_km=zone_centre_offset_km(front))
     sec["wind_normal_to_front"] = -sec["v_along"]
     sec["wind_normal_to_front"].attrs = {"units": "m s-1", "long_name": "wind component normal "
                                          "to the front, positive toward the cold side (as "

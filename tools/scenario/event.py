@@ -1,21 +1,27 @@
-"""The invented demo scenario: a deepening frontal depression, written as CF NetCDF.
+"""The invented demo scenario: a frontal wave's life cycle, written as CF NetCDF.
 
 ``python -m tools.scenario [--out sample_grids]`` writes the sample event folder
 described in DEVELOPERS.md (two forecast runs, verifying analyses, invented
 sites, station series with noise, ``truth.json`` and a README). Everything is
-invented: the sites, the dates (January 2027) and the weather. The fields are
-built from a few analytic pieces so that the answers the kit should find are
-known exactly and recorded in ``truth.json``:
+invented: the sites, the dates (January 2027), the terrain and the weather;
+only the land outline is real (Natural Earth 1:110 m, public domain, the one
+the kit's maps draw). The fields are built from analytic pieces, so the
+answers the kit should find are known, and the truth is measured on what the
+files hold:
 
 * **Geometry.** Work is done on a conformal (oblique stereographic, spherical
-  earth) plane centred at 51 N, 10 W with scale factor 0.993 at the centre, so
-  lengths on the plane are within about 1 % of the great-circle lengths over
-  the region the fronts cross (Snyder 1987, Eqs. 21-2 to 21-4 forward, 20-14,
-  20-15 and 21-15 inverse). Both surface fronts are straight rays from the
-  low centre (the apex of the warm sector): the warm front toward bearing
-  100 deg, the cold front toward 190 deg. Each moves along its own normal at a
-  constant prescribed speed on the plane, so the apex (the low centre) moves
-  with the vector that satisfies both normal speeds.
+  earth) plane centred at 51 N, 10 W with scale factor 0.993 at the centre
+  (Snyder 1987, Eqs. 21-2 to 21-4 forward, 20-14, 20-15 and 21-15 inverse).
+  The low centre moves with a velocity that changes linearly in time (it
+  slows and turns left). Until ``occlusion_start_h`` the low is the apex of
+  the warm sector; after it the triple point moves away from the low along
+  an occluded front that lengthens at a set rate. The warm front leaves the
+  triple point and curves to the right, the cold front trails behind it and
+  curves back; their headings at the triple point close in time, so the warm
+  sector narrows. Each front is a smooth curve (headings integrated along
+  arc length, sampled every 4 km); signed distances to it are exact
+  projections on the sampled curve. Each front dies out beyond its length
+  (its zone widens sixteenfold there).
 * **Temperature.** A background with a meridional gradient, a 6.5 K/km lapse
   rate and an isothermal stratosphere above a tropopause that is lower on the
   cold (poleward) side, plus a warm sector of amplitude ``dt_warm_k`` shaped as
@@ -23,15 +29,20 @@ known exactly and recorded in ``truth.json``:
   The frontal surfaces lean: at height h [m] the zone centre lies 150 h toward
   the cold side of the surface warm front (1 in 150) and 50 h toward the cold
   side of the surface cold front (1 in 50) (common practice values, no source).
-  The height used for the geometry of a pressure level is its height in the
-  ICAO standard atmosphere. A tropopause fold (tropopause lowered by 1.5 km,
-  stratospheric isothermal air below it, a stable return above) lies some
-  600 km behind the surface cold front near the low, and a shallow
-  cold pool ahead of the warm front gives a freezing-rain window at one site.
+  Over the occluded front a warm tongue aloft (a trowal) leans 1 in 100. The
+  height is the level's own written height: temperatures and heights are
+  solved together (fixed-point iteration to 0.02 m), so the geometry the kit
+  measures in the files is the geometry of the truth. A tropopause fold lies
+  behind the surface cold front aloft, and a shallow cold pool ahead of the
+  warm front gives a freezing-rain window at one upland site.
+* **Land.** An invented terrain (a rise inland and a few hills) on the real
+  land outline, written as ``orog`` (surface_altitude). The 2-m fields are on
+  that surface; the sites are on land with the orography's height there.
 * **Pressure and heights.** Mean-sea-level pressure is a conical low whose
-  centre deepens linearly, with shallow troughs along both fronts. Heights
-  on pressure levels follow from the hypsometric equation (Wallace & Hobbs
-  2006, Eq. 3.29; equation number from memory) with air temperature (no
+  centre deepens fastest in the first day, with troughs along the fronts
+  whose isobars kink at them (a rounded V, ``trough_kink_km``). Heights on
+  pressure levels follow from the hypsometric equation (Wallace & Hobbs 2006,
+  Eq. 3.29; equation number from memory) with air temperature (no
   virtual-temperature correction), taking the temperature linear in ln p
   between the written levels and between the sea surface and 1000 hPa, so
   that the written heights satisfy the layer form of the equation exactly.
@@ -40,12 +51,14 @@ known exactly and recorded in ``truth.json``:
   geostrophic wind backed by 20 deg (common practice, no source).
 * **Humidity** is near-saturated over the frontal surfaces (the cloud wedge
   over the warm frontal surface out to 300 nm ahead, a band along the cold
-  front), dry in a slot behind the cold front aloft; the 2-m dew point comes
-  from the 2-m relative humidity (Bolton 1980, Eq. 10, inverted).
+  front, deep cloud over the occlusion's warm tongue), dry in a slot behind
+  the cold front aloft; the 2-m dew point comes from the 2-m relative
+  humidity (Bolton 1980, Eq. 10, inverted).
 * **Precipitation** is a light-moderate shield from about 250 nm ahead of the
-  surface warm front up to it, and a heavier band 50-100 nm behind the
-  surface cold front (common practice, no source); files hold the amount
-  accumulated since the forecast reference time [kg m-2].
+  surface warm front up to it, a heavier band 50-100 nm behind the surface
+  cold front, and steady rain wrapping round the low on the cold side of the
+  occlusion (common practice, no source); files hold the amount accumulated
+  since the forecast reference time [kg m-2] (trapezoid over 10-min steps).
 
 Two forecast runs differ from the analyses only by a timing offset (their
 fronts are early or late by a fixed number of hours). The verifying analyses
@@ -57,6 +70,7 @@ run's.
 import argparse
 import json
 import math
+import re
 import shutil
 import sys
 from dataclasses import dataclass
@@ -64,8 +78,14 @@ from pathlib import Path
 
 import netCDF4
 import numpy as np
+import shapely
+from scipy.interpolate import RegularGridInterpolator
+from scipy.ndimage import gaussian_filter
+from scipy.optimize import minimize
+from scipy.spatial import cKDTree
 
 from kit import CAUTION
+from kit.charts.coast import coast_geometries
 
 __all__ = [
     "ScenarioSpec",
@@ -91,13 +111,13 @@ NM = 1852.0  # nautical mile [m]
 #: invented site names (made-up syllable combinations), with plane positions
 #: chosen so that both surface fronts cross every site inside the window
 SITES = (
-    # name, lat, lon, elevation_m
-    ("Kelmarra", 45.13, -21.22, 28.0),
-    ("Tavishore", 46.43, -15.50, 12.0),
-    ("Lorvaine", 45.31, -11.75, 35.0),
-    ("Quennock", 48.52, -12.20, 20.0),
-    ("Eskerwick", 48.56, -6.18, 64.0),
-    ("Drevanholm", 49.58, -5.82, 142.0),
+    # name, lat, lon, elevation_m (the written orography at the site, to 1 m)
+    ("Kelmarra", 47.00, -1.60, 115.0),
+    ("Tavishore", 43.10, -4.80, 449.0),
+    ("Lorvaine", 42.90, -7.60, 259.0),
+    ("Quennock", 52.20, -3.80, 414.0),
+    ("Eskerwick", 49.20, -0.60, 70.0),
+    ("Drevanholm", 46.20, 1.50, 612.0),
 )
 #: the site where a shallow sub-zero surface layer sits ahead of the warm front
 COLD_POOL_SITE = "Drevanholm"
@@ -106,16 +126,17 @@ _PACKING = {
     # name: (scale_factor, add_offset) for CF int16 packing; the scale is the
     # quantization step, chosen to keep the whole event under about 20 MB
     "t": (0.05, 250.0),
-    "rh": (0.5, 50.0),
-    "u": (0.1, 0.0),
-    "v": (0.1, 0.0),
-    "z": (1.0, 6000.0),
+    "rh": (1.0, 50.0),
+    "u": (0.2, 0.0),
+    "v": (0.2, 0.0),
+    "z": (2.0, 6000.0),
     "msl": (2.0, 100000.0),
     "t2m": (0.02, 270.0),
     "d2m": (0.02, 270.0),
     "u10": (0.05, 0.0),
     "v10": (0.05, 0.0),
     "precip": (0.01, 150.0),
+    "orog": (1.0, 0.0),
 }
 
 
@@ -221,6 +242,125 @@ def _unit(bearing_deg):
 
 
 # --------------------------------------------------------------------------
+# Curves on the plane
+# --------------------------------------------------------------------------
+
+_VERTEX_KM = 4.0  # vertex spacing of the sampled curves [km]
+
+
+def _angle_diff(a, b):
+    """Return a - b wrapped to (-180, 180] [deg]."""
+    return (a - b + 180.0) % 360.0 - 180.0
+
+
+def _smoothstep(u):
+    u = np.clip(u, 0.0, 1.0)
+    return u * u * (3.0 - 2.0 * u)
+
+
+class _Curve:
+    """A smooth plane curve sampled every ``_VERTEX_KM``, with arc length 0 at its anchor.
+
+    ``points`` (N, 2) [m] run in the curve's direction; ``s`` (N,) [m] is the
+    arc length from the anchor (negative before it). :meth:`locate` gives the
+    signed distance of points from the curve (positive on its LEFT) and the
+    arc length of their foot points (exact projection on the polyline).
+    """
+
+    def __init__(self, points, s):
+        self.points = np.asarray(points, float)
+        self.s = np.asarray(s, float)
+        seg = np.diff(self.points, axis=0)
+        self.seg_len = np.hypot(seg[:, 0], seg[:, 1])
+        self.seg_dir = seg / self.seg_len[:, None]
+        tang = np.empty_like(self.points)
+        tang[0], tang[-1] = self.seg_dir[0], self.seg_dir[-1]
+        mid = self.seg_dir[:-1] + self.seg_dir[1:]
+        tang[1:-1] = mid / np.hypot(mid[:, 0], mid[:, 1])[:, None]
+        self.vertex_dir = tang
+        self.tree = cKDTree(self.points)
+
+    @classmethod
+    def from_headings(cls, anchor, forward, backward, length_fwd, length_back):
+        """Integrate headings [deg] away from ``anchor`` [m].
+
+        ``forward(s)`` is the heading at arc length s >= 0; ``backward(u)`` the
+        heading (in the curve's forward sense) at arc length -u, u >= 0.
+        """
+        ds = _VERTEX_KM * 1e3
+        sf = np.arange(0.0, length_fwd + ds / 2, ds)
+        sb = np.arange(0.0, length_back + ds / 2, ds)
+
+        def walk(s, heading, sign):
+            mid = 0.5 * (s[1:] + s[:-1])
+            b = np.radians(heading(mid))
+            step = sign * ds * np.column_stack([np.sin(b), np.cos(b)])
+            return np.vstack([[0.0, 0.0], np.cumsum(step, axis=0)])
+
+        fwd = walk(sf, forward, 1.0)
+        bwd = walk(sb, backward, -1.0)
+        pts = np.vstack([bwd[:0:-1], fwd]) + np.asarray(anchor, float)
+        s = np.concatenate([-sb[:0:-1], sf])
+        return cls(pts, s)
+
+    def locate(self, x, y):
+        """(signed distance [m], positive left; arc length of the foot point [m])."""
+        shape = np.shape(x)
+        q = np.column_stack([np.ravel(x), np.ravel(y)])
+        _, i = self.tree.query(q)
+        best_d = np.full(len(q), np.inf)
+        best_sign = np.zeros(len(q))
+        best_s = np.zeros(len(q))
+        n_seg = len(self.seg_len)
+        for k in (i - 1, i):  # the two segments meeting at the nearest vertex
+            k = np.clip(k, 0, n_seg - 1)
+            p0 = self.points[k]
+            dvec = self.seg_dir[k]
+            rel = q - p0
+            t = np.clip(np.einsum("ij,ij->i", rel, dvec), 0.0, self.seg_len[k])
+            foot = p0 + dvec * t[:, None]
+            off = q - foot
+            dist = np.hypot(off[:, 0], off[:, 1])
+            # at a segment end the side comes from the vertex's mean direction
+            tang = np.where(
+                (t <= 0.0)[:, None],
+                self.vertex_dir[k],
+                np.where((t >= self.seg_len[k])[:, None], self.vertex_dir[k + 1], dvec),
+            )
+            cross = tang[:, 0] * off[:, 1] - tang[:, 1] * off[:, 0]
+            better = dist < best_d
+            best_d = np.where(better, dist, best_d)
+            best_sign = np.where(better, np.sign(cross), best_sign)
+            best_s = np.where(better, self.s[k] + t, best_s)
+        return (best_sign * best_d).reshape(shape), best_s.reshape(shape)
+
+    def between(self, s0, s1, step_km=50.0):
+        """Points [m] of the curve from arc length s0 to s1 [m], every ``step_km``."""
+        s = np.arange(s0, s1 + 1.0, step_km * 1e3)
+        return np.column_stack([np.interp(s, self.s, self.points[:, k]) for k in (0, 1)]), s
+
+    def normal_left(self, s):
+        """Return the unit left normals at arc lengths ``s`` [m]."""
+        tx = np.interp(s, self.s[:-1] + 0.5 * self.seg_len, self.seg_dir[:, 0])
+        ty = np.interp(s, self.s[:-1] + 0.5 * self.seg_len, self.seg_dir[:, 1])
+        norm = np.hypot(tx, ty)
+        return np.column_stack([-ty / norm, tx / norm])
+
+
+@dataclass(frozen=True)
+class _Geometry:
+    """The frontal geometry at one scenario time (plane metres, degrees)."""
+
+    low: np.ndarray
+    triple: np.ndarray
+    occluded_m: float
+    warm: _Curve  # low-side ray, occluded front, triple point (s = 0), warm front
+    cold: _Curve  # back ray, triple point (s = 0), cold front
+    warm_end_m: float
+    cold_end_m: float
+
+
+# --------------------------------------------------------------------------
 # The scenario
 # --------------------------------------------------------------------------
 
@@ -229,33 +369,37 @@ def _unit(bearing_deg):
 class ScenarioSpec:
     """Parameters of the invented event (all values invented for the demo).
 
+    Angles are bearings on the conformal plane [deg clockwise from north];
+    scenario time ``tau`` runs from 0 at ``start`` to ``hours``.
+
     Attributes
     ----------
-    start : str
-        Start of the verifying window, ISO UTC (valid time of the first analysis).
-    hours : int
-        Length of the window [h]; ``step_h`` apart.
-    step_h : int
-        Time step of the files [h].
-    lat_range, lon_range : tuple of float
-        Grid extent [degrees]; ``resolution_deg`` spacing.
-    warm_ray_bearing_deg, cold_ray_bearing_deg : float
-        Direction in which each surface front runs out from the low centre [deg].
-    warm_speed_ms, cold_speed_ms : float
-        Prescribed front-normal speeds on the plane [m s-1], toward the cold side
-        (warm front) and toward the warm side (cold front).
-    apex0_km : tuple of float
+    low_start_km : tuple of float
         Plane position of the low centre at ``start`` [km].
+    low_velocity_start_ms, low_velocity_end_ms : tuple of float
+        (east, north) velocity of the low at the start and the end of the
+        window [m s-1], linear in time between (it slows and turns left as it
+        occludes).
+    occlusion_start_h, occlusion_rate_ms : float
+        When the triple point starts to move away from the low centre [h] and
+        how fast the occluded front lengthens [m s-1].
+    occlusion_bearing_deg : tuple of float
+        Bearing from the low centre to the triple point at the occlusion's
+        start and at the end of the window [deg].
+    warm_heading_deg, cold_heading_deg : tuple of float
+        Heading of each surface front where it leaves the triple point, at the
+        start and the end of the window [deg]: the warm sector narrows.
+    warm_turn_deg_per_1000km, cold_turn_deg_per_1000km : float
+        Curvature of the fronts: heading change per 1000 km along them [deg].
+    warm_length_km, cold_length_km : float
+        Distance from the triple point at which each front's contrast has
+        fallen to half (frontolysis beyond) [km].
     l_warm_km, l_cold_km : float
         Half-width L of the tanh zones, T = Tb + dT (1 + tanh(-d/L)) / 2 [km].
-    warm_slope_1_in, cold_slope_1_in : float
-        Frontal slopes [1 in N].
-    dt_warm_k : float
-        Warm-sector temperature excess below 5 km [K].
-    p_centre_hpa : tuple of float
-        Central pressure at the start and at the end of the window [hPa].
-    cone_hpa_per_100km : float
-        Radial pressure gradient of the conical low [hPa (100 km)-1].
+    warm_slope_1_in, cold_slope_1_in, occluded_slope_1_in : float
+        Frontal slopes [1 in N] (common practice values, no source).
+    p_centre_start_hpa, deepening_hpa, deepening_efold_h : float
+        Central pressure p(t) = p0 - D (1 - exp(-t/T)) / (1 - exp(-48/T)).
     """
 
     start: str = "2027-01-14T00:00:00Z"
@@ -264,16 +408,27 @@ class ScenarioSpec:
     lat_range: tuple = (39.0, 63.0)
     lon_range: tuple = (-33.0, 13.0)
     resolution_deg: float = 0.25
-    warm_ray_bearing_deg: float = 100.0
-    cold_ray_bearing_deg: float = 190.0
-    warm_speed_ms: float = 8.0
-    cold_speed_ms: float = 12.0
-    apex0_km: tuple = (-1500.0, -650.0)
+    low_start_km: tuple = (-1250.0, -520.0)
+    low_velocity_start_ms: tuple = (13.5, 5.0)
+    low_velocity_end_ms: tuple = (6.5, 7.0)
+    occlusion_start_h: float = 21.0
+    occlusion_rate_ms: float = 6.0
+    occlusion_bearing_deg: tuple = (125.0, 105.0)
+    warm_heading_deg: tuple = (98.0, 112.0)
+    cold_heading_deg: tuple = (205.0, 190.0)
+    warm_turn_deg_per_1000km: float = 14.0
+    cold_turn_deg_per_1000km: float = 16.0
+    warm_length_km: float = 1700.0
+    cold_length_km: float = 2100.0
+    fade_km: float = 150.0
     l_warm_km: float = 65.0
     l_cold_km: float = 50.0
     warm_slope_1_in: float = 150.0
     cold_slope_1_in: float = 50.0
+    occluded_slope_1_in: float = 100.0
     dt_warm_k: float = 7.0
+    trowal_k: float = 3.0
+    trowal_km: float = 90.0
     low_level_reduction: float = 0.2
     t_sfc_50n_k: float = 278.5
     t_sfc_gradient_k_per_deg: float = 0.35
@@ -283,24 +438,35 @@ class ScenarioSpec:
     tropopause_38n_m: float = 11500.0
     tropopause_drop_m_per_deg: float = 150.0
     fold_depth_m: float = 1500.0
-    fold_behind_km: float = 600.0
+    fold_behind_km: float = 550.0
     fold_width_km: float = 250.0
     fold_return_k_per_km: float = 7.0
     strat_cooling_k: float = 4.0
-    p_centre_hpa: tuple = (998.0, 974.0)
+    p_centre_start_hpa: float = 1000.0
+    deepening_hpa: float = 28.0
+    deepening_efold_h: float = 24.0
     p_cap_hpa: float = 1024.0
     cone_hpa_per_100km: float = 1.55
     core_km: float = 250.0
     east_rise_hpa_per_100km: float = 0.35
-    warm_trough_hpa: float = 1.0
-    warm_trough_km: float = 150.0
-    cold_trough_hpa: float = 1.5
-    cold_trough_km: float = 100.0
-    cold_pool_k: float = 8.0
-    cold_pool_radius_km: float = 350.0
-    cold_pool_depth_m: float = 700.0
+    trough_hpa: tuple = (1.5, 2.0, 2.0)  # warm, cold, occluded
+    trough_decay_km: float = 250.0
+    trough_kink_km: float = 10.0
+    cold_pool_k: float = 9.0
+    cold_pool_radius_km: float = 90.0
+    cold_pool_top_m: float = 650.0
     shield_ahead_nm: float = 250.0
     band_behind_nm: tuple = (50.0, 100.0)
+    plateau_m: float = 150.0
+    hills: tuple = (  # (lat, lon, height m, radius km): invented terrain on real land
+        (56.9, -4.6, 520.0, 110.0),
+        (52.6, -3.7, 330.0, 80.0),
+        (54.5, -2.8, 260.0, 60.0),
+        (45.4, 2.6, 650.0, 150.0),
+        (43.1, -5.2, 380.0, 130.0),
+        (61.3, 8.0, 900.0, 160.0),
+        (52.9, -8.9, 180.0, 70.0),
+    )
     runs: tuple = (
         ("2027-01-14T00Z", "2027-01-14T00:00:00Z", 1.5),
         ("2027-01-13T12Z", "2027-01-13T12:00:00Z", -2.0),
@@ -325,45 +491,123 @@ class Scenario:
         self.spec = spec or ScenarioSpec()
         s = self.spec
         self.proj = _Stereo()
-        self.a_w = _unit(s.warm_ray_bearing_deg)  # along the warm front, away from the low
-        self.a_c = _unit(s.cold_ray_bearing_deg)
-        # normals: warm front toward its cold side, cold front toward its warm side
-        self.n_w = _unit(s.warm_ray_bearing_deg - 90.0)
-        self.n_c = _unit(s.cold_ray_bearing_deg - 90.0)
-        mat = np.array([self.n_w, self.n_c])
-        self.apex_velocity = np.linalg.solve(mat, [s.warm_speed_ms, s.cold_speed_ms])  # [m s-1]
-        self.apex0 = np.array(s.apex0_km) * 1e3
         self.start = np.datetime64(s.start.rstrip("Z"), "s")
         lat = np.round(np.arange(s.lat_range[0], s.lat_range[1] + 1e-9, s.resolution_deg), 6)
         lon = np.round(np.arange(s.lon_range[0], s.lon_range[1] + 1e-9, s.resolution_deg), 6)
         self.lat, self.lon = lat, lon
         self.lon2, self.lat2 = np.meshgrid(lon, lat)
         self.x2, self.y2 = self.proj.forward(self.lon2, self.lat2)
-        self.h_levels = standard_atmosphere_height(np.array(LEVELS_HPA))
+        self.orog2 = self._orography_grid()
+        self._orog_interp = RegularGridInterpolator(
+            (lat, lon), self.orog2, bounds_error=False, fill_value=0.0
+        )
         site = {n: (la, lo) for n, la, lo, _ in SITES}[COLD_POOL_SITE]
         self.cold_pool_xy = np.array(self.proj.forward(site[1], site[0]))
+        self._geo = {}
+
+    # ---- land ----------------------------------------------------------
+    def _orography_grid(self):
+        """Invented terrain [m] on the grid, on the real land outline.
+
+        Land is where the Natural Earth 1:110 m land polygons (public domain,
+        bundled with the kit for its maps) cover a grid point, so the maps'
+        coastlines match the model's land; the heights are invented: a rise
+        inland to ``plateau_m`` and a few Gaussian hills (``hills``), going to
+        0 m at the coast.
+        """
+        s = self.spec
+        land = shapely.union_all(coast_geometries("land"))
+        mask = shapely.contains_xy(land, self.lon2, self.lat2).astype(float)
+        inland = gaussian_filter(mask, 2.0, mode="nearest")
+        coast = gaussian_filter(mask, 0.7, mode="nearest")
+        height = s.plateau_m * _smoothstep((inland - 0.5) / 0.5)
+        for hlat, hlon, hm, hr in s.hills:
+            r2 = ((self.lat2 - hlat) * 111.0) ** 2 + (
+                (self.lon2 - hlon) * 111.0 * np.cos(np.radians(hlat))
+            ) ** 2
+            height = height + hm * np.exp(-r2 / (2 * hr**2))
+        height = height * mask * _smoothstep(coast / 0.8)
+        return np.round(np.where(height < 1.0, 0.0, height), 1)
+
+    def orography(self, x, y):
+        """Height of the model surface [m] at plane points: the grid's, bilinearly."""
+        lon, lat = self.proj.inverse(np.ravel(x), np.ravel(y))
+        return self._orog_interp(np.column_stack([lat, lon])).reshape(np.shape(x))
 
     # ---- geometry -------------------------------------------------------
-    def apex(self, tau):
-        """Plane position of the low centre [m] at scenario time ``tau`` [s]."""
-        return self.apex0 + self.apex_velocity * tau
+    def _frac(self, tau):
+        return float(np.clip(tau / (self.spec.hours * 3600.0), 0.0, 1.0))
+
+    def low_centre(self, tau):
+        """Plane position of the low centre [m] (velocity linear in time)."""
+        s = self.spec
+        v0, v1 = np.array(s.low_velocity_start_ms), np.array(s.low_velocity_end_ms)
+        big_t = s.hours * 3600.0
+        return np.array(s.low_start_km) * 1e3 + v0 * tau + (v1 - v0) * tau**2 / (2 * big_t)
+
+    def occluded_length(self, tau):
+        """Length of the occluded front [m] (0 before the occlusion starts)."""
+        s = self.spec
+        return max(0.0, tau - s.occlusion_start_h * 3600.0) * s.occlusion_rate_ms
+
+    def geometry(self, tau):
+        """Return the :class:`_Geometry` at scenario time ``tau`` [s] (cached)."""
+        key = round(float(tau), 3)
+        if key in self._geo:
+            return self._geo[key]
+        s = self.spec
+        f = self._frac(tau)
+        low = self.low_centre(tau)
+        ell = self.occluded_length(tau)
+        frac_o = np.clip(
+            (tau - s.occlusion_start_h * 3600) / ((s.hours - s.occlusion_start_h) * 3600), 0, 1
+        )
+        b_occ = s.occlusion_bearing_deg[0] + frac_o * (
+            s.occlusion_bearing_deg[1] - s.occlusion_bearing_deg[0]
+        )
+        triple = low + ell * _unit(b_occ)
+        hw0 = s.warm_heading_deg[0] + f * (s.warm_heading_deg[1] - s.warm_heading_deg[0])
+        hc0 = s.cold_heading_deg[0] + f * (s.cold_heading_deg[1] - s.cold_heading_deg[0])
+        g = float(_smoothstep(ell / 250e3))
+        kw = s.warm_turn_deg_per_1000km / 1e6
+        kc = s.cold_turn_deg_per_1000km / 1e6
+        wend, cend = s.warm_length_km * 1e3, s.cold_length_km * 1e3
+        bend = _angle_diff(b_occ, hw0)
+
+        def warm_fwd(sv):
+            line = hw0 + kw * np.clip(sv, 0.0, wend + 400e3)
+            return line + g * bend * (1.0 - _smoothstep(sv / 300e3))
+
+        beyond = hw0 + g * bend  # the ray beyond the low, on from the occluded front
+
+        def warm_back(u):
+            return np.where(u <= ell, b_occ if ell > 0 else hw0, beyond)
+
+        def cold_fwd(sv):
+            return hc0 + kc * np.clip(sv, 0.0, cend + 400e3)
+
+        warm = _Curve.from_headings(triple, warm_fwd, warm_back, 6000e3, 4000e3)
+        cold = _Curve.from_headings(triple, cold_fwd, lambda u: hc0 + 0 * u, 6000e3, 4000e3)
+        geo = _Geometry(low, triple, ell, warm, cold, wend, cend)
+        self._geo[key] = geo
+        return geo
 
     def distances(self, x, y, tau):
         """Signed distances from the surface fronts [m], positive toward the cold side.
 
         Returns
         -------
-        d_w, d_c, along_w, along_c : ndarray
-            Distance from the warm and the cold front lines (positive on the cold
-            side of each), and distance along each ray from the low centre [m].
+        d_w, d_c, s_w, s_c : ndarray
+            Distance from the warm-front curve (which runs on from the triple
+            point back along the occluded front to the low) and from the
+            cold-front curve, positive on the cold side of each, and the arc
+            length of the foot point from the triple point [m] (negative on
+            the occluded front for ``s_w``).
         """
-        ax, ay = self.apex(tau)
-        rx, ry = x - ax, y - ay
-        d_w = rx * self.n_w[0] + ry * self.n_w[1]
-        d_c = -(rx * self.n_c[0] + ry * self.n_c[1])
-        along_w = rx * self.a_w[0] + ry * self.a_w[1]
-        along_c = rx * self.a_c[0] + ry * self.a_c[1]
-        return d_w, d_c, along_w, along_c
+        geo = self.geometry(tau)
+        d_w, s_w = geo.warm.locate(x, y)  # cold side of the warm front: left
+        d_c, s_c = geo.cold.locate(x, y)  # cold side of the cold front: right
+        return d_w, -d_c, s_w, s_c
 
     def warm_sector(self, d_w, d_c, h):
         """Warm-sector weight 0..1 at height ``h`` [m] (product of two tanh zones)."""
@@ -372,16 +616,29 @@ class Scenario:
         dc = d_c - s.cold_slope_1_in * h
         return _s(-dw / (s.l_warm_km * 1e3)) * _s(-dc / (s.l_cold_km * 1e3))
 
+    def fades(self, s_w, s_c):
+        """Weights 0..1 of each front's frontolysis beyond its length (1 = zone spread out)."""
+        s = self.spec
+        fk = s.fade_km * 1e3
+        return _s((s_w - s.warm_length_km * 1e3) / fk), _s((s_c - s.cold_length_km * 1e3) / fk)
+
+    def occluded_weight(self, s_w, tau):
+        """Weight 0..1 of the occluded stretch (between the low and the triple point)."""
+        ell = self.occluded_length(tau)
+        if ell <= 0:
+            return np.zeros_like(s_w)
+        return _s((s_w + ell - 60e3) / 50e3) * _s((60e3 - s_w) / 60e3) * min(1.0, ell / 150e3)
+
     # ---- temperature ----------------------------------------------------
     def tropopause(self, lat):
         """Background tropopause height [m]: lower on the cold (poleward) side."""
         s = self.spec
         return s.tropopause_38n_m - s.tropopause_drop_m_per_deg * (lat - 38.0)
 
-    def fold_depth(self, d_w, d_c, along_c):
+    def fold_depth(self, d_w, d_c, s_c):
         """Depth [m] by which the tropopause folds down behind the cold front aloft."""
         s = self.spec
-        near = _s((1500e3 - np.abs(along_c)) / 300e3) * _s((300e3 - d_w) / 150e3)
+        near = _s((1300e3 - np.abs(s_c - 300e3)) / 300e3) * _s((300e3 - d_w) / 150e3)
         return (
             s.fold_depth_m
             * near
@@ -400,9 +657,9 @@ class Scenario:
         )
 
     def temperature(self, x, y, lat, h, tau):
-        """Air temperature [K] at height ``h`` [m] (scalar or broadcastable)."""
+        """Air temperature [K] at height ``h`` [m] above sea level (broadcastable)."""
         s = self.spec
-        d_w, d_c, along_w, along_c = self.distances(x, y, tau)
+        d_w, d_c, s_w, s_c = self.distances(x, y, tau)
         t_sfc = self.surface_background(lat)
         htr = self.tropopause(lat)
         soft = 250.0
@@ -416,40 +673,49 @@ class Scenario:
         # tropopause; above it the column returns to the background at a stable
         # lapse rate (fold_return_k_per_km < dry adiabatic), so potential
         # temperature rises with height everywhere
-        fold = self.fold_depth(d_w, d_c, along_c)
+        fold = self.fold_depth(d_w, d_c, s_c)
         excess = lapse * (softmin(h, htr) - softmin(h, htr - fold))
         above = s.fold_return_k_per_km * 1e-3 * soft * np.logaddexp(0.0, (h - htr) / soft)
         t = t + np.maximum(excess - above, 0.0)
-        w = self.warm_sector(d_w, d_c, h)
         # the warm sector's excess fades toward the tropopause and reverses above it
         # (and is a little smaller in the lowest kilometre, over the cooler sea)
         amp = s.dt_warm_k * (1.0 - s.low_level_reduction * _s((800.0 - h) / 300.0)) * _s(
             (7000.0 - h) / 1500.0
         ) - s.strat_cooling_k * _s((h - 9500.0) / 800.0)
-        t = t + amp * w
+        fw, fc = self.fades(s_w, s_c)
+        # frontolysis: beyond each front's length its zone widens sixteenfold, so
+        # the contrast is spread over a broad baroclinic zone with no front in it
+        ww = _s(-(d_w - s.warm_slope_1_in * h) / (s.l_warm_km * 1e3 * (1 + 15 * fw)))
+        wc = _s(-(d_c - s.cold_slope_1_in * h) / (s.l_cold_km * 1e3 * (1 + 15 * fc)))
+        t = t + amp * ww * wc
+        # the warm air lifted over the occluded front: a warm tongue (trowal),
+        # leaning 1 in occluded_slope_1_in toward the cold side of the warm
+        # front, strongest near 1.5 km, weak at the ground
+        occ = self.occluded_weight(s_w, tau)
+        lean = d_w - s.occluded_slope_1_in * h
+        tongue = np.exp(-((lean / (s.trowal_km * 1e3)) ** 2))
+        vert = (0.45 + 0.55 * _s((h - 700.0) / 400.0)) * _s((6500.0 - h) / 1200.0)
+        t = t + s.trowal_k * occ * tongue * vert
         # shallow cold pool ahead of the warm front (scoured out in the warm sector)
         r2 = (x - self.cold_pool_xy[0]) ** 2 + (y - self.cold_pool_xy[1]) ** 2
         pool = np.exp(-r2 / (2 * (s.cold_pool_radius_km * 1e3) ** 2))
-        # cold side of the warm front only, with the warm front's own zone
-        # shape, so the zone stays an exact tanh profile (a larger contrast)
-        ahead = _s((d_w - s.warm_slope_1_in * h) / (s.l_warm_km * 1e3)) * _s(
-            -(d_c - s.cold_slope_1_in * h) / (s.l_cold_km * 1e3)
-        )
-        t = t - s.cold_pool_k * pool * _s((s.cold_pool_depth_m - h) / 150.0) * ahead
+        ahead = (1 - ww) * wc
+        t = t - s.cold_pool_k * pool * _s((s.cold_pool_top_m - h) / 150.0) * ahead
         return t
 
     # ---- pressure -------------------------------------------------------
     def central_pressure(self, tau):
-        """Central pressure of the low [Pa] (linear deepening over the window)."""
+        """Central pressure of the low's cone [Pa] (deepening that slows as it occludes)."""
         s = self.spec
-        frac = tau / (s.hours * 3600.0)
-        return 100.0 * (s.p_centre_hpa[0] + (s.p_centre_hpa[1] - s.p_centre_hpa[0]) * frac)
+        big = s.deepening_efold_h * 3600.0
+        norm = 1.0 - math.exp(-s.hours * 3600.0 / big)
+        return 100.0 * (s.p_centre_start_hpa - s.deepening_hpa * (1 - np.exp(-tau / big)) / norm)
 
     def mslp(self, x, y, tau):
-        """Mean-sea-level pressure [Pa]."""
+        """Mean-sea-level pressure [Pa]: a low with troughs kinked at the fronts."""
         s = self.spec
-        ax, ay = self.apex(tau)
-        r = np.hypot(x - ax, y - ay)
+        low = self.low_centre(tau)
+        r = np.hypot(x - low[0], y - low[1])
         r0 = s.core_km * 1e3
         raw = self.central_pressure(tau) + s.cone_hpa_per_100km * 1e-3 * (
             np.sqrt(r**2 + r0**2) - r0
@@ -457,43 +723,48 @@ class Scenario:
         cap = s.p_cap_hpa * 100.0
         scale = 400.0
         p = cap - scale * np.logaddexp(0.0, (cap - raw) / scale)
-        d_w, d_c, along_w, along_c = self.distances(x, y, tau)
-        tw = (
-            s.warm_trough_hpa
-            * 100
-            * np.exp(-((d_w / (s.warm_trough_km * 1e3)) ** 2))
-            * _s(along_w / 100e3)
-        )
-        tc = (
-            s.cold_trough_hpa
-            * 100
-            * np.exp(-((d_c / (s.cold_trough_km * 1e3)) ** 2))
-            * _s(along_c / 100e3)
-        )
+        d_w, d_c, s_w, s_c = self.distances(x, y, tau)
+        fw, fc = self.fades(s_w, s_c)
+        lam, eps = s.trough_decay_km * 1e3, s.trough_kink_km * 1e3
+
+        def vee(d):  # a trough with a kink (a rounded V) on the front
+            return np.exp(-np.sqrt(d**2 + eps**2) / lam)
+
+        occ = self.occluded_weight(s_w, tau)
+        on_warm = _s(s_w / 60e3) * (1 - fw)
+        on_cold = _s(s_c / 60e3) * (1 - fc) * _s((200e3 - d_w) / 100e3)
+        aw, ac, ao = (100.0 * a for a in s.trough_hpa)
+        p = p - aw * on_warm * vee(d_w) - ac * on_cold * vee(d_c) - ao * occ * vee(d_w)
         # a high over the east of the domain: a weak southerly geostrophic background
-        return p - tw - tc + s.east_rise_hpa_per_100km * 1e-3 * x
+        return p + s.east_rise_hpa_per_100km * 1e-3 * x
 
     # ---- precipitation and humidity ------------------------------------
     def precip_rate(self, x, y, tau):
         """Surface precipitation rate [mm h-1]."""
         s = self.spec
-        d_w, d_c, along_w, along_c = self.distances(x, y, tau)
+        d_w, d_c, s_w, s_c = self.distances(x, y, tau)
+        fw, fc = self.fades(s_w, s_c)
         lead = s.shield_ahead_nm * NM
-        ahead = _s((-d_c) / 60e3)  # east of (ahead of) the cold front
+        ahead = _s((-d_c) / 60e3)  # ahead of the cold front
         ramp = 1.0 + 2.0 * np.clip(1 - d_w / lead, 0, 1)  # 1 mm/h at the edge, 3 at the front
-        shield = ramp * _s(d_w / 15e3) * _s((lead - d_w) / 20e3) * ahead
-        shield *= _s((2200e3 - along_w) / 200e3)
+        shield = ramp * _s(d_w / 15e3) * _s((lead - d_w) / 20e3) * ahead * _s(s_w / 80e3)
+        shield *= 1 - fw
         lo, hi = (v * NM for v in s.band_behind_nm)
         mid, half = 0.5 * (lo + hi), 0.5 * (hi - lo)
         band = 6.0 * np.exp(-(((d_c - mid) / (0.85 * half)) ** 2)) * _s((80e3 - d_w) / 60e3)
-        band *= _s((2200e3 - along_c) / 200e3)
+        band *= (1 - fc) * _s(s_c / 60e3)
+        # the occlusion: steady rain from the warm tongue aloft, wrapping round the
+        # low on the cold side of the occluded front
+        occ = self.occluded_weight(s_w, tau)
+        wrap = 2.5 * occ * _s((d_w + 40e3) / 20e3) * _s((220e3 - d_w) / 40e3)
         warm = 0.2 * self.warm_sector(d_w, d_c, 0.0)
-        return shield + band + warm
+        return shield + band + wrap + warm
 
     def relative_humidity(self, x, y, h, tau, rate=None):
         """Relative humidity [%] at height ``h`` [m]."""
         s = self.spec
-        d_w, d_c, along_w, along_c = self.distances(x, y, tau)
+        d_w, d_c, s_w, s_c = self.distances(x, y, tau)
+        fw, fc = self.fades(s_w, s_c)
         hkm = h / 1000.0
         rh = np.clip(80.0 - 7.0 * hkm, 20.0, 80.0) + 0 * d_w
 
@@ -503,7 +774,7 @@ class Scenario:
         w = self.warm_sector(d_w, d_c, h)
         rh = blend(rh, 92.0, w * _s((2500.0 - h) / 500.0))
         lead = 300 * NM
-        ahead = _s(-d_c / 60e3)
+        ahead = _s(-d_c / 60e3) * _s(s_w / 80e3) * (1 - fw)
         wedge = (
             _s(d_w / 40e3)
             * _s((lead - d_w) / 60e3)
@@ -522,8 +793,19 @@ class Scenario:
             * _s((s.cold_slope_1_in * h + 200e3 - d_c) / 150e3)
             * _s((6500.0 - h) / 600.0)
             * _s((150e3 - d_w) / 80e3)
+            * (1 - fc)
+            * _s(s_c / 60e3)
         )
         rh = blend(rh, 97.0, band)
+        # the occlusion's cloud: deep over the warm tongue and on its cold side
+        occ = self.occluded_weight(s_w, tau)
+        head = (
+            occ
+            * _s((d_w - s.occluded_slope_1_in * h + 60e3) / 30e3)
+            * _s((260e3 - d_w) / 60e3)
+            * _s((7000.0 - h) / 700.0)
+        )
+        rh = blend(rh, 97.0, head)
         dry = (
             _s((d_c - s.cold_slope_1_in * h - 150e3) / 50e3)
             * _s((h - 2000.0) / 500.0)
@@ -535,6 +817,19 @@ class Scenario:
         return np.clip(rh, 5.0, 100.0)
 
     # ---- gridded fields ------------------------------------------------
+    def level_fields(self, tau):
+        """Temperature [K] and height [m] on the levels, consistent with each other.
+
+        The temperature of a level is taken at the level's own height, and
+        the heights follow from the temperatures (hypsometric), so the pair is
+        solved by fixed-point iteration from the standard-atmosphere heights
+        until the heights change by less than ``HEIGHT_TOLERANCE_M`` (the last
+        change is kept in ``self.height_residual_m``).
+        """
+        x, y, lat = self.x2, self.y2, self.lat2
+        t, z, msl, t_sea, self.height_residual_m = _solve_levels(self, x, y, lat, tau)
+        return t, z, msl, t_sea
+
     def fields(self, tau):
         """Every written field on the grid at scenario time ``tau`` [s] (no precip amount).
 
@@ -546,15 +841,12 @@ class Scenario:
             ``v10`` [m s-1], ``rate`` [mm h-1] (lat, lon).
         """
         x, y, lat = self.x2, self.y2, self.lat2
-        h = self.h_levels[:, None, None]
-        t = self.temperature(x, y, lat, h, tau)
+        t, z, msl, t_sea = self.level_fields(tau)
         rate = self.precip_rate(x, y, tau)
-        rh = self.relative_humidity(x, y, h, tau, rate=rate)
-        t_sea = self.temperature(x, y, lat, 0.0, tau)
-        t2m = self.temperature(x, y, lat, 2.0, tau)
-        rh2m = self.relative_humidity(x, y, 2.0, tau, rate=rate)
-        msl = self.mslp(x, y, tau)
-        z = hypsometric_heights(msl, t_sea, t, np.array(LEVELS_HPA))
+        rh = self.relative_humidity(x, y, z, tau, rate=rate)
+        h2 = self.orog2 + 2.0
+        t2m = self.temperature(x, y, lat, h2, tau)
+        rh2m = self.relative_humidity(x, y, h2, tau, rate=rate)
         u, v = geostrophic_from_height(z, self.lat, self.lon)
         us, vs = geostrophic_from_pressure(msl, msl / (RD * t_sea), self.lat, self.lon)
         ang = math.radians(20.0)  # back by 20 deg (counter-clockwise rotation)
@@ -574,69 +866,21 @@ class Scenario:
             "rate": rate,
         }
 
-    def accumulated_precip(self, tau0, tau1, sub_min=10):
-        """Precipitation amount between scenario times tau0 and tau1 [kg m-2] (Simpson)."""
-        if tau1 <= tau0:
-            return np.zeros_like(self.x2)
-        n = int(round((tau1 - tau0) / (sub_min * 60.0)))
-        n += n % 2
-        taus = np.linspace(tau0, tau1, n + 1)
-        weights = np.ones(n + 1)
-        weights[1:-1:2] = 4.0
-        weights[2:-1:2] = 2.0
+    def accumulations(self, tau_ref, taus, sub_min=10):
+        """Return the precipitation amounts since ``tau_ref`` at ``taus`` [kg m-2] (trapezoid)."""
+        out = {}
         total = np.zeros_like(self.x2)
-        for wgt, tau in zip(weights, taus, strict=True):
-            total += wgt * self.precip_rate(self.x2, self.y2, tau)
-        return total * (taus[1] - taus[0]) / 3.0 / 3600.0
-
-    # ---- truth ---------------------------------------------------------
-    def front_line(self, kind, tau, h=0.0, shift_warm_km=0.0, length_km=2200.0, step_km=50.0):
-        """(lon, lat) of a front line [deg] at height ``h`` [m].
-
-        The line is the tanh-zone centre at that height, starting where the
-        two leaning zone centres meet; ``shift_warm_km`` moves it toward the
-        warm side (0.658 L for the objective locating line).
-        """
-        s = self.spec
-        ax, ay = self.apex(tau)
-        ow = s.warm_slope_1_in * h  # warm-front zone centre lies d_w = ow
-        oc = s.cold_slope_1_in * h  # cold-front zone centre lies d_c = oc
-        # apex at height h: d_w = ow and d_c = oc  ->  r.n_w = ow, r.n_c = -oc
-        r = np.linalg.solve(np.array([self.n_w, self.n_c]), [ow, -oc])
-        base = np.array([ax, ay]) + r
-        dist = np.arange(0.0, length_km * 1e3 + 1, step_km * 1e3)
-        if kind == "warm":
-            pts = base[:, None] + self.a_w[:, None] * dist - self.n_w[:, None] * shift_warm_km * 1e3
-        else:
-            pts = base[:, None] + self.a_c[:, None] * dist + self.n_c[:, None] * shift_warm_km * 1e3
-        lon, lat = self.proj.inverse(pts[0], pts[1])
-        inside = (
-            (lat >= s.lat_range[0])
-            & (lat <= s.lat_range[1])
-            & (lon >= s.lon_range[0])
-            & (lon <= s.lon_range[1])
-        )
-        return lon[inside], lat[inside]
-
-    def passage_tau(self, lon, lat):
-        """Scenario times [s] of the surface warm and cold front at a point."""
-        x, y = self.proj.forward(lon, lat)
-        r = np.array([x, y]) - self.apex0
-        return float(r @ self.n_w / self.spec.warm_speed_ms), float(
-            r @ self.n_c / self.spec.cold_speed_ms
-        )
-
-    def earth_speed(self, kind, tau, along_km=600.0):
-        """Front-normal speed on the earth [m s-1] at ``along_km`` from the low centre."""
-        s = self.spec
-        a, n, spd = (
-            (self.a_w, self.n_w, s.warm_speed_ms)
-            if kind == "warm"
-            else (self.a_c, self.n_c, s.cold_speed_ms)
-        )
-        p = self.apex(tau) + a * along_km * 1e3
-        lon, lat = self.proj.inverse(p[0], p[1])
-        return float(spd / self.proj.scale(lon, lat))
+        dt = sub_min * 60.0
+        tau = tau_ref
+        prev = self.precip_rate(self.x2, self.y2, tau)
+        for target in sorted(taus):
+            while tau < target - 1e-6:
+                step = min(dt, target - tau)
+                nxt = self.precip_rate(self.x2, self.y2, tau + step)
+                total = total + 0.5 * (prev + nxt) * step / 3600.0
+                tau, prev = tau + step, nxt
+            out[target] = total.copy()
+        return out
 
 
 # --------------------------------------------------------------------------
@@ -649,18 +893,18 @@ def hypsometric_heights(msl_pa, t_sea_k, t_levels_k, levels_hpa):
 
     Parameters
     ----------
-    msl_pa : ndarray (Y, X)
+    msl_pa : ndarray (...)
         Mean-sea-level pressure [Pa] (height 0 m).
-    t_sea_k : ndarray (Y, X)
+    t_sea_k : ndarray (...)
         Air temperature at sea level [K].
-    t_levels_k : ndarray (level, Y, X)
+    t_levels_k : ndarray (level, ...)
         Air temperature on the levels [K], 1000 hPa first.
     levels_hpa : ndarray (level,)
         Pressure levels [hPa], decreasing.
 
     Returns
     -------
-    ndarray (level, Y, X)
+    ndarray (level, ...)
         Geopotential height [m].
 
     Notes
@@ -669,7 +913,8 @@ def hypsometric_heights(msl_pa, t_sea_k, t_levels_k, levels_hpa):
     of a profile linear in ln p (Wallace & Hobbs 2006, Eq. 3.29; number from
     memory): :math:`z_2 - z_1 = (R_d / g_0) (T_1 + T_2)/2 \\ln(p_1/p_2)`.
     """
-    p = np.asarray(levels_hpa, float)[:, None, None] * 100.0
+    t_levels_k = np.asarray(t_levels_k, float)
+    p = np.asarray(levels_hpa, float).reshape((-1,) + (1,) * (t_levels_k.ndim - 1)) * 100.0
     z = np.empty_like(t_levels_k)
     z[0] = RD / G0 * 0.5 * (t_sea_k + t_levels_k[0]) * np.log(msl_pa / p[0])
     for k in range(1, len(p)):
@@ -756,6 +1001,13 @@ _VARS = {
         "10 m northward wind",
         "m s-1",
         {"height": "10 m", "coordinates": "height_10m"},
+    ),
+    "orog": (
+        "static",
+        "surface_altitude",
+        "height of the model surface above mean sea level",
+        "m",
+        {},
     ),
     "precip": (
         "2d",
@@ -850,9 +1102,13 @@ def _write_file(path, scen, fields, accum, valid, reference, label, kind):
             hv = nc.createVariable(hname, "f8", ())
             hv.setncatts({"standard_name": "height", "units": "m", "positive": "up", "axis": "Z"})
             hv.assignValue(hval)
-        values = dict(fields, precip=accum)
+        values = dict(fields, precip=accum, orog=scen.orog2)
         for name, (kind_dims, std, long, unit, extra) in _VARS.items():
-            dims = ("time", "level", "lat", "lon") if kind_dims == "3d" else ("time", "lat", "lon")
+            dims = {
+                "3d": ("time", "level", "lat", "lon"),
+                "2d": ("time", "lat", "lon"),
+                "static": ("lat", "lon"),
+            }[kind_dims]
             chunks = (
                 (1, len(LEVELS_HPA), len(scen.lat), len(scen.lon)) if kind_dims == "3d" else None
             )
@@ -872,13 +1128,13 @@ def _write_file(path, scen, fields, accum, valid, reference, label, kind):
                     "standard_name": std,
                     "long_name": long,
                     "units": unit,
-                    "scale_factor": np.float32(scale) if False else scale,
+                    "scale_factor": scale,
                     "add_offset": offset,
                     **extra,
                 }
             )
             var.set_auto_maskandscale(False)
-            var[:] = packed[None]
+            var[:] = packed if kind_dims == "static" else packed[None]
     tmp.replace(path)
 
 
@@ -924,16 +1180,19 @@ def write_steps(out, steps=None, spec=None):
     written = []
     for folder, label, reference, offset, kind in _sets(s):
         set_name = "analyses" if folder == "analyses" else label
-        for hour in range(0, s.hours + 1, s.step_h):
-            if wanted is not None and (set_name, hour) not in wanted:
-                continue
+        hours = [
+            h for h in range(0, s.hours + 1, s.step_h) if wanted is None or (set_name, h) in wanted
+        ]
+        if not hours:
+            continue
+        tau_ref = (reference - scen.start) / np.timedelta64(1, "s") + offset * 3600.0
+        taus = {h: h * 3600.0 + offset * 3600.0 for h in hours}
+        amounts = scen.accumulations(tau_ref, list(taus.values()))
+        for hour in hours:
             valid = scen.start + np.timedelta64(hour, "h")
-            tau = hour * 3600.0 + offset * 3600.0
-            tau_ref = (reference - scen.start) / np.timedelta64(1, "s") + offset * 3600.0
-            fields = scen.fields(tau)
-            accum = scen.accumulated_precip(tau_ref, tau)
+            fields = scen.fields(taus[hour])
             path = out / folder / _file_name(folder, valid, reference)
-            _write_file(path, scen, fields, accum, valid, reference, label, kind)
+            _write_file(path, scen, fields, amounts[taus[hour]], valid, reference, label, kind)
             written.append(path)
     return written
 
@@ -950,12 +1209,44 @@ def _write_sites(out):
     (out / "sites.csv").write_text("\n".join(lines) + "\n")
 
 
+#: the level heights are solved until they change by less than this [m]
+HEIGHT_TOLERANCE_M = 0.02
+
+
+def _solve_levels(scen, x, y, lat, tau, max_iterations=30):
+    """(t, z, msl, t_sea, last change [m]) on the levels at points (see Scenario.level_fields)."""
+    levels = np.array(LEVELS_HPA)
+    msl = scen.mslp(x, y, tau)
+    t_sea = scen.temperature(x, y, lat, 0.0, tau)
+    shape = (len(levels),) + np.shape(x)
+    z = np.broadcast_to(
+        standard_atmosphere_height(levels).reshape((-1,) + (1,) * np.ndim(x)), shape
+    )
+    change = np.inf
+    for _ in range(max_iterations):
+        t = scen.temperature(x, y, lat, z, tau)
+        z_new = hypsometric_heights(msl, t_sea, t, levels)
+        change = float(np.max(np.abs(z_new - z)))
+        z = z_new
+        if change < HEIGHT_TOLERANCE_M:
+            break
+    t = scen.temperature(x, y, lat, z, tau)
+    return t, hypsometric_heights(msl, t_sea, t, levels), msl, t_sea, change
+
+
+def _point_levels(scen, x, y, lat, tau):
+    """Level temperatures and heights at points, solved as in :meth:`Scenario.level_fields`."""
+    x, y, lat = (np.atleast_1d(np.asarray(v, float)) for v in (x, y, lat))
+    t, z, *_ = _solve_levels(scen, x, y, lat, tau)
+    return t, z
+
+
 def _point_fields(scen, lon, lat, elevation, tau):
-    """Surface values at one point from the analytic fields."""
+    """Surface values at one point from the analytic fields (the site at its elevation)."""
     x, y = scen.proj.forward(lon, lat)
-    t2 = scen.temperature(x, y, lat, 2.0, tau) - 0.0065 * elevation
+    t2 = scen.temperature(x, y, lat, elevation + 2.0, tau)
     rate = scen.precip_rate(x, y, tau)
-    rh = scen.relative_humidity(x, y, 2.0, tau, rate=rate)
+    rh = scen.relative_humidity(x, y, elevation + 2.0, tau, rate=rate)
     p = scen.mslp(x, y, tau)
     # geostrophic wind by centred differences over +-0.05 deg
     dl = 0.05
@@ -1025,18 +1316,331 @@ def _write_stations(scen, out):
         (folder / f"{name}.csv").write_text("\n".join(text) + "\n")
 
 
+# ---- the truth: where the written fields put the fronts ------------------
+
+#: distances from the triple point at which the truth gives front-normal speeds [km]
+ALONG_KM = (300.0, 600.0, 900.0, 1200.0, 1500.0, 1800.0)
+
+#: kinds of front line in the truth, with the stretch of curve each is on
+TRUTH_KINDS = ("warm", "cold", "occluded")
+
+
+def _stretch(scen, kind, tau):
+    """(curve, s0, s1 [m], slope 1 in N, cold-side sign) of one kind of front at ``tau``."""
+    geo = scen.geometry(tau)
+    s = scen.spec
+    if kind == "warm":
+        return geo.warm, 0.0, geo.warm_end_m, s.warm_slope_1_in, 1.0
+    if kind == "cold":
+        return geo.cold, 0.0, geo.cold_end_m, s.cold_slope_1_in, -1.0
+    return geo.warm, -geo.occluded_m, 0.0, s.occluded_slope_1_in, 1.0
+
+
+def _level_sampler(scen, z_level):
+    """Bilinear sampler of a written level-height field at plane points."""
+    interp = RegularGridInterpolator((scen.lat, scen.lon), z_level, bounds_error=False)
+
+    def height(x, y):
+        lon, lat = scen.proj.inverse(x, y)
+        return interp(np.column_stack([lat, lon]))
+
+    return height
+
+
+def front_line(scen, kind, tau, height=None, shift_warm_km=0.0, step_km=50.0):
+    """(lon, lat) [deg] of a front line: the zone centre at a surface of given height.
+
+    Parameters
+    ----------
+    kind : {"warm", "cold", "occluded"}
+    height : callable (x, y) -> height [m], optional
+        The surface the line lies on: a written level's height field
+        (:func:`_level_sampler`); default the 2-m surface over the orography.
+        The zone centre lies ``slope * height`` toward the cold side of the
+        surface-front curve, solved along the curve's normal (three fixed-point
+        steps, each moving it less than a metre after the first two).
+    shift_warm_km : float
+        Move the line toward the warm side (0.658 L for the objective locating line).
+
+    Returns
+    -------
+    lon, lat : ndarray
+        Points every ``step_km`` along the front, inside the domain; empty
+        where the front does not exist (an occlusion not yet formed).
+    """
+    curve, s0, s1, slope, side = _stretch(scen, kind, tau)
+    if s1 - s0 < step_km * 1e3:
+        return np.array([]), np.array([])
+    pts, sv = curve.between(s0, s1, step_km)
+    normal = side * curve.normal_left(sv)  # toward the cold side
+    if height is None:
+
+        def height(x, y):
+            return scen.orography(x, y) + 2.0
+
+    offset = np.zeros(len(sv))
+    for _ in range(3):
+        q = pts + normal * offset[:, None]
+        offset = slope * np.asarray(height(q[:, 0], q[:, 1]), float)
+    q = pts + normal * (offset - shift_warm_km * 1e3)[:, None]
+    lon, lat = scen.proj.inverse(q[:, 0], q[:, 1])
+    sp = scen.spec
+    inside = (
+        (lat >= sp.lat_range[0])
+        & (lat <= sp.lat_range[1])
+        & (lon >= sp.lon_range[0])
+        & (lon <= sp.lon_range[1])
+        & np.isfinite(lon)
+    )
+    return lon[inside], lat[inside]
+
+
+def earth_speed(scen, kind, tau, along_km=600.0, dt=600.0):
+    """Front-normal speed on the earth [m s-1] at ``along_km`` from the triple point.
+
+    Measured from the geometry: the change of the signed distance of a fixed
+    point over +-``dt`` [s], divided by the map scale factor.
+    """
+    curve, _, _, _, _ = _stretch(scen, kind, tau)
+    p = curve.between(along_km * 1e3, along_km * 1e3)[0][0]
+    before = scen.distances(p[0:1], p[1:2], tau - dt)
+    after = scen.distances(p[0:1], p[1:2], tau + dt)
+    k = 0 if kind == "warm" else 1
+    rate = float((after[k][0] - before[k][0]) / (2 * dt))
+    speed = -rate if kind == "warm" else rate  # toward the cold / the warm side
+    lon, lat = scen.proj.inverse(p[0], p[1])
+    return speed / float(scen.proj.scale(lon, lat))
+
+
+def passages(scen, lon, lat, elevation, offset_h, step_min=5):
+    """Return the valid times [s since start] the 2-m zone centre of each front crosses a site.
+
+    The site is on its own elevation (the written 2-m surface there); a
+    crossing counts where the site lies on that stretch of front (the warm
+    sector's side of the other front, inside the front's length). Searched
+    from 6 h before to 6 h after the window, on ``step_min`` steps, refined
+    linearly.
+    """
+    sp = scen.spec
+    x, y = scen.proj.forward(lon, lat)
+    h = elevation + 2.0
+    valid = np.arange(-6 * 3600.0, (sp.hours + 6) * 3600.0 + 1, step_min * 60.0)
+    rows = []
+    for v in valid:
+        d_w, d_c, s_w, s_c = (
+            float(a[0]) for a in scen.distances(np.array([x]), np.array([y]), v + offset_h * 3600)
+        )
+        rows.append((d_w, d_c, s_w, s_c, scen.occluded_length(v + offset_h * 3600)))
+    arr = np.array(rows)
+    out = {}
+    slopes = {
+        "warm": sp.warm_slope_1_in,
+        "cold": sp.cold_slope_1_in,
+        "occluded": sp.occluded_slope_1_in,
+    }
+    for kind in TRUTH_KINDS:
+        col = 1 if kind == "cold" else 0
+        g = arr[:, col] - slopes[kind] * h
+        found = None
+        for i in np.nonzero(np.sign(g[:-1]) != np.sign(g[1:]))[0]:
+            frac = g[i] / (g[i] - g[i + 1])
+            here = arr[i] + frac * (arr[i + 1] - arr[i])
+            d_w, d_c, s_w, s_c, ell = here
+            if kind == "warm":
+                ok = (
+                    0.0 <= s_w <= sp.warm_length_km * 1e3
+                    and d_c - sp.cold_slope_1_in * h < -sp.l_cold_km * 1e3
+                )
+            elif kind == "cold":
+                ok = (
+                    0.0 <= s_c <= sp.cold_length_km * 1e3
+                    and d_w - sp.warm_slope_1_in * h < -sp.l_warm_km * 1e3
+                )
+            else:
+                ok = ell >= 150e3 and -ell + 60e3 <= s_w <= 0.0
+            if ok:
+                found = valid[i] + frac * (valid[i + 1] - valid[i])
+                break
+        out[kind] = found
+    return out
+
+
+def _pressure_minimum(scen, first_guess, tau):
+    """Plane position [m] and pressure [Pa] of the low's mean-sea-level pressure minimum.
+
+    The minimum of the written field's analytic form (Nelder-Mead from the
+    cone's centre, to 10 m), not the cone's centre: the background gradient
+    and the troughs move it by some tens of km.
+    """
+
+    def p(xy):
+        return float(scen.mslp(np.array([xy[0]]), np.array([xy[1]]), tau)[0])
+
+    res = minimize(
+        p,
+        np.asarray(first_guess, float),
+        method="Nelder-Mead",
+        options={"xatol": 10.0, "fatol": 0.01, "initial_simplex": None},
+    )
+    return res.x, float(res.fun)
+
+
+def _iso_seconds(scen, seconds):
+    if seconds is None:
+        return None
+    return _iso(scen.start + np.timedelta64(int(round(seconds / 60.0)), "m"))
+
+
+def _readme(scen, facts):
+    """Return the event description written beside the files (README.md)."""
+    s = scen.spec
+    ana = facts["sets"]["analyses"]
+
+    def when(v):
+        return "-" if v is None else f"{v[:16]}Z"
+
+    rows = []
+    for name, lat, lon, elev in SITES:
+        p = ana["passages"][name]
+        rows.append(
+            f"| {name} | {lat:.2f} | {lon:.2f} | {elev:.0f} "
+            f"| {when(p['warm'])} | {when(p['cold'])} | {when(p['occluded'])} |"
+        )
+    lines = []
+    for label, ref, off in s.runs:
+        first = int((scen.start - np.datetime64(ref.rstrip("Z"), "s")) / np.timedelta64(1, "h"))
+        lines.append(
+            f"- `runs/{label}/step_XXX.nc`: run started {ref}, leads {first} to "
+            f"{first + s.hours} h; its fronts are {abs(off)} h "
+            f"{'early' if off > 0 else 'late'} against the analyses"
+        )
+    runs = "\n".join(lines)
+    t0, t1 = facts["valid_times"][0], facts["valid_times"][-1]
+    p0 = ana["times"][t0]["low"]["central_pressure_hpa"]
+    p1 = ana["times"][t1]["low"]["central_pressure_hpa"]
+    fz = ana["freezing_rain_window"]
+    fz_words = "none" if fz is None else f"{fz['start']} to {fz['end']}"
+    return (
+        f"""# sample_grids: the invented frontshift demo event
+
+> {CAUTION}
+> Everything here is invented: the sites, the dates and the weather. It is not
+> a real model run and not real data. It was written by `python -m tools.scenario`
+> (regenerate with `python -m tools.scenario --out sample_grids --overwrite`).
+
+## The event
+A frontal wave over the ocean west of an invented coast deepens into a mature low
+while it crosses the domain ({s.lat_range[0]:g}-{s.lat_range[1]:g} N,
+{abs(s.lon_range[0]):g} W-{s.lon_range[1]:g} E, {s.resolution_deg} deg grid) toward the
+north-east between {t0} and {t1}: central pressure {p0:g} hPa at the start, {p1:g} hPa at
+the end, deepening fastest in the first day and slowing as it occludes. The low slows and
+turns left. The warm front runs east-south-east from the triple point and curves to the
+right; the cold front trails south-south-west and curves back toward the south-west. The
+warm sector narrows: the angle between the fronts closes and, from {ana["occlusion_forms"]},
+the triple point moves away from the low along an occluded front that lengthens at
+{s.occlusion_rate_ms:g} m/s, with a warm tongue aloft (a trowal, {s.trowal_k:g} K) leaning
+over it. The isobars kink in troughs along all three fronts. Both fronts are tanh zones
+(half-widths {s.l_warm_km:g} and {s.l_cold_km:g} km) leaning 1 in {s.warm_slope_1_in:g} and 1 in
+{s.cold_slope_1_in:g} toward their cold sides; each dies out beyond about
+{s.warm_length_km:g} km (warm) and {s.cold_length_km:g} km (cold) from the triple point. A
+light-moderate rain shield starts about {s.shield_ahead_nm:g} nm ahead of the surface warm
+front, a heavier band lies {s.band_behind_nm[0]:g}-{s.band_behind_nm[1]:g} nm behind the surface
+cold front, and steady rain wraps round the low on the cold side of the occlusion. A shallow
+sub-zero layer sits ahead of the warm front over the hills around {COLD_POOL_SITE}, which gets a
+freezing-rain window (warm air aloft over sub-zero air) before the warm front passes
+(analyses: {fz_words}). A tropopause fold lies some {s.fold_behind_km:g} km behind the surface
+cold front aloft, under a jet.
+
+The land east of the coast rises to a plateau of about {s.plateau_m:g} m with invented hills;
+the sites are on land at their elevations (`orog` in every file, the model surface), and the
+fronts cross them at different stages of the life cycle.
+
+## Files
+{runs}
+- `analyses/valid_YYYYMMDDHH.nc`: verifying analyses every {s.step_h} h of the window (written as
+  one sequence whose forecast_reference_time is the window start, so that their accumulated
+  precipitation can be differenced like a run's)
+- `sites.csv`: the invented sites (`name,lat,lon,elevation_m`), all on land
+- `stations/<site>.csv`: 10-min station series drawn from the analyses with noise (pressure
+  reduced to mean sea level, temperature at the site's elevation); a few readings are missing,
+  two sites have a 70-min outage and one file holds a garbage row
+- `truth.json`: front lines (warm, cold, occluded) on the 2-m surface and on the written 850 hPa
+  heights (zone centre and the expected objective locating line), low centre and triple point,
+  speeds, slopes, the occlusion's start, site passages per run, timing offsets
+
+Every NetCDF file is CF-1.8 with standard names and units, CF int16 packing (scale_factor =
+quantization step) and zlib compression. Variables: `t`, `rh` (%), `u`, `v` (geostrophic),
+`z` on {len(LEVELS_HPA)} pressure levels; `msl`, `t2m`, `d2m`, `u10`, `v10`, `precip`
+(accumulated since forecast_reference_time, kg m-2) and `orog` (m).
+
+## Site passages in the analyses (UTC)
+| site | lat | lon | elevation m | warm front | cold front | occluded front |
+|---|---|---|---|---|---|---|
+"""
+        + "\n".join(rows)
+        + "\n"
+    )
+
+
+def _compact_json(obj):
+    """JSON with one line per list of numbers (smaller, still readable)."""
+    text = json.dumps(obj, indent=1)
+    return (
+        re.sub(
+            r"\[\s*([-0-9.eE,\s]+?)\s*\]",
+            lambda m: "[" + ", ".join(v.strip() for v in m.group(1).split(",")) + "]",
+            text,
+        )
+        + "\n"
+    )
+
+
+def _freezing_rain_window(scen, offset, need_precip=True):
+    """First and last valid time (UTC ISO) of freezing rain at the cold-pool site, 10-min steps.
+
+    Freezing rain here: the 2-m temperature at the site's elevation below
+    0 C, the warmest of the levels above the site above 0 C (the written
+    temperatures and heights), and a precipitation rate of at least 0.1 mm/h
+    (without ``need_precip``: the warm nose over sub-zero air alone).
+    """
+    lat, lon, elev = {n: (la, lo, el) for n, la, lo, el in SITES}[COLD_POOL_SITE]
+    x, y = scen.proj.forward(lon, lat)
+    hits = []
+    for minute in range(0, scen.spec.hours * 60 + 1, 10):
+        tau = minute * 60.0 + offset * 3600.0
+        t2 = scen.temperature(x, y, lat, elev + 2.0, tau)
+        t_lev, z_lev = _point_levels(scen, x, y, lat, tau)
+        above = z_lev[:, 0] > elev
+        aloft = np.max(t_lev[above, 0]) if above.any() else -np.inf
+        wet = not need_precip or scen.precip_rate(x, y, tau) >= 0.1
+        if t2 < 273.15 and aloft > 273.15 and wet:
+            hits.append(minute)
+    if not hits:
+        return None
+    return {
+        "site": COLD_POOL_SITE,
+        "start": _iso(scen.start + np.timedelta64(hits[0], "m")),
+        "end": _iso(scen.start + np.timedelta64(hits[-1], "m")),
+    }
+
+
 def truth(spec=None):
-    """Return the answers the kit should find in the sample event (a JSON-ready dict)."""
+    """Return the answers the kit should find in the sample event (a JSON-ready dict).
+
+    Everything is measured on what the files hold: the 850 hPa lines on the
+    written 850 hPa heights, the surface lines and passages on the 2-m surface
+    over the written orography at the sites' elevations.
+    """
     scen = Scenario(spec)
     s = scen.spec
-    h850 = float(standard_atmosphere_height(850.0))
-    locating_shift = {"warm": 0.658 * s.l_warm_km, "cold": 0.658 * s.l_cold_km}
+    locating_shift = {"warm": 0.658 * s.l_warm_km, "cold": 0.658 * s.l_cold_km, "occluded": 0.0}
+    k850 = LEVELS_HPA.index(850.0)
     out = {
         "description": (
-            "Invented frontshift demo event (January 2027): a frontal depression crossing the "
-            "domain toward the east-north-east while deepening, with a warm front running out "
-            "from the low toward bearing 100 deg and a cold front toward 190 deg. All names, "
-            "dates and weather are invented. Lines are (lon, lat) lists in degrees; times UTC."
+            "Invented frontshift demo event (January 2027): a frontal wave deepening into a "
+            "mature low while it crosses the domain toward the north-east; its warm sector "
+            "narrows and an occlusion forms in the second day. All names, dates and weather "
+            "are invented. Lines are (lon, lat) lists in degrees; times UTC."
         ),
         "caution": CAUTION,
         "generator": "python -m tools.scenario",
@@ -1046,25 +1650,23 @@ def truth(spec=None):
         "levels_hpa": list(LEVELS_HPA),
         "prescribed": {
             "warm": {
-                "normal_speed_ms": s.warm_speed_ms,
-                "normal_speed_note": (
-                    "constant normal speed on the conformal plane of tools.scenario; "
-                    "the earth speed differs by the map scale factor (< 1 %), "
-                    "see speed_earth_ms per time"
-                ),
-                "ray_bearing_deg": s.warm_ray_bearing_deg,
-                "normal_bearing_deg": s.warm_ray_bearing_deg - 90.0,
                 "slope_1_in": s.warm_slope_1_in,
                 "zone_half_width_l_km": s.l_warm_km,
                 "zone_width_10_90_km": round(2 * math.atanh(0.8) * s.l_warm_km, 1),
+                "length_km": s.warm_length_km,
             },
             "cold": {
-                "normal_speed_ms": s.cold_speed_ms,
-                "ray_bearing_deg": s.cold_ray_bearing_deg,
-                "normal_bearing_deg": s.cold_ray_bearing_deg - 90.0,
                 "slope_1_in": s.cold_slope_1_in,
                 "zone_half_width_l_km": s.l_cold_km,
                 "zone_width_10_90_km": round(2 * math.atanh(0.8) * s.l_cold_km, 1),
+                "length_km": s.cold_length_km,
+            },
+            "occluded": {
+                "slope_1_in": s.occluded_slope_1_in,
+                "warm_tongue_k": s.trowal_k,
+                "warm_tongue_half_width_km": s.trowal_km,
+                "starts": _iso(scen.start + np.timedelta64(int(s.occlusion_start_h * 60), "m")),
+                "lengthens_ms": s.occlusion_rate_ms,
             },
             "warm_sector_excess_k": s.dt_warm_k,
             "tropopause_fold": {
@@ -1072,44 +1674,41 @@ def truth(spec=None):
                 "depth_m": s.fold_depth_m,
                 "width_km": s.fold_width_km,
             },
-            "low_velocity_ms": [round(float(v), 3) for v in scen.apex_velocity],
-            "central_pressure_hpa": list(s.p_centre_hpa),
-            "level_heights_m_for_geometry": {
-                str(int(p)): round(float(h), 1)
-                for p, h in zip(LEVELS_HPA, scen.h_levels, strict=True)
-            },
         },
         "notes": {
             "lines": (
-                "'surface' lines are the tanh-zone centres at the surface; '850hPa' the zone "
-                "centres at the 850 hPa level (150 h toward the cold side for the warm front, "
-                "50 h for the cold front, h the ICAO standard-atmosphere height of 850 hPa); "
-                "'850hPa_locating' is where the thermal front parameter of a tanh zone peaks "
-                "and the locating function of Hewson (1998) is zero: 0.658 L on the warm side "
-                "of the zone centre (analytic, no smoothing; the linear background gradient "
-                "and the humidity change across the zone move it by a few km, and smoothing "
-                "before the parameter is computed moves it further toward the warm side). "
-                "Within about 200 km of the low centre the product of the two zones rounds "
-                "the corner of the warm sector."
-            ),
-            "theta_w": (
-                "the lines are temperature-zone centres; the 850 hPa theta-w zone (MetPy "
-                "theta-w of the written fields) lies within about 5 km of the warm-front line "
-                "and 10-20 km toward the cold side of the cold-front line, the humidity "
-                "change across the cold front widening its theta-w zone (half-width 60-75 "
-                "km against 50 km); theta-w contrast across the zones about 6.5 K (warm) "
-                "and 7-8 K (cold) at 850 hPa"
+                "'surface' lines are the tanh-zone centres on the 2-m surface over the written "
+                "orography (slope x height toward the cold side of the sea-level curve), "
+                "'850hPa' the zone centres on the written 850 hPa heights, "
+                "'850hPa_locating' where the thermal front parameter of a tanh zone peaks and "
+                "the locating function of Hewson (1998) is zero: 0.658 L on the warm side of "
+                "the zone centre (analytic, no smoothing; the background gradient and the "
+                "humidity change across the zone move it by a few km, and smoothing before "
+                "the parameter is computed moves it further toward the warm side). Warm and "
+                "cold lines run from the triple point to where the front's contrast has "
+                "fallen to half (length_km); beyond it the front dies out over about "
+                f"{s.fade_km:g} km. The occluded line runs from the low centre to the triple "
+                "point and is the axis of the warm tongue (trowal) leaning over it; it is "
+                "given once it is 150 km long. 'low' is the minimum of the mean-sea-level "
+                "pressure (the background gradient and the troughs move it some tens of km "
+                "from the centre of the low's cone, where the occluded front starts). Within "
+                "about 200 km of the triple point the product of the two zones rounds the "
+                "corner of the warm sector."
             ),
             "speeds": (
-                "normal speeds are prescribed on the conformal plane (speeds_ms); the "
-                "earth speeds per time (speed_earth_ms, 600 km from the low along each "
-                "front) differ by the map scale factor, under 1 %. The 850 hPa wind "
-                "component across the warm front is about 1.5 x its speed (warm to cold "
-                "side) and across the cold front about 1 x its speed (cold to warm side)"
+                "speed_earth_ms: the front-normal speed 600 km along each front from the "
+                "triple point (warm toward its cold side, cold toward its warm side), "
+                "measured on the geometry and divided by the map scale factor; "
+                "speed_earth_ms_along the same at the distances along each front (km) "
+                "where the front has its full contrast"
             ),
             "timing_offset_h": "positive: the run's fronts are early (the run shows the event "
             "that many hours ahead of the analyses)",
-            "passages": "time the surface front line crosses the site",
+            "passages": (
+                "time the 2-m zone centre of each front crosses the site at its elevation; "
+                "null where that front does not cross the site between 6 h before and 6 h "
+                "after the window"
+            ),
             "analyses": "one sequence with forecast_reference_time at the window start, so that "
             "its accumulated precipitation can be differenced like a run's",
         },
@@ -1124,169 +1723,73 @@ def truth(spec=None):
             "times": {},
             "passages": {},
         }
+        formed = s.occlusion_start_h - offset
+        entry["occlusion_forms"] = _iso(scen.start + np.timedelta64(int(round(formed * 60)), "m"))
         for hour in range(0, s.hours + 1, s.step_h):
             valid = scen.start + np.timedelta64(hour, "h")
             tau = (hour + offset) * 3600.0
-            ax, ay = scen.apex(tau)
-            alon, alat = scen.proj.inverse(ax, ay)
+            geo = scen.geometry(tau)
+            low_xy, low_p = _pressure_minimum(scen, geo.low, tau)
+            alon, alat = scen.proj.inverse(*low_xy)
+            tlon, tlat = scen.proj.inverse(*geo.triple)
             rec = {
-                "low": {
+                "low": {  # the MSLP minimum
                     "lon": round(float(alon), 3),
                     "lat": round(float(alat), 3),
-                    "central_pressure_hpa": round(scen.central_pressure(tau) / 100.0, 2),
-                }
+                    "central_pressure_hpa": round(low_p / 100.0, 2),
+                },
+                "triple_point": {"lon": round(float(tlon), 3), "lat": round(float(tlat), 3)},
+                "occluded_length_km": round(geo.occluded_m / 1e3, 1),
             }
-            for lvl, h, shift in (
-                ("surface", 0.0, None),
-                ("850hPa", h850, None),
-                ("850hPa_locating", h850, locating_shift),
+            _, z = scen.level_fields(tau)[:2]
+            z850 = _level_sampler(scen, z[k850])
+            for lvl, height, shift in (
+                ("surface", None, None),
+                ("850hPa", z850, None),
+                ("850hPa_locating", z850, locating_shift),
             ):
                 rec[lvl] = {}
-                for kindf in ("warm", "cold"):
-                    lon, lat = scen.front_line(
-                        kindf, tau, h=h, shift_warm_km=0.0 if shift is None else shift[kindf]
+                for kindf in TRUTH_KINDS:
+                    lon, lat = front_line(
+                        scen,
+                        kindf,
+                        tau,
+                        height=height,
+                        shift_warm_km=0.0 if shift is None else shift[kindf],
                     )
+                    if kindf == "occluded" and geo.occluded_m < 150e3:
+                        lon, lat = lon[:0], lat[:0]
                     rec[lvl][kindf] = {
                         "lon": [round(float(v), 3) for v in lon],
                         "lat": [round(float(v), 3) for v in lat],
                     }
             rec["speed_earth_ms"] = {
-                k: round(scen.earth_speed(k, tau), 3) for k in ("warm", "cold")
+                k: round(earth_speed(scen, k, tau), 3) for k in ("warm", "cold")
+            }
+            rec["speed_earth_ms_along"] = {
+                k: {
+                    str(km): round(earth_speed(scen, k, tau, along_km=km), 3)
+                    for km in ALONG_KM
+                    if km < (s.warm_length_km if k == "warm" else s.cold_length_km)
+                }
+                for k in ("warm", "cold")
             }
             entry["times"][_iso(valid)] = rec
-        for name, lat, lon, _ in SITES:
-            tw, tc = scen.passage_tau(lon, lat)
-            entry["passages"][name] = {
-                "warm": _iso(
-                    scen.start + np.timedelta64(int(round((tw - offset * 3600) / 60.0)), "m")
-                ),
-                "cold": _iso(
-                    scen.start + np.timedelta64(int(round((tc - offset * 3600) / 60.0)), "m")
-                ),
-            }
+        for name, lat, lon, elev in SITES:
+            found = passages(scen, lon, lat, elev, offset)
+            entry["passages"][name] = {k: _iso_seconds(scen, v) for k, v in found.items()}
         entry["freezing_rain_window"] = _freezing_rain_window(scen, offset)
+        entry["warm_nose_window"] = _freezing_rain_window(scen, offset, need_precip=False)
         set_name = "analyses" if folder == "analyses" else label
         out["sets"][set_name] = entry
-    out["speeds_ms"] = {"warm": s.warm_speed_ms, "cold": s.cold_speed_ms}
-    out["slopes_1_in"] = {"warm": s.warm_slope_1_in, "cold": s.cold_slope_1_in}
+    out["slopes_1_in"] = {
+        "warm": s.warm_slope_1_in,
+        "cold": s.cold_slope_1_in,
+        "occluded": s.occluded_slope_1_in,
+    }
     out["timing_offsets_h"] = {k: v["timing_offset_h"] for k, v in out["sets"].items()}
     out["freezing_rain_site"] = COLD_POOL_SITE
     return out
-
-
-def _readme(scen, facts):
-    """Return the event description written beside the files (README.md)."""
-    s = scen.spec
-    rows = []
-    for name, lat, lon, elev in SITES:
-        p = facts["sets"]["analyses"]["passages"][name]
-        rows.append(
-            f"| {name} | {lat:.2f} | {lon:.2f} | {elev:.0f} "
-            f"| {p['warm'][:16]}Z | {p['cold'][:16]}Z |"
-        )
-    lines = []
-    for label, ref, off in s.runs:
-        first = int((scen.start - np.datetime64(ref.rstrip("Z"), "s")) / np.timedelta64(1, "h"))
-        lines.append(
-            f"- `runs/{label}/step_XXX.nc`: run started {ref}, leads {first} to "
-            f"{first + s.hours} h; its fronts are {abs(off)} h "
-            f"{'early' if off > 0 else 'late'} against the analyses"
-        )
-    runs = "\n".join(lines)
-    return (
-        f"""# sample_grids: the invented frontshift demo event
-
-> {CAUTION}
-> Everything here is invented: the sites, the dates and the weather. It is not
-> a real model run and not real data. It was written by `python -m tools.scenario`
-> (regenerate with `python -m tools.scenario --out sample_grids --overwrite`).
-
-## The event
-A frontal depression crosses the domain ({s.lat_range[0]:g}-{s.lat_range[1]:g} N,
-{abs(s.lon_range[0]):g} W-{s.lon_range[1]:g} E, {s.resolution_deg} deg grid) toward the
-east-north-east at about {np.hypot(*scen.apex_velocity):.1f} m/s between {facts["valid_times"][0]}
-and {facts["valid_times"][-1]}, deepening from {s.p_centre_hpa[0]:g} to {s.p_centre_hpa[1]:g} hPa.
-The warm front runs out from the low toward bearing {s.warm_ray_bearing_deg:g} deg and moves
-north-north-east at {s.warm_speed_ms:g} m/s; the cold front runs out toward bearing
-{s.cold_ray_bearing_deg:g} deg and moves east at {s.cold_speed_ms:g} m/s. Both are tanh zones
-(half-widths {s.l_warm_km:g} and {s.l_cold_km:g} km); at 850 hPa the theta-w contrast across
-the warm-front zone itself is about 6.5 K (about 10 K between points 300 km either side, where
-the background north-south gradient adds) and 7-8 K across the cold front. The fronts lean
-1 in {s.warm_slope_1_in:g} and
-1 in {s.cold_slope_1_in:g} toward their cold sides. A light-moderate rain shield starts about
-{s.shield_ahead_nm:g} nm ahead of the surface warm front; a heavier band lies
-{s.band_behind_nm[0]:g}-{s.band_behind_nm[1]:g} nm behind the surface cold front. A shallow
-sub-zero surface layer sits ahead of the warm front around {COLD_POOL_SITE}, which gets a
-freezing-rain window (warm air aloft over sub-zero air) before the warm front passes
-(analyses: {facts["sets"]["analyses"]["freezing_rain_window"]["start"]} to
-{facts["sets"]["analyses"]["freezing_rain_window"]["end"]}). A
-tropopause fold lies some {s.fold_behind_km:g} km behind the surface cold front aloft, near the low.
-
-## Files
-{runs}
-- `analyses/valid_YYYYMMDDHH.nc`: verifying analyses every {s.step_h} h of the window (written as
-  one sequence whose forecast_reference_time is the window start, so that their accumulated
-  precipitation can be differenced like a run's)
-- `sites.csv`: the invented sites (`name,lat,lon,elevation_m`); some are offshore installations
-- `stations/<site>.csv`: 10-min station series drawn from the analyses with noise (pressure
-  reduced to mean sea level); a few readings are missing, two sites have a 70-min outage and
-  one file holds a garbage row
-- `truth.json`: front lines at the surface and at 850 hPa (zone centre and the expected
-  objective locating line), low centre, speeds, slopes, site passages per run, timing offsets
-
-Every NetCDF file is CF-1.8 with standard names and units, CF int16 packing (scale_factor =
-quantization step) and zlib compression. Variables: `t`, `rh` (%), `u`, `v` (geostrophic),
-`z` on {len(LEVELS_HPA)} pressure levels; `msl`, `t2m`, `d2m`, `u10`, `v10`, `precip`
-(accumulated since forecast_reference_time, kg m-2).
-
-## Site passages in the analyses (UTC)
-| site | lat | lon | elevation m | warm front | cold front |
-|---|---|---|---|---|---|
-"""
-        + "\n".join(rows)
-        + "\n"
-    )
-
-
-def _compact_json(obj):
-    """JSON with one line per list of numbers (smaller, still readable)."""
-    import re
-
-    text = json.dumps(obj, indent=1)
-    return (
-        re.sub(
-            r"\[\s*([-0-9.eE,\s]+?)\s*\]",
-            lambda m: "[" + ", ".join(v.strip() for v in m.group(1).split(",")) + "]",
-            text,
-        )
-        + "\n"
-    )
-
-
-def _freezing_rain_window(scen, offset):
-    """First and last time (UTC ISO) of freezing rain at the cold-pool site, 10-min steps.
-
-    Freezing rain here: 2-m temperature (sea level, no elevation correction)
-    below 0 C, the warmest of 925, 850 and 700 hPa above 0 C, and a
-    precipitation rate of at least 0.1 mm/h.
-    """
-    lat, lon = {n: (la, lo) for n, la, lo, _ in SITES}[COLD_POOL_SITE]
-    x, y = scen.proj.forward(lon, lat)
-    heights = standard_atmosphere_height(np.array([925.0, 850.0, 700.0]))
-    hits = []
-    for minute in range(0, scen.spec.hours * 60 + 1, 10):
-        tau = minute * 60.0 + offset * 3600.0
-        t2 = scen.temperature(x, y, lat, 2.0, tau)
-        aloft = np.max(scen.temperature(x, y, lat, heights, tau))
-        if t2 < 273.15 and aloft > 273.15 and scen.precip_rate(x, y, tau) >= 0.1:
-            hits.append(minute)
-    if not hits:
-        return None
-    return {
-        "site": COLD_POOL_SITE,
-        "start": _iso(scen.start + np.timedelta64(hits[0], "m")),
-        "end": _iso(scen.start + np.timedelta64(hits[-1], "m")),
-    }
 
 
 def write_sample_event(out="sample_grids", spec=None, overwrite=False):
