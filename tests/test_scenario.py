@@ -65,6 +65,17 @@ def _interp(ds, name, level=None):
     )
 
 
+def _with_theta_w_850(ds):
+    """The analysis with MetPy's 850 hPa theta-w [lib] as ``thw`` (time, lat, lon) [K]."""
+    t = ds.t.isel(time=0).sel(level=850.0)
+    rh = ds.rh.isel(time=0).sel(level=850.0)
+    td = mpcalc.dewpoint_from_relative_humidity(t.values * units.K, rh.values / 100.0)
+    thw = mpcalc.wet_bulb_potential_temperature(850.0 * units.hPa, t.values * units.K, td)
+    ds["thw"] = (("lat", "lon"), thw.m_as("K"))
+    ds["thw"] = ds["thw"].expand_dims(time=ds.time)
+    return ds
+
+
 def _orog_at(ds):
     """Bilinear sampler of the written orography (no time dimension) at (lat, lon) points."""
     return RegularGridInterpolator((ds.lat.values, ds.lon.values), ds.orog.values,
@@ -583,13 +594,7 @@ def test_warm_tongue_over_the_occlusion(truth):
     # the occlusion's warm tongue aloft: theta-w at 850 hPa (MetPy) higher on
     # the truth 850 hPa occluded line than 250 km either side of it
     hour = 45
-    ds = _open(_analysis(hour))
-    t = ds.t.isel(time=0).sel(level=850.0)
-    rh = ds.rh.isel(time=0).sel(level=850.0)
-    td = mpcalc.dewpoint_from_relative_humidity(t.values * units.K, rh.values / 100.0)
-    thw = mpcalc.wet_bulb_potential_temperature(850.0 * units.hPa, t.values * units.K, td)
-    ds["thw"] = (("lat", "lon"), thw.m_as("K"))
-    ds["thw"] = ds["thw"].expand_dims(time=ds.time)
+    ds = _with_theta_w_850(_open(_analysis(hour)))
     line = truth["sets"]["analyses"]["times"][_iso(hour)]["850hPa"]["occluded"]
     for km in (100.0, 200.0):
         lon0, lat0, az_ray = _point_along(line, km)
@@ -648,13 +653,7 @@ def test_front_normal_winds_at_850(truth, hour):
 def test_theta_w_contrast_at_850(truth):
     # theta-w by MetPy [lib] (Bolton theta-e then Davies-Jones 2008); the
     # prescribed contrast across each 850 hPa zone is 6-10 K (scenario design)
-    ds = _open(_analysis(24))
-    t = ds.t.isel(time=0).sel(level=850.0)
-    rh = ds.rh.isel(time=0).sel(level=850.0)
-    td = mpcalc.dewpoint_from_relative_humidity(t.values * units.K, rh.values / 100.0)
-    thw = mpcalc.wet_bulb_potential_temperature(850.0 * units.hPa, t.values * units.K, td)
-    ds["thw"] = (("lat", "lon"), thw.m_as("K"))
-    ds["thw"] = ds["thw"].expand_dims(time=ds.time)
+    ds = _with_theta_w_850(_open(_analysis(24)))
     for kind in ("warm", "cold"):
         s, vals, _ = _across(ds, truth, 24, kind, 700.0, 400.0, "thw", line_level="850hPa")
         ok = np.isfinite(vals)
