@@ -511,6 +511,43 @@ def test_passages_are_consistent(truth):
     assert truth["timing_offsets_h"] == {"analyses": 0.0, RUN_A: 1.5, RUN_B: -2.0}
 
 
+def test_passages_are_where_the_written_2m_theta_w_steps(truth):
+    """[regression] a warm or cold passage of truth.json is when the site's own 2-m air
+    changes fastest (what a station sees): in the written analyses, sampled bilinearly at
+    the site every 3 h with MetPy's theta-w [lib] (MSLP reduced to the written orography),
+    the 3-h interval holding the truth time changes by at least 60 % of the largest
+    same-signed change within 6 h of it, and the sign is the front's (warm up, cold down)."""
+    ana = truth["sets"]["analyses"]["passages"]
+    series = {}
+    for hour in range(0, 49, 3):
+        ds = _open(_analysis(hour))
+        for name, lat, lon, _ in sc.SITES:
+            pt = np.c_[[lat], [lon]]
+            t2 = _interp(ds, "t2m")(pt)[0]
+            td = _interp(ds, "d2m")(pt)[0]
+            h = _orog_at(ds)(pt)[0] + 2.0
+            ps = _interp(ds, "msl")(pt)[0] * math.exp(-sc.G0 * h / (sc.RD * t2))
+            thw = mpcalc.wet_bulb_potential_temperature(ps * units.Pa, t2 * units.K,
+                                                        td * units.K).m_as("K")
+            series.setdefault(name, []).append(float(thw))
+    start = np.datetime64("2027-01-14T00:00")
+    checked = 0
+    for name, kinds in ana.items():
+        thw = np.array(series[name])
+        for kind, sign in sc.STEP_SIGN.items():
+            if kinds[kind] is None:
+                continue
+            h = (np.datetime64(kinds[kind].rstrip("Z")) - start) / np.timedelta64(1, "h")
+            k = int(h // 3)
+            if not 1 <= k <= 14:
+                continue
+            change = sign * np.diff(thw)
+            near = change[max(k - 2, 0):k + 3]
+            assert change[k] > 0 and change[k] >= 0.6 * near.max(), (name, kind, change[k], near)
+            checked += 1
+    assert checked >= 8
+
+
 def test_run_fronts_are_offset_in_time(truth):
     # run A shows the event 1.5 h ahead: its +24 h cold front is where the
     # analyses' cold front is 1.5 h later, i.e. about 1.5 h * its speed on

@@ -620,11 +620,18 @@ def test_sample_event_warm_front_section():
     L = truth["prescribed"]["warm"]["zone_half_width_l_km"]
     centre = _crossing_km(sec, *_truth_line(entry, valid, "warm"))
     # the surface front of every product is the centre of the 2 m zone (issue 16: one
-    # definition), the maximum of its gradient: where the scenario puts its surface line;
-    # smoothing a symmetric tanh zone does not move its maximum (tolerance: half a grid
-    # length of 0.5 degree and the 10 km section spacing)
+    # definition), the maximum of its gradient, referred to the site's ground (issue 17):
+    # where the scenario's frontal surface (its surface line meets the ground along the
+    # section) would meet ground at the site's height, i.e. the truth crossing moved
+    # toward the warm side (the section's end) by slope x (ground there - ground at the
+    # site); smoothing a symmetric tanh zone does not move its maximum (tolerance: half
+    # a grid length of 0.5 degree and the 10 km section spacing)
     assert L > 0
-    np.testing.assert_allclose(sec.attrs["surface_front_km"], centre, atol=25.0)
+    dist, ground = sec["distance"].values, sec["ground_m"].values
+    n = truth["prescribed"]["warm"]["slope_1_in"]
+    referred = centre + n * (np.interp(centre, dist, ground)
+                             - np.interp(sec.attrs["site_km"], dist, ground)) / 1000.0
+    np.testing.assert_allclose(sec.attrs["surface_front_km"], referred, atol=25.0)
     assert sec.attrs["surface_front_from"] == "centre of the 2 m theta-w zone"
     # [trade] the 0 C level is higher in the warm sector than ahead of the warm front
     d, fl = sec["distance"].values, sec["freezing_level_m"].values

@@ -112,6 +112,7 @@ __all__ = [
     "ZoneCentre",
     "SurfaceFront",
     "find_passages",
+    "crossing_fraction",
     "weather_sequence",
 ]
 
@@ -737,11 +738,18 @@ class SurfaceFront:
                                      np.full(s_km.size, float(lat)),
                                      np.full(s_km.size, bearing), s_km)
         one = self._at(front.valid_time, front.member)
-        tau = sections.near_surface_profile(one, plat, plon, self.field)
+        # the site itself is sampled last: its ground is the height the
+        # profile is referred to (the frontal surface meets the ground there)
+        tau, ground = sections.near_surface_profile(
+            one, np.append(plat, float(lat)), np.append(plon, float(lon)), self.field,
+            with_ground=True)
         if tau is None:
             return np.nan
-        return sections.surface_front_1d(tau, s_km, sections.surface_smoothing_km(self.grid_km),
-                                         float(guess_km), +1)
+        site_m = ground[-1] if ground is not None else np.nan
+        return sections.surface_front_1d(
+            tau[:-1], s_km, sections.surface_smoothing_km(self.grid_km), float(guess_km), +1,
+            ground_m=None if ground is None else ground[:-1], reference_m=site_m,
+            slope_1_in=sections.front_slope_1_in(front)[0])
 
 
 def _level_height(zlev, level, time):
@@ -859,14 +867,15 @@ def find_passages(
         times = sorted(by_time)
         steps = [(h, *by_time[h]) for h in times]
         hits, misses = [], []
-        for (h0, f0, g0), (h1, f1, g1) in zip(steps[:-1], steps[1:], strict=True):
+        for i, ((h0, f0, g0), (h1, f1, g1)) in enumerate(zip(steps[:-1], steps[1:],
+                                                              strict=True)):
             d0, d1 = g0["d_km"], g1["d_km"]
             if d0 == d1 or d0 * d1 > 0 or (d0 == 0 and h0 != times[0]):
                 continue
             rate = abs(d1 - d0) / (h1 - h0)
             if rate > _MAX_FRONT_SPEED_KMH:
                 continue
-            w = d0 / (d0 - d1)
+            w = crossing_fraction(times, [st[2]["d_km"] for st in steps], i)
             tp = h0 + w * (h1 - h0)
             kind = f0.kind if w < 0.5 else f1.kind
             placed = g0["from"] if g0["from"] == g1["from"] else (
@@ -938,6 +947,39 @@ def find_passages(
         r.pop("_end_km", None)
     out.sort(key=lambda r: (np.nan_to_num(r["passage"], nan=1e18), r["track"]))
     return out
+
+
+def crossing_fraction(hours, distance_km, i):
+    """Where between steps ``i`` and ``i + 1`` a site's distance from a front is zero (0..1).
+
+    The distance is fitted with a parabola in time through the two steps and
+    their outer neighbours where there are any (a front that speeds up or
+    slows down between 3-hourly steps, as a deepening wave's do), else
+    interpolated linearly; the parabola is used only where it crosses zero
+    once between the two steps. The arrival table times passages with it;
+    the one-passage test reads the sections with it.
+
+    Parameters
+    ----------
+    hours : array_like
+        Step times [h], increasing.
+    distance_km : array_like
+        Signed distance at each step [km]; steps ``i`` and ``i + 1`` differ in sign.
+    i : int
+        The step before the crossing.
+    """
+    h = np.asarray(hours, float)
+    d = np.asarray(distance_km, float)
+    h0, h1, d0, d1 = h[i], h[i + 1], d[i], d[i + 1]
+    w = d0 / (d0 - d1)
+    sl = slice(max(i - 1, 0), min(i + 3, h.size))
+    hs, ds = h[sl] - h0, d[sl]
+    if hs.size < 3 or not np.isfinite(ds).all():
+        return float(w)
+    a, b, c = np.polyfit(hs, ds, 2)
+    roots = np.roots([a, b, c]) if abs(a) > 1e-12 else np.array([-c / b])
+    inside = [r.real for r in roots if abs(r.imag) < 1e-9 and 0.0 <= r.real <= h1 - h0]
+    return float(inside[0] / (h1 - h0)) if len(inside) == 1 else float(w)
 
 
 def _miss(tid, kind, front, g, tp, shift, centre, extrap=False):

@@ -79,6 +79,8 @@ __all__ = [
     "near_surface_profile",
     "surface_smoothing_km",
     "SURFACE_SEARCH_KM",
+    "GROUND_REFERRAL_MAX_1_IN",
+    "refer_to_height",
     "fit_frontal_slope",
     "compass_point",
     "select_time",
@@ -527,8 +529,58 @@ def surface_smoothing_km(grid_km):
 SURFACE_SEARCH_KM = 300.0
 
 
+#: the flattest frontal surface the ground referral believes, 1 in N (a warm
+#: front's 1:100-1:300, from memory): a flatter fitted slope would move 500 m
+#: of ground by more than 150 km
+GROUND_REFERRAL_MAX_1_IN = 300.0
+
+
+def refer_to_height(tau, dist_km, ground_m, reference_m, slope_1_in, warm_sign):
+    """Resample a near-surface profile as if the ground were at one height [K].
+
+    A frontal surface of slope 1 in N meets ground h metres higher N h metres
+    further toward the cold side, so over hills and valleys the 2-m zone is
+    bent and its gradient stretched or squeezed by the ground's slope (by
+    1 - N dh/ds: with N = 150 and 300 m over 30 km, a factor of 2.5). The point
+    at ``s`` on ground ``h(s)`` is moved to ``s + warm_sign N (h(s) - h_ref)``
+    and the profile read back on the even distances, so the zone lies where
+    the frontal surface meets ``reference_m``, the ground at the site: what the
+    site will see. Flat ground, a missing ground or slope leave it unchanged.
+
+    Parameters
+    ----------
+    tau, dist_km, ground_m : array_like
+        Profile [K], its even distances [km] and the ground under it [m].
+    reference_m : float
+        Height the profile is referred to [m] (the site's ground).
+    slope_1_in : float
+        The front's slope N (1 in N); capped at :data:`GROUND_REFERRAL_MAX_1_IN`.
+    warm_sign : int
+        +1 when the warm side is toward larger distance, -1 otherwise.
+
+    Returns
+    -------
+    numpy.ndarray
+        The profile on ``dist_km``; NaN where no moved point covers it.
+    """
+    tau = np.asarray(tau, float)
+    dist_km = np.asarray(dist_km, float)
+    if ground_m is None or not (np.isfinite(reference_m) and np.isfinite(slope_1_in)):
+        return tau
+    ground_m = np.asarray(ground_m, float)
+    n = min(abs(float(slope_1_in)), GROUND_REFERRAL_MAX_1_IN)
+    moved = dist_km + warm_sign * n * (ground_m - float(reference_m)) / 1000.0
+    ok = np.isfinite(tau) & np.isfinite(moved)
+    if ok.sum() < 5:
+        return tau
+    order = np.argsort(moved[ok], kind="stable")
+    xs, ys = moved[ok][order], tau[ok][order]
+    return np.interp(dist_km, xs, ys, left=np.nan, right=np.nan)
+
+
 def surface_front_1d(tau, dist_km, smoothing_km, guess_km, warm_sign,
-                     window_km=SURFACE_SEARCH_KM):
+                     window_km=SURFACE_SEARCH_KM, *, ground_m=None, reference_m=np.nan,
+                     slope_1_in=np.nan):
     """Position of the surface front on a near-surface profile: the zone's centre [km].
 
     THE definition of the surface front of every product (table, section,
@@ -539,7 +591,10 @@ def surface_front_1d(tau, dist_km, smoothing_km, guess_km, warm_sign,
     edge instead, Hewson 1998). Among the gradient maxima of at least a
     quarter of the profile's largest, with warmer air toward ``warm_sign``,
     the one nearest ``guess_km`` within ``window_km`` is taken; the maximum is
-    refined with a parabola through its neighbours.
+    refined with a parabola through its neighbours. Over uneven ground the
+    profile is first referred to the site's ground (:func:`refer_to_height`,
+    with ``ground_m``, ``reference_m`` and the front's ``slope_1_in``), so the
+    centre is where the frontal surface meets the ground at the site.
 
     Parameters
     ----------
@@ -555,14 +610,17 @@ def surface_front_1d(tau, dist_km, smoothing_km, guess_km, warm_sign,
         +1 when the warm side is toward larger distance, -1 otherwise.
     window_km : float
         Largest distance from the guess [km].
+    ground_m, reference_m, slope_1_in : array_like, float, float, optional
+        The ground under the profile [m], the site's ground [m] and the
+        front's slope (1 in N); see :func:`refer_to_height`.
 
     Returns
     -------
     float
         Position [km]; NaN when no zone centre lies within the window.
     """
-    tau = np.asarray(tau, float)
     dist_km = np.asarray(dist_km, float)
+    tau = refer_to_height(tau, dist_km, ground_m, reference_m, slope_1_in, warm_sign)
     if tau.size < 5 or not np.isfinite(guess_km) or np.isfinite(tau).sum() < 5:
         return np.nan
     ds_km = float(np.median(np.diff(dist_km)))
@@ -979,9 +1037,13 @@ def _add_frontal_surface(sec, *, reference_km, reference_hpa, front_kind, smooth
         ref = _surface_guess_km(sec, reference_km, reference_hpa, slope, cold, pos, zpos,
                                 ground_at_km=ground_at_km, centre_km=centre_km)
         if ref is not None:
+            ground = sec["ground_m"].values if "ground_m" in sec else None
+            at = ref if ground_at_km is None else float(ground_at_km)
+            site_m = float(np.interp(at, dist, ground)) if ground is not None else np.nan
             surf = surface_front_1d(sec[surface].values, dist,
                                     smoothing_km or surface_smoothing_km(sec.attrs["grid_km"]),
-                                    float(ref), -cold)
+                                    float(ref), -cold, ground_m=ground, reference_m=site_m,
+                                    slope_1_in=slope)
             if np.isfinite(surf):
                 how = f"centre of the 2 m {_FIELD_WORDS[field]} zone"
     if not np.isfinite(surf) and np.isfinite(pos).any():
@@ -1153,7 +1215,7 @@ def surface_pressure_hpa(flat, shape):
     return p * np.exp(-G0 * z / (RD * t_mean)), "mslp taken down to the model surface"
 
 
-def near_surface_profile(one, lat, lon, field):
+def near_surface_profile(one, lat, lon, field, *, with_ground=False):
     """Sample the near-surface thermal field along points, as a section does [K].
 
     Parameters
@@ -1165,15 +1227,19 @@ def near_surface_profile(one, lat, lon, field):
     field : {"theta_w", "theta"}
         2-m theta-w or 2-m theta, at the surface pressure of
         :func:`surface_pressure_hpa`.
+    with_ground : bool
+        Also return the model surface height at the points [m] (None without
+        ``zsfc``).
 
     Returns
     -------
     numpy.ndarray or None
-        NaN outside the grid; None when the run lacks the 2-m fields.
+        NaN outside the grid; None when the run lacks the 2-m fields. With
+        ``with_ground``, the pair (profile, ground).
     """
     need = ["t2m", "td2m"] if field == "theta_w" else ["t2m"]
     if any(n not in one for n in need):
-        return None
+        return (None, None) if with_ground else None
     keep = need + [n for n in SURFACE_PRESSURE_FIELDS if n in one]
     keep += sorted({one[n].attrs["grid_mapping"] for n in need
                     if one[n].attrs.get("grid_mapping") in one.variables})
@@ -1182,9 +1248,14 @@ def near_surface_profile(one, lat, lon, field):
     flat = PointSampler(sub).sample_dataset(sub, index=(j, i), nan="propagate", dim="distance")
     psfc, _ = surface_pressure_hpa(flat, (np.asarray(lat).size,))
     if field == "theta_w":
-        return np.asarray(thermo.wet_bulb_potential_temperature(
+        tau = np.asarray(thermo.wet_bulb_potential_temperature(
             flat["t2m"].values, flat["td2m"].values, psfc), float)
-    return np.asarray(thermo.potential_temperature(flat["t2m"].values, psfc), float)
+    else:
+        tau = np.asarray(thermo.potential_temperature(flat["t2m"].values, psfc), float)
+    if not with_ground:
+        return tau
+    ground = np.asarray(flat["zsfc"].values, float) if "zsfc" in flat else None
+    return tau, ground
 
 
 def _nearest_on_line(x, y):

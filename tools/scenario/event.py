@@ -76,9 +76,11 @@ import sys
 from dataclasses import dataclass
 from pathlib import Path
 
+import metpy.calc as mpcalc
 import netCDF4
 import numpy as np
 import shapely
+from metpy.units import units
 from scipy.interpolate import RegularGridInterpolator
 from scipy.ndimage import gaussian_filter
 from scipy.optimize import minimize
@@ -1461,8 +1463,51 @@ def passages(scen, lon, lat, elevation, offset_h, step_min=5):
             if ok:
                 found = valid[i] + frac * (valid[i + 1] - valid[i])
                 break
+        if found is not None and kind in STEP_SIGN:
+            found = _station_step(scen, lon, lat, elevation, offset_h, found, STEP_SIGN[kind])
         out[kind] = found
     return out
+
+
+#: the sign of a site's 2-m theta-w step at each front's passage
+STEP_SIGN = {"warm": +1, "cold": -1}
+
+
+def _station_step(scen, lon, lat, elevation, offset_h, near_s, sign, half_h=3.0, step_s=120.0):
+    """Return the time a site's 2-m theta-w changes fastest [s since start], nearest ``near_s``.
+
+    What a station on the site sees (the middle of its temperature change,
+    Sanders 1999): the site's own 2-m air at its elevation in the analytic
+    event, on 2-minute steps within ``half_h`` of the frontal surface's
+    crossing ``near_s``, its theta-w from MetPy (an implementation outside the
+    kit), the surface pressure MSLP reduced to the elevation hypsometrically.
+    Where the zone is spread out (a dying front) this is where its change is
+    steepest, which the crossing of the zone's geometric centre is not.
+    """
+    ts = near_s + np.arange(-half_h * 3600.0, half_h * 3600.0 + 1.0, step_s)
+    x, y = scen.proj.forward(np.full(ts.size, lon), np.full(ts.size, lat))
+    lat_a = np.full(ts.size, lat)
+    h = elevation + 2.0
+    tau = ts + offset_h * 3600.0
+    t2 = np.array([float(scen.temperature(x[k:k + 1], y[k:k + 1], lat_a[k:k + 1], h, tau[k])[0])
+                   for k in range(ts.size)])
+    rh = np.array([float(scen.relative_humidity(
+        x[k:k + 1], y[k:k + 1], h, tau[k],
+        rate=scen.precip_rate(x[k:k + 1], y[k:k + 1], tau[k]))[0]) for k in range(ts.size)])
+    msl = np.array([float(scen.mslp(x[k:k + 1], y[k:k + 1], tau[k])[0]) for k in range(ts.size)])
+    t_sea = np.array([float(scen.temperature(x[k:k + 1], y[k:k + 1], lat_a[k:k + 1], 0.0,
+                                             tau[k])[0]) for k in range(ts.size)])
+    ps = msl * np.exp(-G0 * h / (RD * 0.5 * (t_sea + t2)))
+    td = dewpoint_from_rh(t2, rh)
+    thw = mpcalc.wet_bulb_potential_temperature(
+        ps * units.Pa, t2 * units.K, td * units.K).to("K").magnitude
+    rate = sign * np.gradient(thw, ts)
+    m = int(np.argmax(rate))
+    if 0 < m < ts.size - 1:
+        a, b, c = rate[m - 1], rate[m], rate[m + 1]
+        den = a - 2.0 * b + c
+        return float(ts[m] + (0.5 * (a - c) / den * step_s if den < 0 else 0.0))
+    return float(ts[m])
 
 
 def _pressure_minimum(scen, first_guess, tau):
