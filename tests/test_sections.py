@@ -21,10 +21,10 @@ import kit
 import kit.science.sections as S
 from kit.constants import EARTH_RADIUS_M
 from kit.errors import InputError
-from kit.science.geo import local_east_north_km
 from kit.model import Front
 from kit.pipeline import analyse
 from kit.products.sections import section
+from kit.science.geo import local_east_north_km
 
 LEVELS = np.array([1000.0, 925.0, 850.0, 700.0, 600.0, 500.0, 400.0, 300.0, 250.0, 200.0])
 REF = np.datetime64("2027-01-13T18:00", "ns")
@@ -746,3 +746,25 @@ def test_section_across_front_southern_hemisphere_and_dateline():
     fig = section_figure(sec)
     legend = [t.get_text() for t in fig.legends[0].get_texts()]
     assert "-2 PVU (dynamic tropopause)" in legend  # [pub] Hoskins et al. (1985), south
+
+
+def test_profile_referred_to_the_site_ground_is_the_frontal_surface_at_the_site():
+    """[analytic] a tanh zone of half-width 60 km on a frontal surface of slope
+    1:150 over a 400 m hill: the point at s on ground h(s) sees the zone centred where
+    s - s0 + 150 h(s) = 0. Referred to the site's ground (0 m at s = 0), the zone's
+    gradient maximum is s0 - 150 h_site = s0 within one 10-km spacing; unreferred it is
+    bent off by the hill."""
+    from kit.science.sections import refer_to_height, surface_front_1d
+
+    s = np.arange(-400.0, 401.0, 10.0)
+    ground = 400.0 * np.exp(-(((s - 60.0) / 50.0) ** 2))  # [m], 0 at the site (s = 0)
+    s0, n = 40.0, 150.0
+    tau = 280.0 + 3.0 * (1.0 + np.tanh((s - s0 + n * ground / 1000.0) / 60.0))
+    got = surface_front_1d(tau, s, 25.0, 0.0, +1, ground_m=ground, reference_m=0.0,
+                           slope_1_in=n)
+    assert got == pytest.approx(s0, abs=10.0)
+    bent = surface_front_1d(tau, s, 25.0, 0.0, +1)
+    assert abs(bent - s0) > 20.0, bent
+    # flat ground, or no slope: unchanged
+    assert np.array_equal(refer_to_height(tau, s, np.zeros_like(s), 0.0, n, +1), tau)
+    assert np.array_equal(refer_to_height(tau, s, ground, 0.0, np.nan, +1), tau)
