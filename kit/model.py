@@ -41,6 +41,7 @@ __all__ = [
     "Front",
     "Track",
     "Analysis",
+    "FRONT_KINDS",
     "json_float",
     "json_clean",
     "front_properties",
@@ -50,6 +51,9 @@ __all__ = [
 
 #: vertex arrays of a front, read-only once the front is made
 VERTEX_FIELDS = ("lon", "lat", "tfp", "grad", "normal_east", "normal_north", "vn")
+
+#: the kinds of front the kit types (WMO symbols for each in kit.charts.style)
+FRONT_KINDS = ("warm", "cold", "quasi-stationary", "occluded")
 
 
 def json_float(x, ndigits=3):
@@ -190,7 +194,7 @@ class Front:
         Vertices [degrees]; longitude in -180..180 unless the grid is contiguous
         across the dateline, then it follows the grid (wrap it when exporting).
     kind : str
-        ``"warm"``, ``"cold"`` or ``"quasi-stationary"``.
+        ``"warm"``, ``"cold"``, ``"quasi-stationary"`` or ``"occluded"``.
     valid_time : numpy.datetime64
         Valid time (UTC).
     level_hpa : float
@@ -216,6 +220,9 @@ class Front:
         Track id shared over lead times (set by tracking).
     detection, link, motion, structure
         The parts later steps fill in (module docstring); None until then.
+    low_track : int or None
+        Track id of the low the front belongs to (``Analysis.centres``), where
+        one does (:func:`kit.science.centres.assign_lows`).
     """
 
     lon: np.ndarray
@@ -237,6 +244,7 @@ class Front:
     link: TrackLink | None = None
     motion: FrontMotion | None = None
     structure: FrontStructure | None = None
+    low_track: int | None = None
 
     def __post_init__(self):
         n = None
@@ -253,9 +261,10 @@ class Front:
                     f"Front: {name} has shape {arr.shape}; expected {n} like lon "
                     "(one value per vertex)"
                 )
-        if self.kind not in ("warm", "cold", "quasi-stationary"):
+        if self.kind not in FRONT_KINDS:
             raise InputError(
-                f"Front: kind {self.kind!r}; expected 'warm', 'cold' or 'quasi-stationary'"
+                f"Front: kind {self.kind!r}; expected 'warm', 'cold', 'quasi-stationary' "
+                "or 'occluded'"
             )
         object.__setattr__(self, "valid_time", np.datetime64(self.valid_time, "ns"))
 
@@ -305,6 +314,8 @@ class Front:
             out.update(dataclasses.asdict(self.motion))
         if self.structure is not None:
             out.update(dataclasses.asdict(self.structure))
+        if self.low_track is not None:
+            out["low_track"] = int(self.low_track)
         return out
 
     @property
@@ -401,6 +412,9 @@ class Analysis:
         The canonical run the fronts came from (products sample it).
     steps : tuple of str
         The pipeline steps applied (``"find"``, ``"track"``, ``"speeds"``, ``"slopes"``).
+    centres : tuple of kit.science.centres.CentreTrack
+        Lows and highs of the run's MSLP tracked over its valid times (empty
+        without MSLP); fronts name their low by ``Front.low_track``.
     caution : str
         :data:`kit.CAUTION`.
     """
@@ -413,10 +427,12 @@ class Analysis:
     members: tuple = (None,)
     dataset: Any = dataclasses.field(default=None, repr=False)
     steps: tuple = ()
+    centres: tuple = ()
     caution: str = CAUTION
 
     def __post_init__(self):
         object.__setattr__(self, "fronts", tuple(self.fronts))
+        object.__setattr__(self, "centres", tuple(self.centres))
         for fr in self.fronts:
             if not isinstance(fr, Front):
                 raise InputError(f"Analysis: got {type(fr).__name__}; expected Front objects")

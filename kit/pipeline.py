@@ -17,6 +17,7 @@ import numpy as np
 
 from kit.errors import InputError
 from kit.model import Analysis
+from kit.science.centres import assign_lows, find_run_centres, track_centres
 from kit.science.fronts import FrontSettings, find_fronts
 from kit.science.motion import speeds_three_ways, track_fronts
 from kit.science.structure import add_slopes
@@ -108,6 +109,11 @@ def analyse(ds, *, level=850.0, settings=None, member=None, steps=STEPS):
         )
     if "slopes" in steps:
         fronts = add_slopes(fronts, ds, settings=settings)
+    centres = ()
+    if "mslp" in ds:
+        # lows and highs of the same run; each front names the low it belongs to
+        centres = tuple(track_centres(find_run_centres(ds)))
+        fronts = assign_lows(fronts, centres)
     times = tuple(np.datetime64(t, "ns") for t in np.atleast_1d(ds["time"].values))
     return Analysis(
         fronts=tuple(fronts),
@@ -118,4 +124,5 @@ def analyse(ds, *, level=850.0, settings=None, member=None, steps=STEPS):
         members=tuple(members),
         dataset=ds,
         steps=steps,
+        centres=centres,
     )

@@ -28,9 +28,13 @@ from scipy import ndimage, optimize
 import kit
 from kit.constants import EARTH_RADIUS_KM, EARTH_RADIUS_M
 from kit.errors import InputError
+from kit.model import Front
 from kit.science.centres import (
+    LOW_FRONT_KM,
     Centre,
     CentreSettings,
+    CentreTrack,
+    assign_lows,
     bergerons,
     centres_geojson_features,
     explosive_threshold_hpa_24h,
@@ -625,3 +629,48 @@ def test_real_nam_no_centre_over_high_ground_and_the_mask_matters():
     unmasked = find_run_centres(ds, settings=CentreSettings(max_surface_m=math.inf))
     high = [c for c in unmasked if z[int(round(c.j)), int(round(c.i))] > 1000.0]
     assert len(high) >= 3
+
+
+def _line(lon, lat, time, member=None):
+    lon, lat = np.asarray(lon, float), np.asarray(lat, float)
+    n = lon.size
+    return Front(lon=lon, lat=lat, kind="cold", valid_time=time, level_hpa=850.0,
+                 tfp=np.ones(n), grad=np.ones(n), normal_east=np.zeros(n),
+                 normal_north=np.ones(n), vn=np.zeros(n), speed_ms=0.0, length_km=0.0,
+                 member=member)
+
+
+def test_fronts_know_their_low():
+    """A front belongs to the low of its time and member nearest any of its vertices within
+    LOW_FRONT_KM (common practice, no source); a one-isobar dimple claims nothing; the
+    distances checked with pyproj's geodesic on the kit's sphere [lib]."""
+    deep = Centre("low", -20.0, 55.0, 975.0, 14.0, 7, 975.2, 27.8, valid_time=T0, track=1)
+    dimple = Centre("low", -10.0, 50.5, 1008.0, 1.2, 1, 1008.1, 27.8, valid_time=T0, track=2)
+    later = deep.replace(valid_time=T0 + STEP)
+    tracks = [CentreTrack(1, "low", None, (deep, later)), CentreTrack(2, "low", None, (dimple,))]
+    near = _line([-18.0, -14.0, -10.0], [52.0, 49.0, 46.0], T0)  # about 350 km from the low
+    far = _line([20.0, 24.0], [40.0, 38.0], T0)
+    beside_dimple = _line([-10.5, -9.5], [50.0, 49.0], T0)
+    other_time = _line([-18.0, -14.0], [52.0, 49.0], T0 + 2 * STEP)
+    got = assign_lows([near, far, beside_dimple, other_time], tracks)
+    # the line beside the dimple is within reach of the deep low: it goes to the deep one
+    assert GEOD.inv(-20.0, 55.0, -10.5, 50.0)[2] / 1000.0 < LOW_FRONT_KM
+    assert [f.low_track for f in got] == [1, None, 1, None]
+    assert got[0].props["low_track"] == 1 and "low_track" not in got[1].props
+    assert near.low_track is None  # a new front, the old one unchanged
+
+
+@pytest.mark.slow
+def test_demo_analysis_holds_its_low_and_its_fronts_name_it():
+    """[regression] the invented demo event: one deepening low (truth.json's MSLP
+    minimum), every front of the newest run belonging to it."""
+    from kit.io.runs import open_run
+    from kit.pipeline import analyse
+
+    sample = Path(__file__).resolve().parents[1] / "sample_grids"
+    a = analyse(open_run(sample / "runs" / "2027-01-14T00Z"))
+    lows = [tr for tr in a.centres if tr.kind == "low"]
+    assert len(lows) == 1
+    p = lows[0].pressure_hpa
+    assert p[0] > p[-1] + 15.0  # it deepens through the run
+    assert {f.low_track for f in a.fronts} == {lows[0].track}

@@ -68,6 +68,8 @@ __all__ = [
     "explosive_threshold_hpa_24h",
     "bergerons",
     "centres_geojson_features",
+    "LOW_FRONT_KM",
+    "assign_lows",
 ]
 
 #: deepening of one "bergeron" [hPa per 24 h] at :data:`BERGERON_LAT_DEG`: the
@@ -1173,4 +1175,54 @@ def centres_geojson_features(centres):
                     "properties": c.props,
                 }
             )
+    return out
+
+
+# --------------------------------------------------------------------------- fronts and lows
+#: farthest a front's nearest vertex may lie from a low's centre for the front
+#: to belong to it [km] (common practice, no source: the fronts of a mature
+#: low meet at its triple point, within about 1000 km of the centre)
+LOW_FRONT_KM = 1200.0
+
+
+def assign_lows(fronts, tracks, max_km=LOW_FRONT_KM):
+    """Give each front the low it belongs to (``Front.low_track``), where one does.
+
+    A front belongs to the low of the same valid time and member whose
+    centre is nearest any of its vertices, within ``max_km``; the deepest of
+    equally near lows wins. Lows need two or more closed isobars, so a weak
+    dimple in a trough does not claim the fronts.
+
+    Parameters
+    ----------
+    fronts : iterable of kit.model.Front
+    tracks : iterable of CentreTrack
+        From :func:`track_centres`.
+    max_km : float
+        Largest distance from the centre to the front's nearest vertex [km].
+
+    Returns
+    -------
+    list of kit.model.Front
+        New fronts (``replace``), in the order given; ``low_track`` None where
+        no low is near.
+    """
+    lows = {}
+    for tr in tracks:
+        if tr.kind != "low":
+            continue
+        for c in tr.centres:
+            if c.closed_isobars >= 2:
+                key = (np.datetime64(c.valid_time, "ns"), c.member)
+                lows.setdefault(key, []).append((tr.track, c))
+    out = []
+    for fr in fronts:
+        best = None
+        for tid, c in lows.get((np.datetime64(fr.valid_time, "ns"), fr.member), ()):
+            d = float(np.min(great_circle_km(np.asarray(fr.lon), np.asarray(fr.lat),
+                                             c.lon, c.lat)))
+            if d <= max_km and (best is None or (d, c.pressure_hpa) < best[:2]):
+                best = (d, c.pressure_hpa, tid)
+        low = None if best is None else int(best[2])
+        out.append(fr if fr.low_track == low else fr.replace(low_track=low))
     return out
